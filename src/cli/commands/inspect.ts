@@ -1,0 +1,71 @@
+// defines: the `inspect` command — what a safetensors file holds: every tensor's name,
+// dtype, shape and byte size, and the file's metadata, after checking the whole file
+// against the format (src/io/safetensors.ts).
+import type { Command } from 'commander';
+import { UserError, printJson, readBytes, runCommand } from '../common.js';
+import { DTYPE_BYTES, SafetensorsError, readSafetensorsHeader } from '../../io/safetensors.js';
+
+interface InspectOptions {
+  json?: boolean;
+}
+
+export function register(program: Command): void {
+  program
+    .command('inspect')
+    .description('list the tensors of a .safetensors file: names, dtypes, shapes, sizes, metadata')
+    .argument('<file>', 'a .safetensors file')
+    .option('--json', 'print the listing as one JSON object on the last line of output')
+    .addHelpText(
+      'after',
+      `
+The whole header is checked first (offsets inside the file, no overlaps or holes, sizes
+that match the shapes); a bad file is reported with the tensor and field at fault.
+
+JSON output: {file, bytes, headerBytes, tensorCount, parameterCount, metadata,
+tensors: [{name, dtype, shape, bytes, offset}]}, offsets relative to the data section.
+
+Examples:
+  spanwright inspect model.safetensors
+  spanwright inspect exported/model.int8.safetensors --json`,
+    )
+    .action((file: string, options: InspectOptions) => runCommand(() => inspect(file, options)));
+}
+
+async function inspect(file: string, options: InspectOptions): Promise<void> {
+  const bytes = await readBytes(file);
+  let header;
+  try {
+    header = readSafetensorsHeader(bytes, file);
+  } catch (err) {
+    if (err instanceof SafetensorsError) throw new UserError(err.message);
+    throw err;
+  }
+  const tensors = header.entries.map((e) => ({
+    name: e.name,
+    dtype: e.dtype,
+    shape: e.shape,
+    bytes: e.end - e.begin,
+    offset: e.begin,
+  }));
+  const parameterCount = tensors.reduce((sum, t) => sum + t.bytes / DTYPE_BYTES[t.dtype], 0);
+  if (options.json) {
+    printJson({ file, bytes: bytes.length, headerBytes: header.headerBytes, tensorCount: tensors.length, parameterCount, metadata: header.metadata, tensors });
+    return;
+  }
+  const out = process.stdout;
+  out.write(`${file}: ${tensors.length} tensor(s), ${parameterCount.toLocaleString('en-US')} values, ${bytes.length.toLocaleString('en-US')} bytes (header ${header.headerBytes})\n`);
+  const metaKeys = Object.keys(header.metadata);
+  if (metaKeys.length > 0) {
+    out.write('\nmetadata:\n');
+    for (const k of metaKeys) {
+      const v = header.metadata[k]!;
+      out.write(`  ${k}: ${v.length > 200 ? `${v.slice(0, 200)}… (${v.length} characters)` : v}\n`);
+    }
+  }
+  if (tensors.length === 0) return;
+  const nameWidth = Math.min(72, Math.max(...tensors.map((t) => t.name.length)));
+  out.write(`\n${'name'.padEnd(nameWidth)}  ${'dtype'.padEnd(5)}  ${'shape'.padEnd(16)}  ${'bytes'.padStart(12)}\n`);
+  for (const t of tensors) {
+    out.write(`${t.name.padEnd(nameWidth)}  ${t.dtype.padEnd(5)}  ${`[${t.shape.join(', ')}]`.padEnd(16)}  ${t.bytes.toLocaleString('en-US').padStart(12)}\n`);
+  }
+}

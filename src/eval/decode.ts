@@ -1,0 +1,238 @@
+// defines: decodeQuestion, predictAll — from the start/end logits of every window of a
+// question to an answer: the n-best spans across windows, the null ([CLS]) score, and the
+// no-answer decision.
+//
+// The decoding follows common practice for BERT span readers (the procedure of
+// Devlin et al. 2019's SQuAD setup, described here in our own words):
+//   1. In each window take the n-best start positions and the n-best end positions by
+//      logit, among context tokens only (offsets not −1).
+//   2. Pair them: keep end ≥ start and length end − start + 1 ≤ max answer length;
+//      a span's score is start logit + end logit.
+//   3. Map token spans to characters through the window's offsets and gather the
+//      spans of all windows; the same character span seen in two overlapping windows
+//      keeps its best score. Sort by score, keep the n best.
+//   4. The null score of a window is start[0] + end[0] ([CLS]); the question's null
+//      score is the minimum over its windows (common practice: a question is only as
+//      unanswerable as its most confident window says).
+//   5. Predict "" when null score − best span score > threshold (default 0).
+// Step 1 differs slightly from the usual recipe, which takes the n best over every
+// position and discards non-context ones afterwards; choosing among context tokens
+// only never wastes a candidate on a question token.
+import type { QARecord } from '../data/record.js';
+import type { Feature } from '../text/features.js';
+
+/**
+ * The part of a `Feature` (src/text/features.ts, contract in DEVELOPERS.md) the decoder
+ * reads: which record and window, and the offsets (2 × maxLen: char start, end per
+ * token; −1, −1 for tokens that are not context).
+ */
+export type DecodableWindow = Pick<Feature, 'recordId' | 'window' | 'offsets'>;
+
+/** The reader's output for one window: one logit per token position (length maxLen). */
+export interface WindowLogits {
+  startLogits: ArrayLike<number>;
+  endLogits: ArrayLike<number>;
+}
+
+export interface DecodeOptions {
+  /** start and end candidates per window, and spans kept; 20 is common practice */
+  nBest?: number;
+  /** longest answer in tokens; 30 is common practice for SQuAD-like data */
+  maxAnswerLength?: number;
+  /** predict "" when null score − best span score exceeds this; 0 is the neutral default */
+  nullThreshold?: number;
+}
+
+const DEFAULTS: Required<DecodeOptions> = { nBest: 20, maxAnswerLength: 30, nullThreshold: 0 };
+
+/** One candidate answer span. */
+export interface SpanCandidate {
+  text: string;
+  /** UTF-16 offsets into the context: text = context.slice(charStart, charEnd) */
+  charStart: number;
+  charEnd: number;
+  /** start logit + end logit */
+  score: number;
+  startLogit: number;
+  endLogit: number;
+  /** the window (Feature.window) it came from */
+  window: number;
+  /** token positions within that window, inclusive */
+  startToken: number;
+  endToken: number;
+}
+
+/** Everything the decoder decided about one question, for scoring and for display. */
+export interface QuestionDecoding {
+  /** the answer: "" for no answer */
+  prediction: string;
+  /** the best non-null span, or null when no window had a valid span */
+  best: SpanCandidate | null;
+  /** best first, at most nBest, distinct character spans */
+  nBest: SpanCandidate[];
+  /** min over windows of start[0] + end[0] */
+  nullScore: number;
+  /** the window whose null score was taken */
+  nullWindow: number;
+  /** nullScore − best.score; +Infinity when there is no span */
+  scoreDiff: number;
+}
+
+/** Positions of the `n` largest values among `positions`, largest first (ties: earlier first). */
+function topPositions(values: ArrayLike<number>, positions: readonly number[], n: number): number[] {
+  return [...positions].sort((a, b) => values[b]! - values[a]! || a - b).slice(0, n);
+}
+
+function checkWindow(w: DecodableWindow, l: WindowLogits): number {
+  const maxLen = w.offsets.length / 2;
+  if (!Number.isInteger(maxLen) || maxLen < 1) {
+    throw new Error(`record "${w.recordId}" window ${w.window}: offsets length ${w.offsets.length} is not 2 × maxLen`);
+  }
+  for (const [name, logits] of [['startLogits', l.startLogits], ['endLogits', l.endLogits]] as const) {
+    if (logits.length !== maxLen) {
+      throw new Error(
+        `record "${w.recordId}" window ${w.window}: ${name} has ${logits.length} values, expected ${maxLen}`,
+      );
+    }
+  }
+  return maxLen;
+}
+
+/**
+ * Decodes one question from all its windows. `windows[i]` and `logits[i]` belong
+ * together; offsets index into `context`.
+ */
+export function decodeQuestion(
+  context: string,
+  windows: readonly DecodableWindow[],
+  logits: readonly WindowLogits[],
+  options: DecodeOptions = {},
+): QuestionDecoding {
+  const { nBest, maxAnswerLength, nullThreshold } = { ...DEFAULTS, ...options };
+  if (windows.length === 0) throw new Error('decodeQuestion: a question needs at least one window');
+  if (windows.length !== logits.length) {
+    throw new Error(`decodeQuestion: ${windows.length} windows but ${logits.length} logit pairs`);
+  }
+
+  let nullScore = Infinity;
+  let nullWindow = windows[0]!.window;
+  const bySpan = new Map<string, SpanCandidate>();
+
+  for (let w = 0; w < windows.length; w++) {
+    const win = windows[w]!;
+    const { startLogits, endLogits } = logits[w]!;
+    const maxLen = checkWindow(win, logits[w]!);
+    const offsets = win.offsets;
+
+    // 4. this window's null score
+    const windowNull = startLogits[0]! + endLogits[0]!;
+    if (windowNull < nullScore) {
+      nullScore = windowNull;
+      nullWindow = win.window;
+    }
+
+    // 1. n-best starts and ends among context tokens
+    const contextTokens: number[] = [];
+    for (let t = 0; t < maxLen; t++) if (offsets[2 * t]! >= 0 && offsets[2 * t + 1]! >= 0) contextTokens.push(t);
+    const starts = topPositions(startLogits, contextTokens, nBest);
+    const ends = topPositions(endLogits, contextTokens, nBest);
+
+    // 2. valid pairs; 3. to characters, best score per character span
+    for (const s of starts) {
+      for (const e of ends) {
+        if (e < s || e - s + 1 > maxAnswerLength) continue;
+        const charStart = offsets[2 * s]!;
+        const charEnd = offsets[2 * e + 1]!;
+        if (charEnd < charStart || charEnd > context.length) {
+          throw new Error(
+            `record "${win.recordId}" window ${win.window}: offsets ${charStart}..${charEnd} do not fit a context of ${context.length} characters`,
+          );
+        }
+        const score = startLogits[s]! + endLogits[e]!;
+        const key = `${charStart}:${charEnd}`;
+        const seen = bySpan.get(key);
+        if (seen && seen.score >= score) continue;
+        bySpan.set(key, {
+          text: context.slice(charStart, charEnd),
+          charStart,
+          charEnd,
+          score,
+          startLogit: startLogits[s]!,
+          endLogit: endLogits[e]!,
+          window: win.window,
+          startToken: s,
+          endToken: e,
+        });
+      }
+    }
+  }
+
+  const ranked = [...bySpan.values()]
+    .sort((a, b) => b.score - a.score || a.window - b.window || a.charStart - b.charStart || a.charEnd - b.charEnd)
+    .slice(0, nBest);
+  const best = ranked[0] ?? null;
+  const scoreDiff = best ? nullScore - best.score : Infinity;
+  // 5. the no-answer decision
+  const prediction = best && !(scoreDiff > nullThreshold) ? best.text : '';
+  return { prediction, best, nBest: ranked, nullScore, nullWindow, scoreDiff };
+}
+
+/** Answers for a set of questions, in the shapes the metric reads. */
+export interface Decoded {
+  /** id → answer ("" = no answer) at the decode threshold */
+  predictions: Record<string, string>;
+  /** id → best non-null span ("" when there is none), for the threshold search */
+  bestSpans: Record<string, string>;
+  /** id → null score − best span score */
+  scoreDiffs: Record<string, number>;
+  /** id → the full decoding (n-best list, null score) */
+  decodings: Map<string, QuestionDecoding>;
+}
+
+/**
+ * Decodes every record that has features: groups `features` by `recordId` (with
+ * `logits[i]` belonging to `features[i]`) and decodes each group against its record's
+ * context. Records without features are left out (the metric reports them missing); a
+ * feature whose record is unknown is an error.
+ */
+export function predictAll(
+  records: ReadonlyArray<Pick<QARecord, 'id' | 'context'>>,
+  features: readonly DecodableWindow[],
+  logits: readonly WindowLogits[],
+  options: DecodeOptions = {},
+): Decoded {
+  if (features.length !== logits.length) {
+    throw new Error(`predictAll: ${features.length} features but ${logits.length} logit pairs`);
+  }
+  const contexts = new Map<string, string>();
+  for (const r of records) contexts.set(r.id, r.context);
+
+  const groups = new Map<string, { windows: DecodableWindow[]; logits: WindowLogits[] }>();
+  features.forEach((f, i) => {
+    if (!contexts.has(f.recordId)) {
+      throw new Error(`feature ${i} (window ${f.window}) belongs to record "${f.recordId}", which is not among the records`);
+    }
+    let group = groups.get(f.recordId);
+    if (!group) groups.set(f.recordId, (group = { windows: [], logits: [] }));
+    group.windows.push(f);
+    group.logits.push(logits[i]!);
+  });
+
+  // null-prototype objects, so an id such as "__proto__" stays a plain key
+  const out: Decoded = {
+    predictions: Object.create(null),
+    bestSpans: Object.create(null),
+    scoreDiffs: Object.create(null),
+    decodings: new Map(),
+  };
+  for (const r of records) {
+    const group = groups.get(r.id);
+    if (!group) continue;
+    const d = decodeQuestion(r.context, group.windows, group.logits, options);
+    out.predictions[r.id] = d.prediction;
+    out.bestSpans[r.id] = d.best?.text ?? '';
+    out.scoreDiffs[r.id] = d.scoreDiff;
+    out.decodings.set(r.id, d);
+  }
+  return out;
+}

@@ -1,0 +1,245 @@
+// defines: ReaderConfig (the encoder's shape, plain data), PRESETS, presetConfig,
+// validateConfig, configFromHf / configToHf (HF-style `config.json`), parameterShapes,
+// paramCount.
+//
+// Plain data only: a config passes through postMessage and IndexedDB unchanged, and is
+// what a checkpoint's `config.json` holds (in the HF key spelling, see configToHf).
+
+/** The two activations the engine, the ONNX export and the PyTorch reference know. */
+export type Activation =
+  /** exact GELU, 0.5·x·(1 + erf(x/√2)) (Hendrycks & Gimpel 2016) — BERT's own */
+  | 'gelu'
+  /** x·σ(1.702x), the sigmoid approximation from the same paper; XNNPACK-fast on wasm */
+  | 'gelu_sigmoid';
+
+export interface ReaderConfig {
+  /** rows of the word-embedding table; take it from the tokenizer's vocabulary */
+  vocabSize: number;
+  /** H, the width of every token's hidden state */
+  hiddenSize: number;
+  /** L, encoder layers */
+  numLayers: number;
+  /** N, attention heads; H must be a multiple of N (head size D = H / N) */
+  numHeads: number;
+  /** I, the feed-forward inner width (BERT uses 4·H) */
+  intermediateSize: number;
+  /** P, rows of the position-embedding table: the longest sequence the model can read */
+  maxPositions: number;
+  /** rows of the token-type table (question = 0, context = 1) */
+  typeVocabSize: number;
+  /** dropout on embeddings, attention output and feed-forward output while training */
+  hiddenDropout: number;
+  /** dropout on the attention probabilities while training */
+  attentionDropout: number;
+  /** ε inside every LayerNorm's square root */
+  layerNormEps: number;
+  activation: Activation;
+  /** σ of the truncated-normal initialisation (cut at ±2σ) */
+  initStd: number;
+}
+
+/** BERT-base's values (Devlin et al. 2019, and its published `config.json`). */
+export const DEFAULT_CONFIG: ReaderConfig = {
+  vocabSize: 30522, // BERT's uncased English WordPiece vocabulary; presets override it
+  hiddenSize: 768, // BERT-base
+  numLayers: 12, // BERT-base
+  numHeads: 12, // BERT-base, D = 64
+  intermediateSize: 3072, // 4·H, BERT-base
+  maxPositions: 512, // BERT's pretraining length
+  typeVocabSize: 2, // question / context
+  hiddenDropout: 0.1, // BERT's pretraining and fine-tuning value
+  attentionDropout: 0.1, // BERT's pretraining and fine-tuning value
+  layerNormEps: 1e-12, // BERT's published config.json
+  activation: 'gelu', // exact GELU, as BERT
+  initStd: 0.02, // BERT's initializer_range
+};
+
+export type PresetName = 'tiny' | 'small';
+
+/** Sizes small enough to train on a laptop CPU. Only what differs from the default. */
+export const PRESETS: Record<PresetName, Partial<ReaderConfig>> = {
+  // 2 layers, H 128: the size of the shipped base reader
+  tiny: { hiddenSize: 128, numLayers: 2, numHeads: 2, intermediateSize: 512 },
+  // 4 layers, H 256: slower, more capacity
+  small: { hiddenSize: 256, numLayers: 4, numHeads: 4, intermediateSize: 1024 },
+};
+
+/** A preset, with the vocabulary size taken from the tokenizer that will feed it. */
+export function presetConfig(name: PresetName, vocabSize: number, overrides: Partial<ReaderConfig> = {}): ReaderConfig {
+  const preset = PRESETS[name];
+  if (preset === undefined) throw new Error(`presetConfig: unknown preset "${name}" (known: ${Object.keys(PRESETS).join(', ')})`);
+  const config: ReaderConfig = { ...DEFAULT_CONFIG, ...preset, vocabSize, ...overrides };
+  validateConfig(config);
+  return config;
+}
+
+/**
+ * Throws one error listing every bad field, each with its value and what was expected.
+ * `source` names where the config came from (a file name) for the message.
+ */
+export function validateConfig(config: ReaderConfig, source = 'config'): void {
+  const problems: string[] = [];
+  const positiveInt = (field: keyof ReaderConfig): void => {
+    const v = config[field];
+    if (typeof v !== 'number' || !Number.isInteger(v) || v <= 0) problems.push(`${field} must be a positive integer, got ${JSON.stringify(v)}`);
+  };
+  const probability = (field: keyof ReaderConfig): void => {
+    const v = config[field];
+    if (typeof v !== 'number' || !(v >= 0 && v < 1)) problems.push(`${field} must be a number in [0, 1), got ${JSON.stringify(v)}`);
+  };
+  const positiveNumber = (field: keyof ReaderConfig): void => {
+    const v = config[field];
+    if (typeof v !== 'number' || !Number.isFinite(v) || v <= 0) problems.push(`${field} must be a positive number, got ${JSON.stringify(v)}`);
+  };
+  for (const f of ['vocabSize', 'hiddenSize', 'numLayers', 'numHeads', 'intermediateSize', 'maxPositions', 'typeVocabSize'] as const) positiveInt(f);
+  probability('hiddenDropout');
+  probability('attentionDropout');
+  positiveNumber('layerNormEps');
+  positiveNumber('initStd');
+  if (config.activation !== 'gelu' && config.activation !== 'gelu_sigmoid') {
+    problems.push(`activation must be "gelu" or "gelu_sigmoid", got ${JSON.stringify(config.activation)}`);
+  }
+  if (Number.isInteger(config.hiddenSize) && Number.isInteger(config.numHeads) && config.numHeads > 0 && config.hiddenSize % config.numHeads !== 0) {
+    problems.push(`hiddenSize (${config.hiddenSize}) must be a multiple of numHeads (${config.numHeads})`);
+  }
+  if (problems.length > 0) throw new Error(`${source}: invalid reader config: ${problems.join('; ')}`);
+}
+
+/** HF `hidden_act` spellings this engine can run, to our activation names. */
+const HF_ACTIVATIONS: Record<string, Activation> = {
+  gelu: 'gelu', // exact erf GELU in HF's BERT
+  gelu_sigmoid: 'gelu_sigmoid', // our own name; written back as-is
+  quick_gelu: 'gelu_sigmoid', // HF's name for x·σ(1.702x)
+};
+
+/**
+ * Reads an HF-style `config.json` (already parsed). Missing optional keys take BERT's
+ * defaults; missing sizes, unknown activations and bad values are errors naming `file`
+ * and the key.
+ */
+export function configFromHf(json: unknown, file = 'config.json'): ReaderConfig {
+  if (typeof json !== 'object' || json === null || Array.isArray(json)) throw new Error(`${file}: expected a JSON object`);
+  const o = json as Record<string, unknown>;
+  const required = (key: string): number => {
+    const v = o[key];
+    if (v === undefined) throw new Error(`${file}: missing required key "${key}"`);
+    if (typeof v !== 'number') throw new Error(`${file}: "${key}" must be a number, got ${JSON.stringify(v)}`);
+    return v;
+  };
+  const optional = (key: string, fallback: number): number => {
+    const v = o[key];
+    if (v === undefined || v === null) return fallback;
+    if (typeof v !== 'number') throw new Error(`${file}: "${key}" must be a number, got ${JSON.stringify(v)}`);
+    return v;
+  };
+  let activation: Activation = DEFAULT_CONFIG.activation;
+  if (o.hidden_act !== undefined) {
+    const found = typeof o.hidden_act === 'string' ? HF_ACTIVATIONS[o.hidden_act] : undefined;
+    if (found === undefined) {
+      throw new Error(`${file}: "hidden_act" ${JSON.stringify(o.hidden_act)} is not supported (supported: ${Object.keys(HF_ACTIVATIONS).join(', ')})`);
+    }
+    activation = found;
+  }
+  const config: ReaderConfig = {
+    vocabSize: required('vocab_size'),
+    hiddenSize: required('hidden_size'),
+    numLayers: required('num_hidden_layers'),
+    numHeads: required('num_attention_heads'),
+    intermediateSize: required('intermediate_size'),
+    maxPositions: optional('max_position_embeddings', DEFAULT_CONFIG.maxPositions),
+    typeVocabSize: optional('type_vocab_size', DEFAULT_CONFIG.typeVocabSize),
+    hiddenDropout: optional('hidden_dropout_prob', DEFAULT_CONFIG.hiddenDropout),
+    attentionDropout: optional('attention_probs_dropout_prob', DEFAULT_CONFIG.attentionDropout),
+    layerNormEps: optional('layer_norm_eps', DEFAULT_CONFIG.layerNormEps),
+    activation,
+    initStd: optional('initializer_range', DEFAULT_CONFIG.initStd),
+  };
+  validateConfig(config, file);
+  return config;
+}
+
+/** The HF-style `config.json` object for a checkpoint directory. */
+export function configToHf(config: ReaderConfig): Record<string, unknown> {
+  return {
+    architectures: ['BertForQuestionAnswering'],
+    model_type: 'bert',
+    vocab_size: config.vocabSize,
+    hidden_size: config.hiddenSize,
+    num_hidden_layers: config.numLayers,
+    num_attention_heads: config.numHeads,
+    intermediate_size: config.intermediateSize,
+    max_position_embeddings: config.maxPositions,
+    type_vocab_size: config.typeVocabSize,
+    hidden_dropout_prob: config.hiddenDropout,
+    attention_probs_dropout_prob: config.attentionDropout,
+    layer_norm_eps: config.layerNormEps,
+    hidden_act: config.activation === 'gelu' ? 'gelu' : 'quick_gelu',
+    initializer_range: config.initStd,
+    position_embedding_type: 'absolute',
+  };
+}
+
+/** Which part of the model a parameter belongs to; heads may be missing from a checkpoint. */
+export type ParamPart = 'encoder' | 'span_head' | 'mlm_head';
+
+export interface ParamSpec {
+  /** checkpoint layout: Linear weights `[out, in]`, as PyTorch stores them */
+  shape: number[];
+  part: ParamPart;
+  /** `weight` of a Linear layer: the engine keeps it `[in, out]` internally */
+  linear: boolean;
+  /** how a fresh parameter starts */
+  init: 'normal' | 'zeros' | 'ones';
+}
+
+/**
+ * Every parameter the engine owns, in the common BERT checkpoint naming (DEVELOPERS.md,
+ * "Weights"), in a fixed order. The single source for init, loading and counting.
+ */
+export function parameterShapes(config: ReaderConfig): Map<string, ParamSpec> {
+  const { vocabSize: V, hiddenSize: H, intermediateSize: I, maxPositions: P, typeVocabSize: Y } = config;
+  const specs = new Map<string, ParamSpec>();
+  const table = (name: string, shape: number[], part: ParamPart = 'encoder'): void => {
+    specs.set(name, { shape, part, linear: false, init: 'normal' });
+  };
+  const linear = (name: string, out: number, inp: number, part: ParamPart = 'encoder'): void => {
+    specs.set(`${name}.weight`, { shape: [out, inp], part, linear: true, init: 'normal' });
+    specs.set(`${name}.bias`, { shape: [out], part, linear: false, init: 'zeros' });
+  };
+  const layerNorm = (name: string, part: ParamPart = 'encoder'): void => {
+    specs.set(`${name}.weight`, { shape: [H], part, linear: false, init: 'ones' });
+    specs.set(`${name}.bias`, { shape: [H], part, linear: false, init: 'zeros' });
+  };
+  table('bert.embeddings.word_embeddings.weight', [V, H]);
+  table('bert.embeddings.position_embeddings.weight', [P, H]);
+  table('bert.embeddings.token_type_embeddings.weight', [Y, H]);
+  layerNorm('bert.embeddings.LayerNorm');
+  for (let i = 0; i < config.numLayers; i++) {
+    const layer = `bert.encoder.layer.${i}`;
+    linear(`${layer}.attention.self.query`, H, H);
+    linear(`${layer}.attention.self.key`, H, H);
+    linear(`${layer}.attention.self.value`, H, H);
+    linear(`${layer}.attention.output.dense`, H, H);
+    layerNorm(`${layer}.attention.output.LayerNorm`);
+    linear(`${layer}.intermediate.dense`, I, H);
+    linear(`${layer}.output.dense`, H, I);
+    layerNorm(`${layer}.output.LayerNorm`);
+  }
+  linear('qa_outputs', 2, H, 'span_head');
+  linear('cls.predictions.transform.dense', H, H, 'mlm_head');
+  layerNorm('cls.predictions.transform.LayerNorm', 'mlm_head');
+  specs.set('cls.predictions.bias', { shape: [V], part: 'mlm_head', linear: false, init: 'zeros' });
+  return specs;
+}
+
+/** Parameters the engine owns, by part (the MLM decoder is tied, so not counted twice). */
+export function paramCount(config: ReaderConfig): { encoder: number; spanHead: number; mlmHead: number; total: number } {
+  const counts = { encoder: 0, span_head: 0, mlm_head: 0 };
+  for (const spec of parameterShapes(config).values()) counts[spec.part] += spec.shape.reduce((a, b) => a * b, 1);
+  return {
+    encoder: counts.encoder,
+    spanHead: counts.span_head,
+    mlmHead: counts.mlm_head,
+    total: counts.encoder + counts.span_head + counts.mlm_head,
+  };
+}

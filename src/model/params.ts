@@ -1,0 +1,213 @@
+// defines: ReaderParams — the one owner of the reader's weights (tf.Variables), their
+// seeded initialisation, and their conversion to and from checkpoint tensors
+// (NamedTensors, common BERT naming, Linear weights [out, in]); LoadReport.
+//
+// Internal layout: every Linear weight is kept [in, out], so the forward pass is an
+// untransposed 2-D product x·W. Stock tfjs-wasm runs a transposed matMul 10–30× slower
+// than a plain one (DESIGN.md, measured facts); the transpose happens once, here, at
+// load and save time instead of on every step.
+
+import * as tf from '@tensorflow/tfjs';
+import type { NamedTensor, NamedTensors } from '../io/tensors.js';
+import { parameterShapes, validateConfig, type ParamSpec, type ReaderConfig } from './config.js';
+import { seedFor, truncatedNormal } from './random.js';
+
+/** What `fromNamed` did with each checkpoint tensor. */
+export interface LoadReport {
+  /** engine names filled from the checkpoint */
+  loaded: string[];
+  /** engine names the checkpoint lacked; each was freshly initialised (heads only) */
+  missing: string[];
+  /** checkpoint names the engine does not use (pooler, next-sentence head, …) */
+  unexpected: string[];
+  /** one sentence per thing the user should know, e.g. a head initialised afresh */
+  notices: string[];
+}
+
+export interface FromNamedOptions {
+  /** seed for heads the checkpoint lacks (default 0) */
+  seed?: number;
+  /** where the tensors came from, for error messages (default "checkpoint") */
+  source?: string;
+}
+
+/** Checkpoint names that are known and deliberately not loaded. */
+const IGNORED = [
+  'cls.predictions.decoder.weight', // tied to the word embeddings
+  'bert.embeddings.position_ids', // an index buffer some exports include, not a weight
+];
+
+/** Alternative spellings in older checkpoints, to the engine's name. */
+function canonicalName(name: string): string {
+  let n = name;
+  // TF-converted checkpoints name LayerNorm's scale/shift gamma/beta
+  n = n.replace(/LayerNorm\.gamma$/, 'LayerNorm.weight').replace(/LayerNorm\.beta$/, 'LayerNorm.bias');
+  if (n === 'cls.predictions.decoder.bias') return 'cls.predictions.bias';
+  // names from a bare encoder (BertModel) come without the `bert.` prefix
+  if (n.startsWith('embeddings.') || n.startsWith('encoder.') || n.startsWith('pooler.')) n = `bert.${n}`;
+  return n;
+}
+
+let instanceCount = 0;
+
+export class ReaderParams {
+  /** engine name (BERT naming) → variable; Linear weights are [in, out] here */
+  readonly variables: Map<string, tf.Variable>;
+  readonly config: ReaderConfig;
+  private readonly specs: Map<string, ParamSpec>;
+
+  private constructor(config: ReaderConfig, values: Map<string, tf.Tensor>) {
+    this.config = config;
+    this.specs = parameterShapes(config);
+    this.variables = new Map();
+    // tfjs variable names are global; a prefix keeps two models (base, fine-tuned) apart
+    const prefix = `reader${instanceCount++}/`;
+    for (const name of this.specs.keys()) {
+      const value = values.get(name);
+      if (value === undefined) throw new Error(`ReaderParams: no value for ${name}`);
+      this.variables.set(name, tf.variable(value, true, prefix + name));
+    }
+  }
+
+  /** Fresh weights: truncated normal σ = initStd (cut at ±2σ), biases 0, LayerNorm 1 and 0. */
+  static init(config: ReaderConfig, seed: number): ReaderParams {
+    validateConfig(config);
+    const values = new Map<string, tf.Tensor>();
+    for (const [name, spec] of parameterShapes(config)) values.set(name, freshValue(name, spec, config, seed));
+    return ReaderParams.adopt(config, values);
+  }
+
+  /**
+   * Weights from checkpoint tensors. Names may come with or without the `bert.` prefix.
+   * A missing span head (`qa_outputs`) or MLM head (`cls.predictions.*`) is initialised
+   * afresh with a notice; a missing encoder tensor or a shape mismatch is an error
+   * naming the tensor.
+   */
+  static fromNamed(config: ReaderConfig, named: NamedTensors, opts: FromNamedOptions = {}): { params: ReaderParams; report: LoadReport } {
+    const source = opts.source ?? 'checkpoint';
+    validateConfig(config, source);
+    const specs = parameterShapes(config);
+    const report: LoadReport = { loaded: [], missing: [], unexpected: [], notices: [] };
+    const found = new Map<string, { original: string; tensor: NamedTensor }>();
+    for (const [original, tensor] of named) {
+      const name = canonicalName(original);
+      if (IGNORED.includes(name)) continue;
+      if (!specs.has(name)) {
+        report.unexpected.push(original);
+        continue;
+      }
+      const earlier = found.get(name);
+      if (earlier !== undefined) throw new Error(`${source}: tensors "${earlier.original}" and "${original}" both name ${name}`);
+      found.set(name, { original, tensor });
+    }
+
+    const missingEncoder = [...specs].filter(([name, spec]) => spec.part === 'encoder' && !found.has(name)).map(([name]) => name);
+    if (missingEncoder.length > 0) {
+      const shown = missingEncoder.slice(0, 5).join(', ') + (missingEncoder.length > 5 ? `, … (${missingEncoder.length} in all)` : '');
+      throw new Error(`${source}: missing encoder tensor(s): ${shown}`);
+    }
+
+    const values = new Map<string, tf.Tensor>();
+    try {
+      for (const [name, spec] of specs) {
+        const entry = found.get(name);
+        if (entry === undefined) {
+          values.set(name, freshValue(name, spec, config, opts.seed ?? 0));
+          report.missing.push(name);
+          continue;
+        }
+        const { original, tensor } = entry;
+        const expected = spec.shape;
+        if (tensor.shape.length !== expected.length || tensor.shape.some((d, i) => d !== expected[i])) {
+          throw new Error(`${source}: tensor "${original}" has shape [${tensor.shape.join(', ')}], the config expects [${expected.join(', ')}]`);
+        }
+        const size = expected.reduce((a, b) => a * b, 1);
+        if (tensor.data.length !== size) {
+          throw new Error(`${source}: tensor "${original}" holds ${tensor.data.length} values, its shape [${expected.join(', ')}] needs ${size}`);
+        }
+        values.set(name, toInternal(tensor.data, spec));
+        report.loaded.push(name);
+      }
+    } catch (err) {
+      for (const t of values.values()) t.dispose();
+      throw err;
+    }
+    const missingParts = new Set(report.missing.map((name) => specs.get(name)?.part));
+    if (missingParts.has('span_head')) report.notices.push(`${source} has no span head (qa_outputs); it was initialised afresh and must be trained`);
+    if (missingParts.has('mlm_head')) report.notices.push(`${source} has no MLM head (cls.predictions.*); it was initialised afresh`);
+    return { params: ReaderParams.adopt(config, values), report };
+  }
+
+  /** Checkpoint tensors: every parameter, BERT names, Linear weights [out, in]. */
+  toNamed(): NamedTensors {
+    const named: NamedTensors = new Map();
+    for (const [name, variable] of this.variables) {
+      const spec = this.specs.get(name)!;
+      named.set(name, { shape: [...spec.shape], data: fromInternal(variable.dataSync() as Float32Array, spec) });
+    }
+    return named;
+  }
+
+  /** The variable for an engine name; throws naming it if absent. */
+  get(name: string): tf.Variable {
+    const v = this.variables.get(name);
+    if (v === undefined) throw new Error(`ReaderParams: no parameter named ${name}`);
+    return v;
+  }
+
+  /**
+   * `tf.variableGrads` over these parameters, with the gradients keyed by engine name.
+   * Parameters the loss does not reach (the MLM head under the span loss) get no entry,
+   * as PyTorch leaves their `.grad` at None.
+   */
+  variableGrads(lossFn: () => tf.Scalar): { value: tf.Scalar; grads: Map<string, tf.Tensor> } {
+    const { value, grads } = tf.variableGrads(lossFn, [...this.variables.values()]);
+    const byName = new Map<string, tf.Tensor>();
+    for (const [name, variable] of this.variables) {
+      const g = grads[variable.name];
+      if (g !== undefined) byName.set(name, g);
+    }
+    return { value, grads: byName };
+  }
+
+  dispose(): void {
+    for (const v of this.variables.values()) v.dispose();
+    this.variables.clear();
+  }
+
+  /** Wraps values in variables, then frees the values (tf.variable copies them). */
+  private static adopt(config: ReaderConfig, values: Map<string, tf.Tensor>): ReaderParams {
+    try {
+      return new ReaderParams(config, values);
+    } finally {
+      for (const t of values.values()) t.dispose();
+    }
+  }
+}
+
+/** Row-major checkpoint data to the internal tensor ([out, in] → [in, out] for Linear weights). */
+function toInternal(data: Float32Array, spec: ParamSpec): tf.Tensor {
+  if (!spec.linear) return tf.tensor(data, spec.shape, 'float32');
+  const [out, inp] = spec.shape;
+  const t = new Float32Array(out * inp);
+  for (let o = 0; o < out; o++) for (let i = 0; i < inp; i++) t[i * out + o] = data[o * inp + i];
+  return tf.tensor2d(t, [inp, out], 'float32');
+}
+
+/** Internal data back to checkpoint layout ([in, out] → [out, in] for Linear weights); always a copy. */
+function fromInternal(data: Float32Array, spec: ParamSpec): Float32Array {
+  if (!spec.linear) return Float32Array.from(data);
+  // a JS loop: the cpu backend's generic transpose took ~2 s for the tiny preset's weights
+  const [out, inp] = spec.shape;
+  const t = new Float32Array(out * inp);
+  for (let i = 0; i < inp; i++) for (let o = 0; o < out; o++) t[o * inp + i] = data[i * out + o];
+  return t;
+}
+
+function freshValue(name: string, spec: ParamSpec, config: ReaderConfig, seed: number): tf.Tensor {
+  const size = spec.shape.reduce((a, b) => a * b, 1);
+  if (spec.init === 'zeros') return tf.zeros(spec.shape);
+  if (spec.init === 'ones') return tf.ones(spec.shape);
+  // drawn in checkpoint layout so a seed gives the same checkpoint whatever the internal layout
+  return toInternal(truncatedNormal(size, config.initStd, seedFor(seed, name)), spec);
+}

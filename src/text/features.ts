@@ -1,0 +1,223 @@
+// defines: FeatureOptions, Feature, RecordFeatures, FeatureBuilder, windowStarts,
+// tokenSpanToCharSpan — a question and its passage as model inputs:
+// `[CLS] question [SEP] context [SEP]`, padded to the max sequence length, with sliding
+// windows over contexts too long for one sequence (BERT's SQuAD recipe, Devlin et al. 2019).
+//
+// Stride, as used here: the number of context tokens that two consecutive windows SHARE
+// (the overlap), the common convention of Hugging Face's tokenizers (`stride` with
+// overflowing tokens). With `room` context tokens per window, window w starts at context
+// token w × (room − stride), and the last window is the first one that reaches the end of
+// the context. (BERT's original `doc_stride` is the distance between window starts
+// instead; with this definition that distance is room − stride.)
+//
+// Letters used below: n context tokens; q question tokens (at most maxQueryTokens);
+// room = maxLen − q − 3 context tokens fit beside the question and the three special tokens.
+import type { QARecord } from '../data/record.js';
+import type { FlatEncoding, WordPieceTokenizer } from './wordpiece.js';
+
+export interface FeatureOptions {
+  /** max sequence length in tokens, special tokens included; 384 as in BERT's SQuAD runs */
+  maxLen: number;
+  /** context tokens shared by consecutive windows (see the top of this file); 128, common practice */
+  stride: number;
+  /** longer questions keep their first maxQueryTokens tokens; 64 as in BERT's SQuAD runs */
+  maxQueryTokens: number;
+}
+
+export const DEFAULT_FEATURE_OPTIONS: Readonly<FeatureOptions> = { maxLen: 384, stride: 128, maxQueryTokens: 64 };
+
+/** What feature building needs of a tokenizer (a WordPieceTokenizer, or a stand-in in benchmarks). */
+export type FeatureTokenizer = Pick<WordPieceTokenizer, 'encodeFlat' | 'clsId' | 'sepId' | 'padId'>;
+
+/** One window of one record, as DEVELOPERS.md specifies. */
+export interface Feature {
+  recordId: string;
+  /** index of this window among the record's windows */
+  window: number;
+  inputIds: Int32Array; // [maxLen]
+  tokenTypeIds: Int32Array; // [maxLen] 0 for [CLS] question [SEP], 1 for context [SEP]
+  attentionMask: Int32Array; // [maxLen] 1 for tokens, 0 for padding
+  /** answer start token in this window; 0 ([CLS]) when there is no whole answer in it */
+  startPosition: number;
+  endPosition: number;
+  /** [2 × maxLen]: character start, end of each context token; -1, -1 for every other token */
+  offsets: Int32Array;
+}
+
+export interface RecordFeatures {
+  features: Feature[];
+  /** things the user should know, e.g. a truncated question; never printed here */
+  warnings: string[];
+  /** an answerable record whose first answer no window holds whole (or that covers no token) */
+  answerLost: boolean;
+  /**
+   * the first answer's start or end falls inside a token (or on characters the tokenizer
+   * drops), so the token span maps back to a different text than the gold answer
+   */
+  boundaryMismatch: boolean;
+}
+
+/** The first context token of each window: w × (room − stride), until a window reaches n. */
+export function windowStarts(n: number, room: number, stride: number): number[] {
+  const starts = [0];
+  const step = room - stride;
+  while (starts[starts.length - 1]! + room < n) starts.push(starts[starts.length - 1]! + step);
+  return starts;
+}
+
+/**
+ * The character span [start, end) of tokens start..end (inclusive) of a feature, or null
+ * when either token is not a context token or the span is reversed. Decoding uses this to
+ * turn a predicted token span into answer text: context.slice(start, end).
+ */
+export function tokenSpanToCharSpan(feature: Feature, startToken: number, endToken: number): [number, number] | null {
+  if (endToken < startToken) return null;
+  const s = feature.offsets[2 * startToken];
+  const e = feature.offsets[2 * endToken + 1];
+  if (s === undefined || e === undefined || s < 0 || e < 0) return null;
+  return [s, e];
+}
+
+/**
+ * Builds the features of records. Contexts are tokenized once and kept by their text,
+ * since many questions share a passage; clearCache() lets the memory go.
+ */
+export class FeatureBuilder {
+  readonly options: Readonly<FeatureOptions>;
+  private readonly contexts = new Map<string, FlatEncoding>();
+
+  constructor(
+    readonly tokenizer: FeatureTokenizer,
+    options: Partial<FeatureOptions> = {},
+  ) {
+    const o = { ...DEFAULT_FEATURE_OPTIONS, ...options };
+    for (const key of ['maxLen', 'stride', 'maxQueryTokens'] as const) {
+      if (!Number.isInteger(o[key]) || o[key] < (key === 'stride' ? 0 : 1)) {
+        throw new RangeError(`${key} must be a whole number${key === 'stride' ? '' : ' above 0'}, not ${o[key]}`);
+      }
+    }
+    const minRoom = o.maxLen - o.maxQueryTokens - 3;
+    if (minRoom <= o.stride) {
+      throw new RangeError(
+        `stride (${o.stride}) must be smaller than the context tokens a window holds beside the longest question: ` +
+          `max length ${o.maxLen} − max question tokens ${o.maxQueryTokens} − 3 special tokens = ${minRoom}`,
+      );
+    }
+    this.options = o;
+  }
+
+  clearCache(): void {
+    this.contexts.clear();
+  }
+
+  /** The context's encoding (from the cache when this text was seen before). */
+  contextEncoding(context: string): FlatEncoding {
+    let enc = this.contexts.get(context);
+    if (enc === undefined) {
+      enc = this.tokenizer.encodeFlat(context);
+      this.contexts.set(context, enc);
+    }
+    return enc;
+  }
+
+  build(record: QARecord): RecordFeatures {
+    const { maxLen, stride, maxQueryTokens } = this.options;
+    const tok = this.tokenizer;
+    const warnings: string[] = [];
+    const ctx = this.contextEncoding(record.context);
+    const n = ctx.ids.length;
+
+    // 1. the question, truncated to maxQueryTokens
+    let qIds = tok.encodeFlat(record.question).ids;
+    if (qIds.length > maxQueryTokens) {
+      warnings.push(`record "${record.id}": the question has ${qIds.length} tokens; only the first ${maxQueryTokens} are kept`);
+      qIds = qIds.subarray(0, maxQueryTokens);
+    }
+    const q = qIds.length;
+    const room = maxLen - q - 3;
+
+    // 2. the gold answer as context tokens [aStart, aEnd] (inclusive), -1 when there is none
+    let aStart = -1;
+    let aEnd = -1;
+    let answerLost = false;
+    let boundaryMismatch = false;
+    const answer = record.unanswerable ? undefined : record.answers[0];
+    if (answer !== undefined) {
+      const s = answer.start;
+      const e = answer.start + answer.text.length;
+      if (s < 0 || e > record.context.length || record.context.slice(s, e) !== answer.text) {
+        warnings.push(`record "${record.id}": the answer text is not at its start offset ${s} in the context`);
+        answerLost = true;
+      } else {
+        aStart = firstTokenEndingAfter(ctx.ends, s);
+        aEnd = lastTokenStartingBefore(ctx.starts, e);
+        if (aStart > aEnd || aStart < 0) {
+          // the span covers only characters the tokenizer drops (spaces, zero-width…)
+          answerLost = true;
+          boundaryMismatch = true;
+          aStart = aEnd = -1;
+        } else boundaryMismatch = ctx.starts[aStart] !== s || ctx.ends[aEnd] !== e;
+      }
+    }
+
+    // 3. one feature per window
+    const features: Feature[] = [];
+    const base = q + 2; // position of the first context token: after [CLS] question [SEP]
+    let held = false;
+    const starts = windowStarts(n, room, stride);
+    for (let w = 0; w < starts.length; w++) {
+      const from = starts[w]!;
+      const to = Math.min(n, from + room);
+      const inputIds = new Int32Array(maxLen).fill(tok.padId);
+      const tokenTypeIds = new Int32Array(maxLen);
+      const attentionMask = new Int32Array(maxLen);
+      const offsets = new Int32Array(2 * maxLen).fill(-1);
+      inputIds[0] = tok.clsId;
+      inputIds.set(qIds, 1);
+      inputIds[q + 1] = tok.sepId;
+      inputIds.set(ctx.ids.subarray(from, to), base);
+      const end = base + (to - from); // position of the final [SEP]
+      inputIds[end] = tok.sepId;
+      tokenTypeIds.fill(1, base, end + 1);
+      attentionMask.fill(1, 0, end + 1);
+      for (let k = from; k < to; k++) {
+        offsets[2 * (base + k - from)] = ctx.starts[k]!;
+        offsets[2 * (base + k - from) + 1] = ctx.ends[k]!;
+      }
+      let startPosition = 0;
+      let endPosition = 0;
+      if (aStart >= from && aEnd < to) {
+        startPosition = base + aStart - from;
+        endPosition = base + aEnd - from;
+        held = true;
+      }
+      features.push({ recordId: record.id, window: w, inputIds, tokenTypeIds, attentionMask, startPosition, endPosition, offsets });
+    }
+    if (aStart >= 0 && !held) answerLost = true;
+    return { features, warnings, answerLost, boundaryMismatch };
+  }
+}
+
+/** The first k with ends[k] > pos (token ends never decrease), or -1. */
+function firstTokenEndingAfter(ends: Int32Array, pos: number): number {
+  let lo = 0;
+  let hi = ends.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if (ends[mid]! > pos) hi = mid;
+    else lo = mid + 1;
+  }
+  return lo < ends.length ? lo : -1;
+}
+
+/** The last k with starts[k] < pos (token starts never decrease), or -1. */
+function lastTokenStartingBefore(starts: Int32Array, pos: number): number {
+  let lo = 0;
+  let hi = starts.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if (starts[mid]! < pos) lo = mid + 1;
+    else hi = mid;
+  }
+  return lo - 1;
+}

@@ -1,0 +1,193 @@
+// defines: AdamW (the optimizer and the one owner of its moments), decaysWeight,
+// AdamWState (the moments and step counts as plain data, for checkpoints).
+//
+// Adam with decoupled weight decay (Loshchilov & Hutter, "Decoupled Weight Decay
+// Regularization", ICLR 2019), in the exact order torch.optim.AdamW (1.13,
+// `_single_tensor_adamw`) applies it to each parameter p with gradient g at its step t:
+//
+//   1. p ← p · (1 − lr·λ)                         decay first, on the old weights
+//   2. m ← β1·m + (1 − β1)·g
+//   3. v ← β2·v + (1 − β2)·g²
+//   4. p ← p − (lr / (1 − β1ᵗ)) · m / (√v / √(1 − β2ᵗ) + ε)
+//
+// The bias corrections and step size are worked out in float64 on the CPU, as torch
+// does with Python floats, and only the per-element work is tensor code. As in torch,
+// a parameter that got no gradient this step is skipped entirely (no decay, no step),
+// and each parameter counts its own steps.
+
+import * as tf from '@tensorflow/tfjs';
+import type { NamedTensors } from '../io/tensors.js';
+
+export interface AdamWOptions {
+  /** β1, first-moment decay (torch default 0.9). */
+  beta1: number;
+  /** β2, second-moment decay (torch default 0.999). */
+  beta2: number;
+  /** ε added to the corrected √v (DEVELOPERS.md: 1e-6, as BERT used). */
+  epsilon: number;
+  /** λ, decoupled weight decay (0.01); 0 for parameters `decaysWeight` rejects. */
+  weightDecay: number;
+}
+
+export const DEFAULT_ADAMW: Readonly<AdamWOptions> = Object.freeze({
+  beta1: 0.9,
+  beta2: 0.999,
+  epsilon: 1e-6,
+  weightDecay: 0.01,
+});
+
+/** Weight decay applies to every parameter except biases and LayerNorm (DEVELOPERS.md). */
+export function decaysWeight(name: string): boolean {
+  return !(name.endsWith('.bias') || name.includes('LayerNorm'));
+}
+
+/** The optimizer's state as plain data: `adam.m.<name>`, `adam.v.<name>`, and step counts. */
+export interface AdamWState {
+  /** parameter name → how many updates it has had (torch's per-parameter `state['step']`) */
+  steps: Record<string, number>;
+  tensors: NamedTensors;
+}
+
+const M_PREFIX = 'adam.m.';
+const V_PREFIX = 'adam.v.';
+
+interface Slot {
+  m: tf.Variable;
+  v: tf.Variable;
+  step: number;
+  decay: boolean;
+}
+
+export class AdamW {
+  readonly options: Readonly<AdamWOptions>;
+  private readonly params: Map<string, tf.Variable>;
+  private readonly slots = new Map<string, Slot>();
+  private disposed = false;
+
+  /** Creates both moments (zeros) for every parameter, once. */
+  constructor(params: Map<string, tf.Variable>, options: Partial<AdamWOptions> = {}) {
+    this.options = Object.freeze({ ...DEFAULT_ADAMW, ...options });
+    this.params = params;
+    for (const [name, p] of params) {
+      // inside tidy so the zeros the variables copy from are freed
+      const [m, v] = tf.tidy(() => [tf.variable(tf.zerosLike(p), false), tf.variable(tf.zerosLike(p), false)]);
+      this.slots.set(name, { m, v, step: 0, decay: decaysWeight(name) });
+    }
+  }
+
+  /**
+   * One update of every parameter that has a gradient in `grads` (keyed by parameter
+   * name). `gradScale` multiplies each gradient first — the global-norm clip factor.
+   * The gradients stay with the caller.
+   */
+  apply(grads: Map<string, tf.Tensor>, lr: number, gradScale = 1): void {
+    this.assertLive();
+    for (const name of grads.keys()) {
+      if (!this.slots.has(name)) throw new Error(`AdamW.apply: gradient for unknown parameter "${name}"`);
+    }
+    const { beta1, beta2, epsilon, weightDecay } = this.options;
+    tf.tidy(() => {
+      const b1 = tf.scalar(beta1);
+      const b2 = tf.scalar(beta2);
+      const oneMinusB1 = tf.scalar(1 - beta1);
+      const oneMinusB2 = tf.scalar(1 - beta2);
+      const eps = tf.scalar(epsilon);
+      const scale = gradScale === 1 ? null : tf.scalar(gradScale);
+      const decayFactor = tf.scalar(1 - lr * weightDecay);
+      for (const [name, p] of this.params) {
+        const raw = grads.get(name);
+        if (raw === undefined) continue;
+        const slot = this.slots.get(name)!;
+        const t = slot.step + 1;
+        const g = scale === null ? raw : tf.mul(raw, scale);
+        // 1. decoupled decay
+        const decayed = slot.decay && weightDecay !== 0 ? tf.mul(p, decayFactor) : p;
+        // 2–3. moments
+        const m = tf.add(tf.mul(slot.m, b1), tf.mul(g, oneMinusB1));
+        const v = tf.add(tf.mul(slot.v, b2), tf.mul(tf.mul(g, oneMinusB2), g));
+        // 4. bias-corrected step
+        const stepSize = lr / (1 - beta1 ** t);
+        const correction2Sqrt = Math.sqrt(1 - beta2 ** t);
+        const denom = tf.add(tf.div(tf.sqrt(v), tf.scalar(correction2Sqrt)), eps);
+        // torch's addcdiv_(m, denom, value=−stepSize): p + (−stepSize·m) / denom
+        const updated = tf.add(decayed, tf.div(tf.mul(m, tf.scalar(-stepSize)), denom));
+        slot.m.assign(m);
+        slot.v.assign(v);
+        p.assign(updated);
+        slot.step = t;
+      }
+    });
+  }
+
+  /** Updates taken by the parameter `name` (0 before its first). */
+  stepOf(name: string): number {
+    const slot = this.slots.get(name);
+    if (slot === undefined) throw new Error(`AdamW.stepOf: unknown parameter "${name}"`);
+    return slot.step;
+  }
+
+  /** A copy of the moments and step counts, in the shape of each parameter's variable. */
+  exportState(): AdamWState {
+    this.assertLive();
+    const steps: Record<string, number> = {};
+    const tensors: NamedTensors = new Map();
+    for (const [name, slot] of this.slots) {
+      steps[name] = slot.step;
+      tensors.set(M_PREFIX + name, { shape: [...slot.m.shape], data: Float32Array.from(slot.m.dataSync()) });
+    }
+    for (const [name, slot] of this.slots) {
+      tensors.set(V_PREFIX + name, { shape: [...slot.v.shape], data: Float32Array.from(slot.v.dataSync()) });
+    }
+    return { steps, tensors };
+  }
+
+  /**
+   * Replaces the moments and step counts with `state` (from `exportState`, perhaps
+   * through a checkpoint). Every parameter must be present with its own shape; on any
+   * mismatch it throws naming the tensor and changes nothing.
+   */
+  importState(state: AdamWState): void {
+    this.assertLive();
+    for (const [name, slot] of this.slots) {
+      const step = state.steps[name];
+      if (typeof step !== 'number' || !Number.isInteger(step) || step < 0) {
+        throw new Error(`AdamW.importState: steps["${name}"] must be a whole number ≥ 0, got ${String(step)}`);
+      }
+      for (const key of [M_PREFIX + name, V_PREFIX + name]) {
+        const tensor = state.tensors.get(key);
+        if (tensor === undefined) throw new Error(`AdamW.importState: tensor "${key}" is missing`);
+        const want = slot.m.shape;
+        if (tensor.shape.length !== want.length || tensor.shape.some((d, i) => d !== want[i])) {
+          throw new Error(`AdamW.importState: tensor "${key}" has shape [${tensor.shape}], expected [${want}]`);
+        }
+        if (tensor.data.length !== slot.m.size) {
+          throw new Error(`AdamW.importState: tensor "${key}" holds ${tensor.data.length} values, expected ${slot.m.size}`);
+        }
+      }
+    }
+    for (const [name, slot] of this.slots) {
+      const m = state.tensors.get(M_PREFIX + name)!;
+      const v = state.tensors.get(V_PREFIX + name)!;
+      tf.tidy(() => {
+        slot.m.assign(tf.tensor(m.data, slot.m.shape, 'float32'));
+        slot.v.assign(tf.tensor(v.data, slot.v.shape, 'float32'));
+      });
+      slot.step = state.steps[name]!;
+    }
+  }
+
+  /** Frees the moments. The parameters belong to their owner and are left alone. */
+  dispose(): void {
+    if (this.disposed) return;
+    for (const slot of this.slots.values()) {
+      slot.m.dispose();
+      slot.v.dispose();
+    }
+    this.slots.clear();
+    this.disposed = true;
+  }
+
+  private assertLive(): void {
+    if (this.disposed) throw new Error('AdamW: used after dispose()');
+  }
+}

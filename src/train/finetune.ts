@@ -1,0 +1,161 @@
+// defines: fineTune, FineTuneRequest, RunMeta — one fine-tuning run from labelled
+// records to a trained reader, with evaluation and checkpoints, shared by the CLI and
+// the Web Worker. The loop itself is loop.ts; this file wires its callbacks:
+//
+//   1. windows      records → features (src/text/features.ts), once
+//   2. plan         updates, warmup, tokens per update (schedule.ts), logged via 'start'
+//   3. resume       weights, moments and the data position from a checkpoint, if asked
+//   4. loop         trainLoop with `evaluate` = SQuAD 2.0 EM/F1 on the validation
+//                   records (src/eval/evaluate.ts) and `saveCheckpoint` = the store
+//   5. prune        keep the best checkpoint by validation F1 and the last two
+
+import type { QARecord } from '../data/record.js';
+import { evaluateRecords } from '../eval/evaluate.js';
+import type { Checkpoint, CheckpointMeta, CheckpointStore } from '../io/checkpoint-store.js';
+import type { NamedTensors } from '../io/tensors.js';
+import type { ReaderConfig } from '../model/config.js';
+import { ReaderParams } from '../model/params.js';
+import { FeatureBuilder, type FeatureTokenizer } from '../text/features.js';
+import type { AdamWState } from './adamw.js';
+import type { TrainConfig } from './config.js';
+import { trainLoop, type LoopHooks, type LoopOutcome, type Metrics, type RunState } from './loop.js';
+import { planTraining, type TrainPlan } from './schedule.js';
+import { Trainer } from './trainer.js';
+
+/** What a fine-tuning checkpoint carries beyond the store's common fields. */
+export interface RunMeta extends CheckpointMeta {
+  run: RunState;
+  /** AdamW's per-parameter step counts (the moments are tensors) */
+  optimizerSteps: Record<string, number>;
+  runConfig: { train: TrainConfig; model: ReaderConfig; base: string };
+}
+
+export interface FineTuneRequest {
+  /** the starting weights; fineTune trains a copy and leaves these untouched */
+  base: { params: ReaderParams; config: ReaderConfig; name: string };
+  tokenizer: FeatureTokenizer;
+  train: readonly QARecord[];
+  /** scored at every evaluation; none → no evaluation, checkpoints by interval only */
+  validation?: readonly QARecord[];
+  config: TrainConfig;
+  /** src/data/hash.ts hashDataset of the training records */
+  datasetHash: string;
+  store?: CheckpointStore<RunMeta>;
+  /** continue from this checkpoint of `store` */
+  resumeFrom?: string;
+  hooks?: Pick<LoopHooks, 'onEvent' | 'signal' | 'shouldStop' | 'yieldToEvents'>;
+  /** windows per forward pass when evaluating */
+  evalBatchSize?: number;
+}
+
+export interface FineTuneResult {
+  outcome: LoopOutcome;
+  /** the trained weights; the caller owns and disposes them */
+  params: ReaderParams;
+  plan: TrainPlan;
+  windows: number;
+  /** the last evaluation's metrics, if any */
+  metrics: Metrics | null;
+}
+
+/** Weights only: a checkpoint's tensors without the optimizer's moments. */
+export function weightsOf(tensors: NamedTensors): NamedTensors {
+  return new Map([...tensors].filter(([name]) => !name.startsWith('adam.')));
+}
+
+export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
+  const { config } = req;
+  // 1. windows
+  const builder = new FeatureBuilder(req.tokenizer, {
+    maxLen: config.maxLength,
+    stride: config.stride,
+    maxQueryTokens: config.maxQueryLength,
+  });
+  const features = req.train.flatMap((r) => builder.build(r).features);
+  builder.clearCache();
+  if (features.length === 0) throw new Error('fine-tuning needs at least one training question');
+  const validationWindows = req.validation
+    ? req.validation.flatMap((r) => new FeatureBuilder(req.tokenizer, builder.options).build(r).features)
+    : [];
+
+  // 2. plan
+  const plan = planTraining(config, features.length);
+
+  // 3. the weights to train, and the run state to continue from
+  let resume: RunState | undefined;
+  let optimizer: AdamWState | undefined;
+  let params: ReaderParams;
+  if (req.resumeFrom !== undefined) {
+    if (!req.store) throw new Error('resuming needs a checkpoint store');
+    const ckpt = await req.store.load(req.resumeFrom);
+    if (ckpt.meta.datasetHash !== req.datasetHash) {
+      throw new Error(`checkpoint "${req.resumeFrom}" was trained on other data (dataset hash ${ckpt.meta.datasetHash}, now ${req.datasetHash})`);
+    }
+    params = ReaderParams.fromNamed(req.base.config, weightsOf(ckpt.tensors), { source: `checkpoint ${req.resumeFrom}` }).params;
+    resume = ckpt.meta.run;
+    optimizer = {
+      steps: ckpt.meta.optimizerSteps,
+      tensors: new Map([...ckpt.tensors].filter(([name]) => name.startsWith('adam.'))),
+    };
+  } else {
+    params = ReaderParams.fromNamed(req.base.config, req.base.params.toNamed(), { seed: config.seed, source: req.base.name }).params;
+  }
+  const trainer = new Trainer(params, req.base.config, config, plan);
+  if (resume && optimizer) trainer.restore(resume.trainer, optimizer);
+
+  // 4. loop
+  let lastMetrics: Metrics | null = null;
+  const evaluate = req.validation?.length
+    ? (): Metrics => {
+        const { report } = evaluateRecords({ params, config: req.base.config, tokenizer: req.tokenizer }, req.validation!, {
+          windows: validationWindows,
+          batchSize: req.evalBatchSize,
+        });
+        const m: Metrics = {
+          validationEM: report.summary.em ?? 0,
+          validationF1: report.summary.f1 ?? 0,
+          answerableF1: report.summary.answerable.f1 ?? 0,
+          unanswerableF1: report.summary.unanswerable.f1 ?? 0,
+        };
+        if (report.tuned) {
+          m.tunedF1 = report.tuned.summary.f1 ?? 0;
+          m.tunedEM = report.tuned.summary.em ?? 0;
+          m.threshold = report.tuned.threshold;
+        }
+        lastMetrics = m;
+        return m;
+      }
+    : undefined;
+  const store = req.store;
+  const saveCheckpoint = store
+    ? async (request: Parameters<NonNullable<LoopHooks['saveCheckpoint']>>[0]) => {
+        const opt = request.optimizer();
+        const tensors: NamedTensors = new Map([...request.weights(), ...opt.tensors]);
+        const meta: RunMeta = {
+          step: request.state.trainer.update,
+          schedulePosition: request.state.trainer.update,
+          rngState: { seed: config.seed },
+          dataPosition: request.state.order,
+          runConfig: { train: config, model: req.base.config, base: req.base.name },
+          datasetHash: req.datasetHash,
+          metrics: { ...(request.metrics ?? {}) },
+          label: request.reason,
+          run: request.state,
+          optimizerSteps: opt.steps,
+        };
+        const ckpt: Checkpoint<RunMeta> = { meta, tensors };
+        await store.save(ckpt);
+        // 5. prune
+        await store.prune({ keepBest: 1, keepLast: 2 });
+      }
+    : undefined;
+  try {
+    const outcome = await trainLoop(trainer, { kind: 'span', features }, { ...req.hooks, evaluate, saveCheckpoint }, resume);
+    return { outcome, params, plan, windows: features.length, metrics: lastMetrics };
+  } catch (err) {
+    params.dispose();
+    throw err;
+  } finally {
+    trainer.dispose();
+  }
+}

@@ -1,0 +1,26 @@
+// defines: `npm run bench` — every benchmark in one run.
+//   1. the tokenizer bench (tests/bench/tokenize.ts, another stage's), when present,
+//      in its own process so the two do not share a heap
+//   2. the engine bench (engine.ts), last, so with --json its JSON object is the
+//      LAST line of the output
+// Arguments are passed to both (e.g. --json, --skip-cpu).
+
+import { spawnSync } from 'node:child_process';
+import { existsSync } from 'node:fs';
+import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { main as engineMain } from './engine.js';
+
+const here = dirname(fileURLToPath(import.meta.url));
+const args = process.argv.slice(2);
+
+const tokenizeBench = join(here, 'tokenize.ts');
+if (existsSync(tokenizeBench)) {
+  const tsx = join(here, '..', '..', 'node_modules', '.bin', 'tsx');
+  const r = spawnSync(tsx, [tokenizeBench, ...args.filter((a) => a !== '--json')], { stdio: 'inherit' });
+  if (r.status !== 0) console.error(`tests/bench/tokenize.ts exited with ${r.status}`);
+} else {
+  console.log('tokenizer bench: tests/bench/tokenize.ts not present, skipped');
+}
+
+await engineMain(args);

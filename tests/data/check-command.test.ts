@@ -1,0 +1,79 @@
+// The `check` command end to end, run as the user runs it (tsx src/cli/main.ts check ...).
+import { execFile } from 'node:child_process';
+import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { promisify } from 'node:util';
+import { afterAll, describe, expect, it } from 'vitest';
+import { rmSync } from 'node:fs';
+import { parseDataset } from '../../src/data/load.js';
+
+const run = promisify(execFile);
+const root = join(import.meta.dirname, '../..');
+const tsx = join(root, 'node_modules/.bin/tsx');
+const dir = mkdtempSync(join(tmpdir(), 'spanwright-check-'));
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+async function check(...args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
+  try {
+    const { stdout, stderr } = await run(tsx, ['src/cli/main.ts', 'check', ...args], { cwd: root });
+    return { code: 0, stdout, stderr };
+  } catch (err) {
+    const e = err as { code: number; stdout: string; stderr: string };
+    return { code: e.code, stdout: e.stdout, stderr: e.stderr };
+  }
+}
+
+const ctx = 'The tram depot opens at six. Night trams stop at one.';
+const line = (o: object): string => `${JSON.stringify(o)}\n`;
+const good = line({ id: 'a', passage_id: 'depot', context: ctx, question: 'When does it open?', answers: [{ text: 'six', start: 24 }] });
+const repaired = line({ id: 'b', passage_id: 'depot', context: ctx, question: 'When do night trams stop?', answers: [{ text: 'one', start: 2 }] });
+const broken = line({ id: 'c', passage_id: 'depot', context: ctx, question: 'Where?', answers: [{ text: 'six', start: '24' }] });
+
+describe('spanwright check', () => {
+  it('exits 0 on a clean file and prints counts', async () => {
+    const file = join(dir, 'clean.jsonl');
+    writeFileSync(file, good + repaired);
+    const r = await check(file);
+    expect(r.code).toBe(0);
+    expect(r.stdout).toContain('answers[0].start: warning:');
+    expect(r.stdout.trimEnd().split('\n').at(-1)).toBe(
+      `${file} (jsonl): 2 record(s) passed, 1 passage(s), 0 unanswerable; 0 error(s), 1 warning(s), 1 repair(s)`,
+    );
+  });
+
+  it('exits 1 with errors; --json prints one object as the last line; --write-clean writes what passed', async () => {
+    const file = join(dir, 'mixed.jsonl');
+    const out = join(dir, 'clean.csv');
+    writeFileSync(file, good + repaired + broken);
+    const r = await check(file, '--json', '--write-clean', out);
+    expect(r.code).toBe(1);
+    const report = JSON.parse(r.stdout.trimEnd().split('\n').at(-1)!) as {
+      records: number;
+      errors: Array<{ record: number; id: string; field: string }>;
+      warnings: Array<{ record: number }>;
+    };
+    expect(report.records).toBe(2);
+    expect(report.errors.map((e) => [e.record, e.id, e.field])).toEqual([[2, 'c', 'answers[0].start']]);
+    expect(report.warnings.map((w) => w.record)).toEqual([1]);
+    expect(r.stderr).toContain('wrote 2 record(s)');
+    const clean = parseDataset(readFileSync(out, 'utf8'), out);
+    expect(clean.problems).toEqual([]);
+    expect(clean.records.map((x) => [x.id, x.answers[0]!.start])).toEqual([
+      ['a', 24],
+      ['b', ctx.indexOf('one')],
+    ]);
+  });
+
+  it('names a missing file, and refuses to overwrite the file being checked', async () => {
+    const missing = await check(join(dir, 'nope.jsonl'));
+    expect(missing.code).toBe(1);
+    expect(missing.stderr).toContain('nope.jsonl: no such file');
+    const file = join(dir, 'self.jsonl');
+    writeFileSync(file, good);
+    const self = await check(file, '--write-clean', file);
+    expect(self.code).toBe(1);
+    expect(self.stderr).toContain('is the file being checked');
+    expect(readFileSync(file, 'utf8')).toBe(good);
+  });
+});

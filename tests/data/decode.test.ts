@@ -1,0 +1,83 @@
+// Decoding data files. The reference for "is this valid UTF-8" is the WHATWG Encoding
+// Standard decoder as built into Node (TextDecoder with fatal: true).
+import { describe, expect, it } from 'vitest';
+import { decodeText, firstInvalidUtf8 } from '../../src/data/decode.js';
+import { mulberry32 } from '../../src/data/random.js';
+
+const bytes = (...b: number[]): Uint8Array => new Uint8Array(b);
+const fatal = new TextDecoder('utf-8', { fatal: true, ignoreBOM: true });
+const decodes = (b: Uint8Array): boolean => {
+  try {
+    fatal.decode(b);
+    return true;
+  } catch {
+    return false;
+  }
+};
+
+describe('firstInvalidUtf8', () => {
+  it.each([
+    ['lone continuation byte', [0x61, 0x80], 1],
+    ['overlong 2-byte form of NUL', [0xc0, 0x80], 0],
+    ['truncated 3-byte sequence', [0x61, 0x62, 0xe2, 0x82], 2],
+    ['UTF-16 surrogate encoded in UTF-8', [0xed, 0xa0, 0x80], 0],
+    ['above U+10FFFF', [0xf4, 0x90, 0x80, 0x80], 0],
+    ['byte F5 never appears', [0xf5], 0],
+    ['Latin-1 é between ASCII', [0x43, 0x61, 0x66, 0xe9, 0x20], 3],
+  ])('%s', (_name, b, at) => {
+    expect(firstInvalidUtf8(bytes(...b))).toBe(at);
+    expect(decodes(bytes(...b))).toBe(false);
+  });
+
+  it('accepts what the WHATWG decoder accepts: 1- to 4-byte forms', () => {
+    const text = 'a é € 𝄞 中文 🙂';
+    const b = new TextEncoder().encode(text);
+    expect(firstInvalidUtf8(b)).toBe(b.length);
+  });
+
+  it('agrees with the WHATWG decoder on random byte strings', () => {
+    const random = mulberry32(7);
+    for (let trial = 0; trial < 3000; trial++) {
+      // bias toward the interesting ranges: ASCII, continuation bytes, lead bytes
+      const b = new Uint8Array(1 + Math.floor(random() * 8));
+      for (let i = 0; i < b.length; i++) {
+        const r = random();
+        b[i] = r < 0.3 ? Math.floor(random() * 0x80) : r < 0.6 ? 0x80 + Math.floor(random() * 0x40) : 0xc0 + Math.floor(random() * 0x40);
+      }
+      const bad = firstInvalidUtf8(b);
+      expect(bad === b.length, `bytes ${[...b].map((x) => x.toString(16))}`).toBe(decodes(b));
+      if (bad < b.length) expect(decodes(b.subarray(0, bad))).toBe(true);
+    }
+  });
+});
+
+describe('decodeText', () => {
+  it('strips a UTF-8 byte-order mark', () => {
+    const r = decodeText(bytes(0xef, 0xbb, 0xbf, 0x68, 0x69));
+    expect(r).toEqual({ ok: true, text: 'hi', encoding: 'utf-8', hadByteOrderMark: true });
+  });
+
+  it('keeps a second mark, which is content', () => {
+    const r = decodeText(bytes(0xef, 0xbb, 0xbf, 0xef, 0xbb, 0xbf, 0x68));
+    expect(r.ok && r.text).toBe('\ufeffh');
+  });
+
+  it('decodes UTF-16 LE and BE after their marks', () => {
+    expect(decodeText(bytes(0xff, 0xfe, 0x68, 0x00, 0xe9, 0x00))).toMatchObject({ ok: true, text: 'hé', encoding: 'utf-16le' });
+    expect(decodeText(bytes(0xfe, 0xff, 0x00, 0x68, 0xd8, 0x3d, 0xde, 0x42))).toMatchObject({ ok: true, text: 'h🙂', encoding: 'utf-16be' });
+  });
+
+  it('reports invalid UTF-8 with its byte offset and line', () => {
+    const b = new Uint8Array([...new TextEncoder().encode('ab\ncd\n'), 0xff, 0x41]);
+    const r = decodeText(b);
+    expect(r).toMatchObject({ ok: false, byteOffset: 6, line: 3 });
+    expect(!r.ok && r.message).toContain('byte offset 6');
+  });
+
+  it('reports a NUL with line, column and byte offset', () => {
+    const b = new Uint8Array([...new TextEncoder().encode('é\nab'), 0x00]);
+    const r = decodeText(b);
+    expect(r).toMatchObject({ ok: false, byteOffset: 5, line: 2 });
+    expect(!r.ok && r.message).toContain('line 2, column 3');
+  });
+});

@@ -1,0 +1,175 @@
+// defines: MaskedLmTrainer — masked-language-model updates that score only the masked
+// positions, and their held-out evaluation (loss and accuracy).
+//
+// Why not Trainer.mlmStep: `mlmLogits` (src/model/encoder.ts) decodes every position,
+// a [B·T, H] × [H, V] product plus a log-softmax over [B·T, V]. With V ≈ 12 000 and
+// H = 128 that product costs 2·H·V ≈ 3 MFLOP per token, about three times the whole
+// two-layer encoder; BERT's own pretraining code gathers the masked positions first
+// (Devlin et al. 2019, `gather_indexes` in its reference implementation, from memory).
+// Here the head runs on the M ≈ 0.15·B·T chosen positions only. The core has no such
+// entry point yet, so this file holds the smallest piece: the MLM head over gathered
+// rows (the same three steps as `mlmLogits`: dense, activation, LayerNorm, then the
+// decoder tied to the word embeddings) and an update built from the core's parts
+// (ReaderParams.variableGrads, globalNorm / clipScale, AdamW).
+//
+// Letters: B rows, T tokens per row, H hidden, V vocabulary, M masked positions.
+
+import * as tf from '@tensorflow/tfjs';
+import type { NamedTensors } from '../../src/io/tensors.js';
+import { parameterShapes, type ReaderConfig } from '../../src/model/config.js';
+import { hiddenStates, type ReaderInputs } from '../../src/model/encoder.js';
+import type { ReaderParams } from '../../src/model/params.js';
+import { AdamW, type AdamWState } from '../../src/train/adamw.js';
+import type { MlmBatch } from '../../src/train/batches.js';
+import { clipScale, globalNorm } from '../../src/train/clip.js';
+import { mlmLoss } from '../../src/train/losses.js';
+import { maskedPositions } from '../../src/train/mlm-data.js';
+
+export interface MaskedLmOptions {
+  weightDecay: number;
+  maxGradNorm: number;
+}
+
+export interface MaskedLmStep {
+  loss: number;
+  gradNorm: number;
+  /** masked positions scored */
+  predicted: number;
+}
+
+export interface MaskedLmEval {
+  /** mean cross-entropy over the masked positions */
+  loss: number;
+  /** share of masked positions whose arg-max prediction is the original token */
+  accuracy: number;
+  predicted: number;
+}
+
+export class MaskedLmTrainer {
+  readonly params: ReaderParams;
+  readonly config: Readonly<ReaderConfig>;
+  private readonly optimizer: AdamW;
+  private readonly options: MaskedLmOptions;
+  /** engine name → Linear weight kept [in, out] (moments are saved [out, in] like weights) */
+  private readonly linear: Map<string, boolean>;
+
+  constructor(params: ReaderParams, config: ReaderConfig, options: MaskedLmOptions) {
+    this.params = params;
+    this.config = Object.freeze({ ...config });
+    this.options = options;
+    this.linear = new Map([...parameterShapes(config)].map(([name, spec]) => [name, spec.linear]));
+    // torch.optim.AdamW's betas, BERT's ε (DEVELOPERS.md)
+    this.optimizer = new AdamW(params.variables, { beta1: 0.9, beta2: 0.999, epsilon: 1e-6, weightDecay: options.weightDecay });
+  }
+
+  /** One update on one masked batch; `dropoutSeed` fixes this step's dropout masks. */
+  step(batch: MlmBatch, lr: number, dropoutSeed: number): MaskedLmStep {
+    const positions = maskedPositions(batch);
+    const { value, grads } = this.params.variableGrads(() => this.lossOf(batch, positions, true, dropoutSeed));
+    try {
+      const loss = value.dataSync()[0];
+      const normTensor = globalNorm(grads.values());
+      const gradNorm = normTensor.dataSync()[0];
+      normTensor.dispose();
+      if (!Number.isFinite(loss) || !Number.isFinite(gradNorm)) {
+        throw new Error(`masked-LM update refused: loss ${loss}, gradient norm ${gradNorm} (weights unchanged)`);
+      }
+      this.optimizer.apply(grads, lr, clipScale(gradNorm, this.options.maxGradNorm));
+      return { loss, gradNorm, predicted: positions.length };
+    } finally {
+      value.dispose();
+      for (const g of grads.values()) g.dispose();
+    }
+  }
+
+  /** Loss and accuracy over the masked positions of the batches, in eval mode (no dropout). */
+  evaluate(batches: readonly MlmBatch[]): MaskedLmEval {
+    let lossSum = 0;
+    let correct = 0;
+    let predicted = 0;
+    for (const batch of batches) {
+      const positions = maskedPositions(batch);
+      if (positions.length === 0) continue;
+      const [loss, hits] = tf.tidy(() => {
+        const logits = this.logitsAt(batch, positions, false, 0); // [M, V]
+        const labels = tf.tensor1d(gatherLabels(batch, positions), 'int32'); // [M]
+        const ce = mlmLoss(tf.expandDims(logits, 0) as tf.Tensor3D, tf.expandDims(labels, 0) as tf.Tensor2D);
+        const right = tf.sum(tf.cast(tf.equal(tf.argMax(logits, -1), labels), 'int32'));
+        return [ce.dataSync()[0], right.dataSync()[0]];
+      });
+      lossSum += loss * positions.length;
+      correct += hits;
+      predicted += positions.length;
+    }
+    return { loss: predicted > 0 ? lossSum / predicted : Number.NaN, accuracy: predicted > 0 ? correct / predicted : Number.NaN, predicted };
+  }
+
+  /** Moments in checkpoint layout (Linear weights [out, in]) with step counts. */
+  optimizerState(): AdamWState {
+    const { steps, tensors } = this.optimizer.exportState();
+    return { steps, tensors: this.swapLinearAxes(tensors) };
+  }
+
+  restoreOptimizer(state: AdamWState): void {
+    this.optimizer.importState({ steps: state.steps, tensors: this.swapLinearAxes(state.tensors) });
+  }
+
+  dispose(): void {
+    this.optimizer.dispose();
+  }
+
+  // ---- the head over gathered positions --------------------------------------------
+
+  private lossOf(batch: MlmBatch, positions: Int32Array, training: boolean, dropoutSeed: number): tf.Scalar {
+    const logits = this.logitsAt(batch, positions, training, dropoutSeed); // [M, V]
+    const labels = tf.tensor2d(gatherLabels(batch, positions), [1, positions.length], 'int32'); // [1, M]
+    return mlmLoss(tf.expandDims(logits, 0) as tf.Tensor3D, labels);
+  }
+
+  /** As mlmLogits, but only at `positions` (flat b·T + t indices). [M, V] */
+  private logitsAt(batch: MlmBatch, positions: Int32Array, training: boolean, dropoutSeed: number): tf.Tensor2D {
+    const { hiddenSize: H, layerNormEps } = this.config;
+    const p = (name: string) => this.params.get(name);
+    const inputs: ReaderInputs = {
+      inputIds: tf.tensor2d(batch.inputIds, [batch.size, batch.seqLen], 'int32'),
+      tokenTypeIds: tf.tensor2d(batch.tokenTypeIds, [batch.size, batch.seqLen], 'int32'),
+      attentionMask: tf.tensor2d(batch.attentionMask, [batch.size, batch.seqLen], 'int32'),
+    };
+    const hidden = tf.reshape(hiddenStates(this.params, this.config, inputs, { training, dropoutSeed }), [batch.size * batch.seqLen, H]); // [B·T, H]
+    const picked = tf.gather(hidden, tf.tensor1d(positions, 'int32')) as tf.Tensor2D; // [M, H]
+    // 1. transform: dense (weights kept [in, out]), activation, LayerNorm — as mlmLogits
+    const dense = tf.add(tf.matMul(picked, p('cls.predictions.transform.dense.weight')), p('cls.predictions.transform.dense.bias')); // [M, H]
+    const act = this.config.activation === 'gelu_sigmoid' ? tf.mul(dense, tf.sigmoid(tf.mul(dense, 1.702))) : tf.mul(tf.mul(dense, 0.5), tf.add(1, tf.erf(tf.mul(dense, Math.SQRT1_2))));
+    const mean = tf.mean(act, -1, true); // [M, 1]
+    const centred = tf.sub(act, mean); // [M, H]
+    const variance = tf.mean(tf.square(centred), -1, true); // [M, 1]
+    const normed = tf.mul(centred, tf.rsqrt(tf.add(variance, layerNormEps))); // [M, H]
+    const transformed = tf.add(tf.mul(normed, p('cls.predictions.transform.LayerNorm.weight')), p('cls.predictions.transform.LayerNorm.bias')); // [M, H]
+    // 2. decoder tied to the word embeddings; an explicit transpose, then a plain product
+    const decoder = tf.transpose(p('bert.embeddings.word_embeddings.weight')); // [H, V]
+    return tf.add(tf.matMul(transformed, decoder), p('cls.predictions.bias')) as tf.Tensor2D; // [M, V]
+  }
+
+  /** Moments follow the variables' layout; a transpose is its own inverse, so one function converts both ways. */
+  private swapLinearAxes(tensors: NamedTensors): NamedTensors {
+    const out: NamedTensors = new Map();
+    for (const [key, tensor] of tensors) {
+      const name = key.replace(/^adam\.[mv]\./, '');
+      if (this.linear.get(name) !== true || tensor.shape.length !== 2) {
+        out.set(key, tensor);
+        continue;
+      }
+      const [rows, cols] = tensor.shape;
+      const data = new Float32Array(rows * cols);
+      for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) data[c * rows + r] = tensor.data[r * cols + c];
+      out.set(key, { shape: [cols, rows], data });
+    }
+    return out;
+  }
+}
+
+function gatherLabels(batch: MlmBatch, positions: Int32Array): Int32Array {
+  const out = new Int32Array(positions.length);
+  positions.forEach((at, k) => (out[k] = batch.labels[at]));
+  return out;
+}
