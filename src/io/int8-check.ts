@@ -1,59 +1,20 @@
-// defines: measureInt8Drift, int8AccuracyCost, windowLogits — what int8 weights cost, measured
+// defines: measureInt8Drift, int8AccuracyCost — what int8 weights cost, measured
 // with the engine itself (spanLogits on whichever tfjs backend is active):
 //   measureInt8Drift   start/end logits of the fp32 and the dequantized int8 model on a
 //                      fixed set of token sequences; needs no data.
 //   int8AccuracyCost   EM/F1 (SQuAD 2.0 rules, src/eval) of both models on validation
 //                      windows; needs records and their features.
 
-import * as tf from '@tensorflow/tfjs';
 import { mulberry32 } from '../data/random.js';
 import type { QARecord } from '../data/record.js';
-import { predictAll, type DecodableWindow, type WindowLogits } from '../eval/decode.js';
+import { predictAll } from '../eval/decode.js';
+import { readerLogits, type InputWindow } from '../eval/evaluate.js';
 import { evaluate, goldFromRecords, type SquadScores } from '../eval/squad-metric.js';
 import type { ReaderConfig } from '../model/config.js';
-import { spanLogits } from '../model/encoder.js';
 import { ReaderParams } from '../model/params.js';
 import { dequantizeModel, type QuantizedModel } from './int8.js';
 import type { Int8Drift } from './model-card.js';
 import type { NamedTensors } from './tensors.js';
-
-/** A window with its model inputs (src/text/features.ts Feature fits structurally). */
-export interface InputWindow extends DecodableWindow {
-  inputIds: Int32Array;
-  tokenTypeIds: Int32Array;
-  attentionMask: Int32Array;
-}
-
-/** Start/end logits of every window, `batchSize` windows per forward pass (dropout off). */
-export function windowLogits(params: ReaderParams, config: ReaderConfig, windows: readonly InputWindow[], batchSize = 16): WindowLogits[] {
-  const out: WindowLogits[] = [];
-  for (let b = 0; b < windows.length; b += batchSize) {
-    const batch = windows.slice(b, b + batchSize);
-    const T = batch[0]!.inputIds.length;
-    const stack = (pick: (w: InputWindow) => Int32Array): Int32Array => {
-      const flat = new Int32Array(batch.length * T);
-      batch.forEach((w, i) => {
-        const row = pick(w);
-        if (row.length !== T) throw new Error(`windowLogits: record "${w.recordId}" window ${w.window} has ${row.length} tokens, expected ${T}`);
-        flat.set(row, i * T);
-      });
-      return flat;
-    };
-    const [start, end] = tf.tidy(() => {
-      const inputs = {
-        inputIds: tf.tensor2d(stack((w) => w.inputIds), [batch.length, T], 'int32'),
-        tokenTypeIds: tf.tensor2d(stack((w) => w.tokenTypeIds), [batch.length, T], 'int32'),
-        attentionMask: tf.tensor2d(stack((w) => w.attentionMask), [batch.length, T], 'int32'),
-      };
-      const logits = spanLogits(params, config, inputs, { training: false });
-      return [logits.start.dataSync() as Float32Array, logits.end.dataSync() as Float32Array];
-    });
-    for (let i = 0; i < batch.length; i++) {
-      out.push({ startLogits: start!.slice(i * T, (i + 1) * T), endLogits: end!.slice(i * T, (i + 1) * T) });
-    }
-  }
-  return out;
-}
 
 /** Runs `body` with an engine model built from `named`, disposing it afterwards. */
 function withModel<R>(config: ReaderConfig, named: NamedTensors, body: (params: ReaderParams) => R): R {
@@ -91,8 +52,8 @@ export function measureInt8Drift(
     const tokenTypeIds = Int32Array.from({ length }, (_, t) => (t < length / 3 ? 0 : 1));
     windows.push({ recordId: `probe${s}`, window: 0, offsets: new Int32Array(2 * length).fill(-1), inputIds, tokenTypeIds, attentionMask: new Int32Array(length).fill(1) });
   }
-  const fp32 = withModel(config, named, (p) => windowLogits(p, config, windows));
-  const int8 = withModel(config, dequantizeModel(quantized), (p) => windowLogits(p, config, windows));
+  const fp32 = withModel(config, named, (p) => readerLogits(p, config, windows));
+  const int8 = withModel(config, dequantizeModel(quantized), (p) => readerLogits(p, config, windows));
   let maxAbs = 0;
   let lo = Infinity;
   let hi = -Infinity;
@@ -128,6 +89,6 @@ export function int8AccuracyCost(
   const windowed = new Set(windows.map((w) => w.recordId));
   const gold = goldFromRecords(records.filter((r) => windowed.has(r.id)));
   const score = (model: NamedTensors): SquadScores =>
-    withModel(config, model, (p) => evaluate(gold, predictAll(records, windows, windowLogits(p, config, windows)).predictions));
+    withModel(config, model, (p) => evaluate(gold, predictAll(records, windows, readerLogits(p, config, windows)).predictions));
   return { fp32: score(named), int8: score(dequantizeModel(quantized)) };
 }

@@ -2,10 +2,11 @@
 // vocab.txt or tokenizer.json) to an export directory: config, weights (fp32 or fp16),
 // optionally int8 weights and ONNX graphs, the vocabulary and a model card
 // (src/io/export.ts). With --int8 the engine measures the int8 weights' logit drift.
-import { mkdir, readFile, readdir, rename, writeFile } from 'node:fs/promises';
-import { basename, join, resolve } from 'node:path';
+import { mkdir, readdir } from 'node:fs/promises';
+import { basename, resolve } from 'node:path';
 import type { Command } from 'commander';
-import { UserError, printJson, readBytes, runCommand } from '../common.js';
+import { UserError, printJson, runCommand } from '../common.js';
+import { readModelDir, writeFilesAtomically } from '../model-dir.js';
 import type { ModelCardInfo } from '../../io/model-card.js';
 
 interface ExportOptions {
@@ -43,27 +44,6 @@ Examples:
   spanwright export --model runs/best --out exported --int8 --onnx`,
     )
     .action((options: ExportOptions) => runCommand(() => exportCommand(options)));
-}
-
-async function readModelDir(dir: string) {
-  let names: string[];
-  try {
-    names = await readdir(dir);
-  } catch {
-    throw new UserError(`${dir}: not a readable folder`);
-  }
-  for (const needed of ['config.json', 'model.safetensors']) {
-    if (!names.includes(needed)) throw new UserError(`${dir}: no ${needed} (a model directory holds config.json, model.safetensors and vocab.txt or tokenizer.json)`);
-  }
-  const vocabFile = names.includes('vocab.txt') ? 'vocab.txt' : names.includes('tokenizer.json') ? 'tokenizer.json' : null;
-  if (vocabFile === null) throw new UserError(`${dir}: no vocab.txt or tokenizer.json`);
-  const path = (n: string) => join(dir, n);
-  return {
-    configJson: await readFile(path('config.json'), 'utf8'),
-    safetensors: await readBytes(path('model.safetensors')),
-    vocab: { file: vocabFile, text: await readFile(path(vocabFile), 'utf8') } as const,
-    names: { config: path('config.json'), weights: path('model.safetensors'), vocab: path(vocabFile) },
-  };
 }
 
 async function exportCommand(options: ExportOptions): Promise<void> {
@@ -119,12 +99,7 @@ async function exportCommand(options: ExportOptions): Promise<void> {
     card: { ...card, int8: drift ? { drift } : undefined },
   });
 
-  for (const f of out) {
-    const target = join(options.out, f.name);
-    const tmp = join(options.out, `.${f.name}.tmp-${process.pid}`);
-    await writeFile(tmp, f.bytes);
-    await rename(tmp, target);
-  }
+  await writeFilesAtomically(options.out, out);
 
   const worst = quantized?.report.reduce((a, t) => (t.maxAbsError > a.maxAbsError ? t : a));
   if (options.json) {
