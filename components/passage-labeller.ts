@@ -1,0 +1,295 @@
+// <passage-labeller> — labelling by hand: add plain-text passages (pasted, or loaded
+// from .txt files), pick one, select the answer in its text (mouse or Shift+arrows in
+// the read-only text box), type the question, or mark it unanswerable; edit and delete
+// questions, with undo. Every question is checked by src/data/validate.ts before it is
+// kept, and the text is shown only as text (a read-only <textarea> and lit bindings).
+// Events out: dataset-change {dataset}.
+import { LitElement, css, html } from 'lit';
+import { customElement, property, state } from 'lit/decorators.js';
+import type { QARecord } from '../src/data/record.js';
+import { normaliseLineBreaks, validateQARecords } from '../src/data/validate.js';
+import { screenStyles } from './shared-styles.js';
+import { emptyDataset, type Dataset } from './workbench-db.js';
+
+/** A passage id from a title: lower case, letters, digits and dashes. */
+function slug(title: string): string {
+  return title
+    .normalize('NFKD')
+    .toLowerCase()
+    .replace(/[^\p{L}\p{N}]+/gu, '-')
+    .replace(/^-+|-+$/g, '')
+    .slice(0, 48);
+}
+
+function uniqueId(base: string, taken: ReadonlySet<string>): string {
+  if (!taken.has(base)) return base;
+  for (let n = 2; ; n++) if (!taken.has(`${base}-${n}`)) return `${base}-${n}`;
+}
+
+@customElement('passage-labeller')
+export class PassageLabeller extends LitElement {
+  static override styles = [
+    screenStyles,
+    css`
+      .passage {
+        font-family: ui-monospace, SFMono-Regular, Menlo, monospace;
+        font-size: 0.9rem;
+        min-height: 10rem;
+      }
+      .answer {
+        background: var(--gold, #f3df8f);
+        padding: 0 0.2rem;
+      }
+      li.editing {
+        outline: 2px solid var(--accent, #1f5f8b);
+      }
+      ul.questions {
+        padding-left: 1.2rem;
+      }
+      ul.questions li {
+        margin: 0.25rem 0;
+      }
+    `,
+  ];
+
+  /** the dataset: questions and passages */
+  @property({ attribute: false }) collection: Dataset = emptyDataset();
+  /** a question id to bring into view (its passage is selected) */
+  @property({ attribute: false }) focusId: string | null = null;
+
+  @state() private passageId = '';
+  @state() private answer: { start: number; end: number } | null = null;
+  @state() private question = '';
+  @state() private unanswerable = false;
+  /** the question being edited, or null when adding */
+  @state() private editing: string | null = null;
+  @state() private undo: { record: QARecord; index: number } | null = null;
+  @state() private message = '';
+  @state() private newTitle = '';
+  @state() private newText = '';
+
+  override willUpdate(changed: Map<string, unknown>): void {
+    if (changed.has('focusId') && this.focusId) {
+      const r = this.collection.records.find((x) => x.id === this.focusId);
+      if (r) this.startEdit(r);
+    }
+    // only a new collection can remove the chosen passage (one just added arrives with the next collection)
+    const known = this.collection.passages.some((p) => p.id === this.passageId);
+    if ((changed.has('collection') || this.passageId === '') && !known) this.passageId = this.collection.passages[0]?.id ?? '';
+  }
+
+  override render() {
+    const passages = this.collection.passages;
+    const passage = passages.find((p) => p.id === this.passageId);
+    const counts = new Map<string, number>();
+    for (const r of this.collection.records) counts.set(r.passageId, (counts.get(r.passageId) ?? 0) + 1);
+    const questions = this.collection.records.filter((r) => r.passageId === this.passageId);
+    return html`
+      <section>
+        <h3>Label passages</h3>
+        <details ?open=${passages.length === 0}>
+          <summary>Add a passage</summary>
+          <div class="row">
+            <label>Title <input id="new-title" .value=${this.newTitle} @input=${(e: Event) => (this.newTitle = (e.target as HTMLInputElement).value)} /></label>
+            <label>or load text files <input id="passage-files" type="file" multiple accept=".txt,text/plain" @change=${this._onPassageFiles} /></label>
+          </div>
+          <label for="new-text">Passage text</label>
+          <textarea id="new-text" rows="6" .value=${this.newText} @input=${(e: Event) => (this.newText = (e.target as HTMLTextAreaElement).value)}></textarea>
+          <button id="add-passage" @click=${this._onAddPassage} ?disabled=${this.newText.trim() === ''}>Add passage</button>
+        </details>
+
+        ${passages.length === 0
+          ? html`<p class="muted">No passages yet: import questions above, or add a passage.</p>`
+          : html`
+              <div class="row spaced">
+                <label>Passage
+                  <select id="passage-select" @change=${this._onPickPassage}>
+                    ${passages.map((p) => html`<option value=${p.id} ?selected=${p.id === this.passageId}>${p.title ?? p.id} (${counts.get(p.id) ?? 0} questions)</option>`)}
+                  </select>
+                </label>
+              </div>
+              ${passage ? this.renderEditor(passage.text, questions) : ''}
+            `}
+        ${this.message ? html`<p class="note warn" role="status" id="labeller-message">${this.message}</p>` : ''}
+        ${this.undo
+          ? html`<p class="note" role="status">Deleted “${this.undo.record.question}”. <button id="undo-delete" @click=${this._onUndo}>Undo</button></p>`
+          : ''}
+      </section>
+    `;
+  }
+
+  private renderEditor(text: string, questions: QARecord[]) {
+    const a = this.answer;
+    return html`
+      <label for="passage-text">Passage (select the answer with the mouse, or Shift + arrow keys)</label>
+      <textarea id="passage-text" class="passage" rows="10" readonly .value=${text} aria-describedby="answer-state"></textarea>
+      <div class="row">
+        <button id="use-selection" @click=${this._onUseSelection} ?disabled=${this.unanswerable}>Use the selection as the answer</button>
+        <span id="answer-state">
+          ${this.unanswerable
+            ? html`<em>unanswerable: the passage does not say</em>`
+            : a
+              ? html`Answer: <span class="answer">${text.slice(a.start, a.end)}</span> <span class="muted">(characters ${a.start}–${a.end})</span>`
+              : html`<span class="muted">no answer selected yet</span>`}
+        </span>
+      </div>
+      <div class="row spaced">
+        <label class="grow">Question
+          <input id="question-input" .value=${this.question} @input=${(e: Event) => (this.question = (e.target as HTMLInputElement).value)} @keydown=${this._onQuestionKey} />
+        </label>
+        <label><input id="unanswerable-box" type="checkbox" .checked=${this.unanswerable} @change=${(e: Event) => (this.unanswerable = (e.target as HTMLInputElement).checked)} /> unanswerable</label>
+        <button id="save-question" class="primary" @click=${this._onSave}>${this.editing ? 'Save changes' : 'Add question'}</button>
+        ${this.editing ? html`<button @click=${this._onCancelEdit}>Cancel</button>` : ''}
+      </div>
+      <ul class="questions" aria-label="Questions on this passage">
+        ${questions.map(
+          (r) => html`<li class=${r.id === this.editing ? 'editing' : ''} data-id=${r.id}>
+            <strong>${r.question}</strong> →
+            ${r.unanswerable ? html`<em>unanswerable</em>` : html`<span class="answer">${r.answers[0]?.text ?? ''}</span>`}
+            <span class="muted">${r.id}</span>
+            <button @click=${() => this.startEdit(r)} aria-label="Edit question ${r.id}">Edit</button>
+            <button @click=${() => this._onDelete(r)} aria-label="Delete question ${r.id}">Delete</button>
+          </li>`,
+        )}
+      </ul>
+    `;
+  }
+
+  private emit(dataset: Dataset): void {
+    this.dispatchEvent(new CustomEvent('dataset-change', { detail: { dataset }, bubbles: true, composed: true }));
+  }
+
+  private startEdit(r: QARecord): void {
+    this.passageId = r.passageId;
+    this.editing = r.id;
+    this.question = r.question;
+    this.unanswerable = r.unanswerable;
+    const first = r.answers[0];
+    this.answer = first ? { start: first.start, end: first.start + first.text.length } : null;
+    this.message = '';
+  }
+
+  private resetForm(): void {
+    this.editing = null;
+    this.question = '';
+    this.unanswerable = false;
+    this.answer = null;
+  }
+
+  private addPassages(items: Array<{ title: string; text: string }>): void {
+    const taken = new Set(this.collection.passages.map((p) => p.id));
+    const passages = [...this.collection.passages];
+    let last = '';
+    for (const item of items) {
+      const text = normaliseLineBreaks(item.text).trim();
+      if (text === '') continue;
+      const id = uniqueId(slug(item.title) || `passage-${passages.length + 1}`, taken);
+      taken.add(id);
+      passages.push({ id, text, title: item.title.trim() || undefined });
+      last = id;
+    }
+    if (!last) return;
+    this.passageId = last;
+    this.resetForm();
+    this.emit({ ...this.collection, passages });
+  }
+
+  private _onAddPassage(): void {
+    this.addPassages([{ title: this.newTitle, text: this.newText }]);
+    this.newTitle = '';
+    this.newText = '';
+  }
+
+  private async _onPassageFiles(e: Event): Promise<void> {
+    const input = e.target as HTMLInputElement;
+    const files = [...(input.files ?? [])];
+    this.addPassages(await Promise.all(files.map(async (f) => ({ title: f.name.replace(/\.txt$/i, ''), text: await f.text() }))));
+    input.value = '';
+  }
+
+  private _onPickPassage(e: Event): void {
+    this.passageId = (e.target as HTMLSelectElement).value;
+    this.resetForm();
+  }
+
+  private _onUseSelection(): void {
+    const box = this.renderRoot.querySelector('#passage-text') as HTMLTextAreaElement;
+    let [start, end] = [box.selectionStart, box.selectionEnd];
+    // leave out spaces caught at either edge of the selection
+    while (start < end && /\s/.test(box.value[start]!)) start++;
+    while (end > start && /\s/.test(box.value[end - 1]!)) end--;
+    if (end <= start) {
+      this.message = 'Select the answer in the passage first (drag over it, or hold Shift and use the arrow keys).';
+      return;
+    }
+    this.answer = { start, end };
+    this.message = '';
+  }
+
+  private _onQuestionKey(e: KeyboardEvent): void {
+    if (e.key === 'Enter') this._onSave();
+  }
+
+  private _onSave(): void {
+    const passage = this.collection.passages.find((p) => p.id === this.passageId);
+    if (!passage) return;
+    const question = this.question.trim();
+    if (question === '') {
+      this.message = 'Type the question first.';
+      return;
+    }
+    if (!this.unanswerable && !this.answer) {
+      this.message = 'Select the answer in the passage, or mark the question unanswerable.';
+      return;
+    }
+    const records = this.collection.records;
+    const taken = new Set(records.map((r) => r.id));
+    const id = this.editing ?? uniqueId(`${passage.id}-m${records.filter((r) => r.passageId === passage.id).length + 1}`, taken);
+    const a = this.answer;
+    const record: QARecord = {
+      id,
+      passageId: passage.id,
+      context: passage.text,
+      question,
+      answers: this.unanswerable || !a ? [] : [{ text: passage.text.slice(a.start, a.end), start: a.start }],
+      unanswerable: this.unanswerable,
+    };
+    const checked = validateQARecords([record], 'labelled question');
+    const errors = checked.problems.filter((p) => p.severity === 'error');
+    if (errors.length > 0 || checked.records.length === 0) {
+      this.message = errors.map((p) => `${p.field}: ${p.message}`).join('; ');
+      return;
+    }
+    const next = this.editing ? records.map((r) => (r.id === id ? checked.records[0]! : r)) : [...records, checked.records[0]!];
+    this.resetForm();
+    this.message = '';
+    this.emit({ ...this.collection, records: next });
+  }
+
+  private _onCancelEdit(): void {
+    this.resetForm();
+  }
+
+  private _onDelete(r: QARecord): void {
+    const index = this.collection.records.findIndex((x) => x.id === r.id);
+    if (index < 0) return;
+    this.undo = { record: r, index };
+    if (this.editing === r.id) this.resetForm();
+    this.emit({ ...this.collection, records: this.collection.records.filter((x) => x.id !== r.id) });
+  }
+
+  private _onUndo(): void {
+    const u = this.undo;
+    if (!u) return;
+    const records = [...this.collection.records];
+    records.splice(Math.min(u.index, records.length), 0, u.record);
+    this.undo = null;
+    this.emit({ ...this.collection, records });
+  }
+}
+
+declare global {
+  interface HTMLElementTagNameMap {
+    'passage-labeller': PassageLabeller;
+  }
+}

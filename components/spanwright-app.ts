@@ -1,0 +1,466 @@
+// <spanwright-app> — the workbench shell: a header with the engine's state (threads,
+// SIMD), a row of screen buttons, and the current screen. It owns what several screens
+// share — the dataset, the split, the base reader, the training settings, the training
+// run and the last evaluations — keeps them in IndexedDB (workbench-db.ts), and talks to
+// the engine worker (engine-client.ts). Screens get that state as properties and send
+// changes back as events:
+//   dataset-change {dataset}   split-change {split}      base-change {base}
+//   settings-change {settings} run-start                 run-halt {mode: 'pause'|'stop'}
+//   run-continue               tuned-change {name}       evaluated {result}
+// On start it marks a run that was `running` when the page went away as `interrupted`,
+// so the training screen can offer to continue it from its last checkpoint.
+import { LitElement, css, html } from 'lit';
+import { customElement, state } from 'lit/decorators.js';
+import { hashDataset } from '../src/data/hash.js';
+import { splitByPassage, type Split } from '../src/data/split.js';
+import { DEFAULT_TRAIN_CONFIG, type TrainConfig } from '../src/train/config.js';
+import type { LoopEvent } from '../src/train/loop.js';
+import type { BaseInfo, EngineReady, EvaluationResult } from '../workers/protocol.js';
+import { EngineClient } from './engine-client.js';
+import { screenStyles } from './shared-styles.js';
+import {
+  emptyDataset,
+  emptySeries,
+  loadState,
+  saveState,
+  type Dataset,
+  type RunRecord,
+  type SplitSettings,
+  type StoredBase,
+} from './workbench-db.js';
+import './data-screen.js';
+import './reader-screen.js';
+import './training-screen.js';
+import './checkpoint-screen.js';
+import './evaluation-screen.js';
+import './ask-screen.js';
+import './export-screen.js';
+
+export type ScreenName = 'data' | 'reader' | 'training' | 'checkpoints' | 'evaluation' | 'ask' | 'export';
+
+const SCREENS: ReadonlyArray<{ name: ScreenName; label: string }> = [
+  { name: 'data', label: 'Data' },
+  { name: 'reader', label: 'Base reader' },
+  { name: 'training', label: 'Training' },
+  { name: 'checkpoints', label: 'Checkpoints' },
+  { name: 'evaluation', label: 'Evaluation' },
+  { name: 'ask', label: 'Ask' },
+  { name: 'export', label: 'Export' },
+];
+
+/** The tutorial-sized defaults: BERT's settings (src/train/config.ts) with a shorter window for a CPU. */
+const START_SETTINGS: TrainConfig = { ...DEFAULT_TRAIN_CONFIG, maxLength: 256, stride: 64, evalEvery: 0 };
+
+/** The smallest valid module using a SIMD instruction (v128 result, i8x16.splat), written from the WebAssembly spec. */
+const SIMD_PROBE = new Uint8Array([
+  0x00, 0x61, 0x73, 0x6d, 0x01, 0x00, 0x00, 0x00, // magic, version 1
+  0x01, 0x05, 0x01, 0x60, 0x00, 0x01, 0x7b, // type section: () -> v128
+  0x03, 0x02, 0x01, 0x00, // function section: one function of type 0
+  0x0a, 0x08, 0x01, 0x06, 0x00, 0x41, 0x00, 0xfd, 0x0f, 0x0b, // code: i32.const 0; i8x16.splat; end
+]);
+
+function simdSupported(): boolean {
+  try {
+    return WebAssembly.validate(SIMD_PROBE);
+  } catch {
+    return false;
+  }
+}
+
+@customElement('spanwright-app')
+export class SpanwrightApp extends LitElement {
+  static override styles = [
+    screenStyles,
+    css`
+      :host {
+        max-width: 1200px;
+        margin: 0 auto;
+        padding: 0.75rem 1rem 3rem;
+      }
+      header {
+        display: flex;
+        flex-wrap: wrap;
+        align-items: baseline;
+        gap: 1rem;
+        border-bottom: 2px solid var(--accent, #1f5f8b);
+        padding-bottom: 0.5rem;
+        margin-bottom: 0.75rem;
+      }
+      header h1 {
+        font-size: 1.4rem;
+        margin: 0;
+      }
+      .badges {
+        display: flex;
+        gap: 0.5rem;
+        font-size: 0.85rem;
+      }
+      .badge {
+        border: 1px solid var(--line, #ccc);
+        border-radius: 999px;
+        padding: 0.05rem 0.6rem;
+      }
+      .badge.on {
+        border-color: var(--good, #2d6a3e);
+        color: var(--good, #2d6a3e);
+      }
+      nav {
+        display: flex;
+        flex-wrap: wrap;
+        gap: 0.35rem;
+        margin-bottom: 1rem;
+      }
+      nav button[aria-current='page'] {
+        background: var(--accent, #1f5f8b);
+        color: var(--accent-ink, #fff);
+      }
+    `,
+  ];
+
+  /** the screen on show */
+  @state() private screen: ScreenName = 'data';
+  /** the engine worker's report once it started; null before */
+  @state() private ready: EngineReady | null = null;
+  @state() private engineError = '';
+  @state() private collection: Dataset = emptyDataset();
+  @state() private splitSettings: SplitSettings = { validationFraction: 0.15, seed: 42 };
+  @state() private baseInfo: BaseInfo | null = null;
+  @state() private baseError = '';
+  @state() private baseBusy = false;
+  @state() private settings: TrainConfig = START_SETTINGS;
+  @state() private run: RunRecord | null = null;
+  /** the fine-tuned reader the worker holds, by name; null when there is none */
+  @state() private tunedName: string | null = null;
+  @state() private evaluations: { base?: EvaluationResult; tuned?: EvaluationResult } = {};
+
+  private readonly engine = new EngineClient();
+  private readonly simd = simdSupported();
+  private lastRunSave = 0;
+  /** what the user asked of the running run, to tell a pause from a stop when it returns */
+  private haltMode: 'pause' | 'stop' | null = null;
+
+  override connectedCallback(): void {
+    super.connectedCallback();
+    this.engine.onRunEvent((runId, event) => this._onRunEvent(runId, event));
+    void this.start();
+  }
+
+  private async start(): Promise<void> {
+    try {
+      this.ready = await this.engine.call({ kind: 'init', wasmBase: new URL('tfjs-wasm/', document.baseURI).href });
+    } catch (err) {
+      this.engineError = (err as Error).message;
+      return;
+    }
+    this.collection = (await loadState('dataset')) ?? emptyDataset();
+    this.splitSettings = (await loadState('split')) ?? this.splitSettings;
+    this.settings = { ...START_SETTINGS, ...((await loadState('settings')) ?? {}) };
+    const run = await loadState('run');
+    if (run && run.status === 'running') {
+      run.status = 'interrupted';
+      await saveState('run', run);
+    }
+    this.run = run ?? null;
+    const base = await loadState('base');
+    if (base) await this.loadBase(base, false);
+    this.setAttribute('data-engine', 'ready');
+  }
+
+  private get split(): Split {
+    if (this.collection.records.length === 0) return { train: [], validation: [] };
+    return splitByPassage(this.collection.records, this.splitSettings);
+  }
+
+  private async loadBase(base: StoredBase, save: boolean): Promise<void> {
+    this.baseBusy = true;
+    this.baseError = '';
+    try {
+      // a copy goes to the worker: the stored bytes stay whole for the next reload
+      const files = { ...base.files, safetensors: base.files.safetensors.slice() };
+      this.baseInfo = await this.engine.call({ kind: 'load-base', name: base.name, files }, [files.safetensors.buffer]);
+      this.tunedName = null;
+      this.evaluations = {};
+      if (save) await saveState('base', base);
+      // a window cannot be longer than the model's position table
+      const limit = this.baseInfo.config.maxPositions;
+      if (this.settings.maxLength > limit) {
+        const maxLength = limit;
+        const stride = Math.min(this.settings.stride, Math.floor(maxLength / 4));
+        const maxQueryLength = Math.min(this.settings.maxQueryLength, Math.floor(maxLength / 3));
+        this.settings = { ...this.settings, maxLength, stride, maxQueryLength };
+        await saveState('settings', this.settings);
+      }
+    } catch (err) {
+      this.baseError = (err as Error).message;
+    } finally {
+      this.baseBusy = false;
+    }
+  }
+
+  override render() {
+    const r = this.ready;
+    const threadsOn = r !== null && r.crossOriginIsolated && r.threads > 1;
+    const isolated = typeof crossOriginIsolated === 'boolean' && crossOriginIsolated;
+    return html`
+      <header>
+        <h1>Spanwright</h1>
+        <span class="muted">adapt a question-answering reader to your documents, on this computer</span>
+        <div class="badges" aria-live="polite">
+          <span class="badge ${isolated ? 'on' : ''}" id="isolation" title="Cross-origin isolation lets WebAssembly share memory between threads">
+            ${isolated ? 'isolated' : 'not isolated'}
+          </span>
+          <span class="badge ${threadsOn ? 'on' : ''}" id="threads" title="tfjs-wasm uses at most half the logical cores">
+            threads: ${r === null ? '…' : threadsOn ? `on (${r.threads})` : isolated ? `1 (half of ${navigator.hardwareConcurrency} cores)` : 'off'}
+          </span>
+          <span class="badge ${this.simd ? 'on' : ''}" id="simd">SIMD: ${this.simd ? 'on' : 'off'}</span>
+          <span class="badge ${r?.fastKernels ? 'on' : ''}" id="engine">
+            engine: ${this.engineError ? 'failed' : r === null ? 'starting…' : `${r.backend}${r.fastKernels ? ' + fast kernels' : ''}`}
+          </span>
+        </div>
+      </header>
+      ${this.engineError ? html`<p class="note bad" role="alert">The engine did not start: ${this.engineError}</p>` : ''}
+      <nav aria-label="Screens">
+        ${SCREENS.map(
+          (s) => html`<button data-screen=${s.name} aria-current=${s.name === this.screen ? 'page' : 'false'} @click=${() => this._onNavigate(s.name)}>
+            ${s.label}
+          </button>`,
+        )}
+      </nav>
+      <main>${this.renderScreen()}</main>
+    `;
+  }
+
+  private renderScreen() {
+    const split = this.split;
+    switch (this.screen) {
+      case 'data':
+        return html`<data-screen
+          .engine=${this.engine}
+          .collection=${this.collection}
+          .splitSettings=${this.splitSettings}
+          .split=${split}
+          .baseInfo=${this.baseInfo}
+          .settings=${this.settings}
+          @dataset-change=${this._onDatasetChange}
+          @split-change=${this._onSplitChange}
+        ></data-screen>`;
+      case 'reader':
+        return html`<reader-screen
+          .engine=${this.engine}
+          .baseInfo=${this.baseInfo}
+          .baseError=${this.baseError}
+          .busy=${this.baseBusy}
+          .settings=${this.settings}
+          .split=${split}
+          @base-change=${this._onBaseChange}
+        ></reader-screen>`;
+      case 'training':
+        return html`<training-screen
+          .settings=${this.settings}
+          .run=${this.run}
+          .baseInfo=${this.baseInfo}
+          .split=${split}
+          @settings-change=${this._onSettingsChange}
+          @run-start=${this._onRunStart}
+          @run-halt=${this._onRunHalt}
+          @run-continue=${this._onRunContinue}
+        ></training-screen>`;
+      case 'checkpoints':
+        return html`<checkpoint-screen
+          .engine=${this.engine}
+          .baseInfo=${this.baseInfo}
+          .tunedName=${this.tunedName}
+          .running=${this.run?.status === 'running'}
+          @tuned-change=${this._onTunedChange}
+        ></checkpoint-screen>`;
+      case 'evaluation':
+        return html`<evaluation-screen
+          .engine=${this.engine}
+          .baseInfo=${this.baseInfo}
+          .tunedName=${this.tunedName}
+          .validation=${split.validation}
+          .settings=${this.settings}
+          .results=${this.evaluations}
+          @evaluated=${this._onEvaluated}
+        ></evaluation-screen>`;
+      case 'ask':
+        return html`<ask-screen
+          .engine=${this.engine}
+          .baseInfo=${this.baseInfo}
+          .tunedName=${this.tunedName}
+          .passages=${this.collection.passages}
+          .settings=${this.settings}
+        ></ask-screen>`;
+      case 'export':
+        return html`<export-screen
+          .engine=${this.engine}
+          .baseInfo=${this.baseInfo}
+          .tunedName=${this.tunedName}
+          .collection=${this.collection}
+          .split=${split}
+          .settings=${this.run?.config ?? this.settings}
+          .evaluations=${this.evaluations}
+        ></export-screen>`;
+    }
+  }
+
+  private _onNavigate(screen: ScreenName): void {
+    this.screen = screen;
+  }
+
+  private _onDatasetChange(e: CustomEvent<{ dataset: Dataset }>): void {
+    this.collection = e.detail.dataset;
+    void saveState('dataset', this.collection);
+  }
+
+  private _onSplitChange(e: CustomEvent<{ split: SplitSettings }>): void {
+    this.splitSettings = e.detail.split;
+    void saveState('split', this.splitSettings);
+  }
+
+  private _onBaseChange(e: CustomEvent<{ base: StoredBase }>): void {
+    void this.loadBase(e.detail.base, true);
+  }
+
+  private _onSettingsChange(e: CustomEvent<{ settings: TrainConfig }>): void {
+    this.settings = e.detail.settings;
+    void saveState('settings', this.settings);
+  }
+
+  private _onTunedChange(e: CustomEvent<{ name: string }>): void {
+    this.tunedName = e.detail.name;
+    this.evaluations = { base: this.evaluations.base };
+  }
+
+  private _onEvaluated(e: CustomEvent<{ result: EvaluationResult }>): void {
+    this.evaluations = { ...this.evaluations, [e.detail.result.model]: e.detail.result };
+  }
+
+  // --- the training run -----------------------------------------------------
+
+  private async _onRunStart(): Promise<void> {
+    const split = this.split;
+    if (!this.baseInfo) return;
+    const run: RunRecord = {
+      runId: `run-${Date.now().toString(36)}`,
+      status: 'running',
+      config: { ...this.settings },
+      datasetHash: await hashDataset(split.train),
+      baseName: this.baseInfo.name,
+      startedAt: new Date().toISOString(),
+      update: 0,
+      totalUpdates: 0,
+      etaMs: 0,
+      lastCheckpoint: null,
+      series: emptySeries(),
+    };
+    await this.train(run, undefined);
+  }
+
+  private async _onRunContinue(): Promise<void> {
+    const run = this.run;
+    if (!run || !run.lastCheckpoint) return;
+    const hash = await hashDataset(this.split.train);
+    if (hash !== run.datasetHash) {
+      this.run = { ...run, status: run.status, error: 'the training questions changed since this run started, so it cannot continue; start a new run' };
+      return;
+    }
+    // the updates after the checkpoint will be taken again
+    const step = run.lastCheckpoint.step;
+    const s = run.series;
+    const keep = (xs: number[], at: number[]) => xs.filter((_, i) => at[i]! <= step);
+    const series = {
+      update: keep(s.update, s.update),
+      loss: keep(s.loss, s.update),
+      lr: keep(s.lr, s.update),
+      tokensPerSecond: keep(s.tokensPerSecond, s.update),
+      evalUpdate: keep(s.evalUpdate, s.evalUpdate),
+      em: keep(s.em, s.evalUpdate),
+      f1: keep(s.f1, s.evalUpdate),
+    };
+    await this.train({ ...run, status: 'running', update: step, series, error: undefined }, run.lastCheckpoint.id);
+  }
+
+  private async train(run: RunRecord, resumeFrom: string | undefined): Promise<void> {
+    this.run = run;
+    this.haltMode = null;
+    await saveState('run', run);
+    const split = this.split;
+    try {
+      const ended = await this.engine.call({
+        kind: 'train',
+        runId: run.runId,
+        train: split.train,
+        validation: split.validation,
+        config: run.config,
+        datasetHash: run.datasetHash,
+        resumeFrom,
+      });
+      await this.noteCheckpoint();
+      const status = ended.status === 'finished' ? 'finished' : this.haltMode === 'stop' ? 'stopped' : 'paused';
+      this.run = { ...this.run!, status, update: ended.update, etaMs: 0 };
+      this.tunedName = `run ${run.runId} at update ${ended.update}`;
+      this.evaluations = { base: this.evaluations.base };
+    } catch (err) {
+      this.run = { ...this.run!, status: 'failed', error: (err as Error).message };
+    }
+    await saveState('run', this.run!);
+  }
+
+  private _onRunHalt(e: CustomEvent<{ mode: 'pause' | 'stop' }>): void {
+    if (!this.run) return;
+    this.haltMode = e.detail.mode;
+    void this.engine.call({ kind: 'halt', runId: this.run.runId });
+  }
+
+  private _onRunEvent(runId: string, event: LoopEvent): void {
+    const run = this.run;
+    if (!run || run.runId !== runId) return;
+    const s = run.series;
+    if (event.type === 'start') {
+      this.run = { ...run, totalUpdates: event.plan.totalUpdates };
+    } else if (event.type === 'progress') {
+      const series = {
+        ...s,
+        update: [...s.update, event.update],
+        loss: [...s.loss, event.loss],
+        lr: [...s.lr, event.lr],
+        tokensPerSecond: [...s.tokensPerSecond, event.tokensPerSecond],
+      };
+      this.run = { ...run, update: event.update, totalUpdates: event.totalUpdates, etaMs: event.etaMs, series };
+      // the chart history survives a reload; written about once a second
+      if (performance.now() - this.lastRunSave > 1000) {
+        this.lastRunSave = performance.now();
+        void saveState('run', this.run);
+      }
+    } else if (event.type === 'evaluated') {
+      const series = {
+        ...s,
+        evalUpdate: [...s.evalUpdate, event.update],
+        em: [...s.em, event.metrics.validationEM ?? 0],
+        f1: [...s.f1, event.metrics.validationF1 ?? 0],
+      };
+      this.run = { ...run, series };
+    } else if (event.type === 'checkpoint') {
+      void this.noteCheckpoint();
+    }
+  }
+
+  /** Finds the newest checkpoint of the current run and records it as the place to continue from. */
+  private async noteCheckpoint(): Promise<void> {
+    const run = this.run;
+    if (!run) return;
+    const { checkpoints } = await this.engine.call({ kind: 'list-checkpoints' });
+    const mine = checkpoints.filter((c) => c.meta.datasetHash === run.datasetHash && (c.meta.savedAt ?? '') >= run.startedAt);
+    const newest = mine.reduce<(typeof mine)[number] | null>((a, c) => (a === null || c.meta.step >= a.meta.step ? c : a), null);
+    if (!newest || !this.run || this.run.runId !== run.runId) return;
+    this.run = { ...this.run, lastCheckpoint: { id: newest.id, step: newest.meta.step } };
+    await saveState('run', this.run);
+  }
+}
+
+declare global {
+  interface HTMLElementTagNameMap {
+    'spanwright-app': SpanwrightApp;
+  }
+}

@@ -1,0 +1,205 @@
+// <training-screen> — the fine-tuning run: the settings form (each with its default and
+// one line on what it does), start / pause / resume / stop, live charts of training loss,
+// validation EM and F1, learning rate and tokens per second, progress and ETA. A run the
+// page lost mid-way (reload, crash) shows as interrupted with "continue from update N".
+// The run itself belongs to the shell; this element only renders it and asks.
+// Events out: settings-change {settings}, run-start, run-halt {mode}, run-continue.
+import { LitElement, css, html } from 'lit';
+import { customElement, property, state } from 'lit/decorators.js';
+import type { Split } from '../src/data/split.js';
+import { DEFAULT_TRAIN_CONFIG, checkTrainConfig, type TrainConfig } from '../src/train/config.js';
+import type { BaseInfo } from '../workers/protocol.js';
+import { formatDuration } from './reader-screen.js';
+import { screenStyles } from './shared-styles.js';
+import type { RunRecord } from './workbench-db.js';
+import './metric-chart.js';
+
+type NumericField = Exclude<{ [K in keyof TrainConfig]: TrainConfig[K] extends number ? K : never }[keyof TrainConfig], undefined>;
+
+/** The form's fields, in order, each with a one-line explanation. */
+const FIELDS: ReadonlyArray<{ key: NumericField; label: string; step: string; help: string }> = [
+  { key: 'learningRate', label: 'Learning rate', step: 'any', help: 'Peak step size of AdamW after warmup; smaller is steadier, larger learns faster.' },
+  { key: 'batchSize', label: 'Batch', step: '1', help: 'Windows per forward/backward pass; memory grows with it.' },
+  { key: 'gradAccumulation', label: 'Accumulation', step: '1', help: 'Passes averaged into one update: the update sees batch × this many windows.' },
+  { key: 'epochs', label: 'Epochs', step: '1', help: 'Passes over the training windows.' },
+  { key: 'maxLength', label: 'Max length', step: '1', help: 'Tokens per window, question and special tokens included; longer passages get several windows.' },
+  { key: 'stride', label: 'Stride', step: '1', help: 'Passage tokens shared by two neighbouring windows of one long passage.' },
+  { key: 'maxQueryLength', label: 'Max question length', step: '1', help: 'Question tokens kept; longer questions are cut.' },
+  { key: 'warmupRatio', label: 'Warmup', step: 'any', help: 'Share of updates over which the learning rate rises from 0 before it decays linearly.' },
+  { key: 'weightDecay', label: 'Weight decay', step: 'any', help: 'AdamW’s decoupled shrinkage of weights (none on biases and LayerNorm).' },
+  { key: 'maxGradNorm', label: 'Clipping', step: 'any', help: 'Largest global gradient norm before it is scaled down; 0 turns clipping off.' },
+  { key: 'seed', label: 'Seed', step: '1', help: 'Fixes initialisation, data order and dropout: the same seed repeats a run.' },
+  { key: 'evalEvery', label: 'Evaluation interval', step: '1', help: 'Score validation (and save a checkpoint) every this many updates; 0 = once per epoch.' },
+];
+
+@customElement('training-screen')
+export class TrainingScreen extends LitElement {
+  static override styles = [
+    screenStyles,
+    css`
+      form {
+        display: grid;
+        grid-template-columns: repeat(auto-fill, minmax(270px, 1fr));
+        gap: 0.6rem 1rem;
+      }
+      form label {
+        display: flex;
+        flex-direction: column;
+        font-weight: 600;
+      }
+      form small {
+        font-weight: 400;
+        color: var(--muted, #666);
+      }
+      .charts {
+        display: grid;
+        grid-template-columns: repeat(auto-fill, minmax(360px, 1fr));
+        gap: 0.75rem;
+      }
+      progress {
+        width: 100%;
+      }
+    `,
+  ];
+
+  @property({ attribute: false }) settings: TrainConfig = DEFAULT_TRAIN_CONFIG;
+  /** the current or last run, from the shell */
+  @property({ attribute: false }) run: RunRecord | null = null;
+  @property({ attribute: false }) baseInfo: BaseInfo | null = null;
+  @property({ attribute: false }) split: Split = { train: [], validation: [] };
+
+  @state() private formError = '';
+
+  override render() {
+    const run = this.run;
+    const running = run?.status === 'running';
+    const canStart = !running && this.baseInfo !== null && this.split.train.length > 0;
+    return html`
+      <h2>Training</h2>
+      <section>
+        <h3>Settings</h3>
+        <form @change=${this._onFormChange} @submit=${(e: Event) => e.preventDefault()}>
+          ${FIELDS.map(
+            (f) => html`<label>
+              ${f.label}
+              <input name=${f.key} type="number" step=${f.step} .value=${String(this.settings[f.key])} ?disabled=${running} />
+              <small>${f.help} Default ${DEFAULT_TRAIN_CONFIG[f.key]}.</small>
+            </label>`,
+          )}
+        </form>
+        ${this.formError ? html`<p class="note bad" role="alert" id="settings-error">${this.formError}</p>` : ''}
+        ${this.baseInfo && this.settings.maxLength > this.baseInfo.config.maxPositions
+          ? html`<p class="note bad">Max length ${this.settings.maxLength} is longer than the reader's ${this.baseInfo.config.maxPositions} positions.</p>`
+          : ''}
+      </section>
+
+      <section>
+        <h3>Run</h3>
+        ${this.renderNotices()}
+        <div class="row">
+          <button id="start-run" class="primary" @click=${this._onStart} ?disabled=${!canStart}>Start a new run</button>
+          <button id="pause-run" @click=${() => this._onHalt('pause')} ?disabled=${!running}>Pause</button>
+          <button id="stop-run" @click=${() => this._onHalt('stop')} ?disabled=${!running}>Stop</button>
+          ${run && run.status === 'paused' && run.lastCheckpoint
+            ? html`<button id="resume-run" class="primary" @click=${this._onContinue}>Resume from update ${run.lastCheckpoint.step}</button>`
+            : ''}
+        </div>
+        ${run ? this.renderProgress(run) : ''}
+      </section>
+      ${run ? this.renderCharts(run) : ''}
+    `;
+  }
+
+  private renderNotices() {
+    const run = this.run;
+    const notes = [];
+    if (!this.baseInfo) notes.push(html`<p class="note warn">Choose a base reader first (Base reader screen).</p>`);
+    if (this.split.train.length === 0) notes.push(html`<p class="note warn">There are no training questions yet (Data screen).</p>`);
+    if (this.split.validation.length === 0 && this.split.train.length > 0) {
+      notes.push(html`<p class="note warn">No validation questions: the run will not be scored and checkpoints are kept by interval only.</p>`);
+    }
+    if (run?.status === 'interrupted') {
+      notes.push(
+        run.lastCheckpoint
+          ? html`<div class="note warn" id="interrupted" role="status">
+              The run ${run.runId} was interrupted at update ${run.update} (the page was closed or reloaded while it trained).
+              <button id="continue-run" class="primary" @click=${this._onContinue}>Continue from update ${run.lastCheckpoint.step}</button>
+            </div>`
+          : html`<p class="note warn" id="interrupted">The run ${run.runId} was interrupted before its first checkpoint; start it again.</p>`,
+      );
+    }
+    if (run?.error) notes.push(html`<p class="note bad" role="alert" id="run-error">${run.error}</p>`);
+    return notes;
+  }
+
+  private renderProgress(run: RunRecord) {
+    const s = run.series;
+    const lastLoss = s.loss.at(-1);
+    return html`<div id="run-status" data-status=${run.status} data-update=${run.update}>
+      <p>
+        <strong>${run.status}</strong> — update <span id="run-update">${run.update}</span> of ${run.totalUpdates || '…'}
+        ${lastLoss !== undefined ? html`· loss ${lastLoss.toFixed(4)}` : ''}
+        ${s.f1.length ? html`· validation F1 ${s.f1.at(-1)!.toFixed(2)}` : ''}
+        ${run.status === 'running' ? html`· ETA <span id="eta">${formatDuration(run.etaMs)}</span>` : ''}
+        ${run.lastCheckpoint ? html`· last checkpoint at update ${run.lastCheckpoint.step}` : ''}
+      </p>
+      <progress max=${Math.max(1, run.totalUpdates)} .value=${run.update}></progress>
+    </div>`;
+  }
+
+  private renderCharts(run: RunRecord) {
+    const s = run.series;
+    return html`<section>
+      <h3>Charts</h3>
+      <div class="charts">
+        <metric-chart id="chart-loss" heading="Training loss" .x=${s.update} .series=${[{ label: 'loss', values: s.loss, stroke: '#1f5f8b' }]}></metric-chart>
+        <metric-chart
+          id="chart-eval"
+          heading="Validation EM and F1"
+          .x=${s.evalUpdate}
+          .series=${[
+            { label: 'EM', values: s.em, stroke: '#8a5a00' },
+            { label: 'F1', values: s.f1, stroke: '#2d6a3e' },
+          ]}
+        ></metric-chart>
+        <metric-chart id="chart-lr" heading="Learning rate" scientific .x=${s.update} .series=${[{ label: 'lr', values: s.lr, stroke: '#6b3fa0' }]}></metric-chart>
+        <metric-chart id="chart-speed" heading="Tokens per second" .x=${s.update} .series=${[{ label: 'tokens/s', values: s.tokensPerSecond, stroke: '#a3262a' }]}></metric-chart>
+      </div>
+    </section>`;
+  }
+
+  private _onFormChange(e: Event): void {
+    const form = e.currentTarget as HTMLFormElement;
+    const next: TrainConfig = { ...this.settings };
+    for (const f of FIELDS) {
+      const input = form.elements.namedItem(f.key) as HTMLInputElement;
+      (next as unknown as Record<string, number>)[f.key] = Number(input.value);
+    }
+    try {
+      checkTrainConfig(next);
+    } catch (err) {
+      this.formError = (err as Error).message;
+      return;
+    }
+    this.formError = '';
+    this.dispatchEvent(new CustomEvent('settings-change', { detail: { settings: next }, bubbles: true, composed: true }));
+  }
+
+  private _onStart(): void {
+    this.dispatchEvent(new CustomEvent('run-start', { bubbles: true, composed: true }));
+  }
+
+  private _onHalt(mode: 'pause' | 'stop'): void {
+    this.dispatchEvent(new CustomEvent('run-halt', { detail: { mode }, bubbles: true, composed: true }));
+  }
+
+  private _onContinue(): void {
+    this.dispatchEvent(new CustomEvent('run-continue', { bubbles: true, composed: true }));
+  }
+}
+
+declare global {
+  interface HTMLElementTagNameMap {
+    'training-screen': TrainingScreen;
+  }
+}

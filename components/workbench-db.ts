@@ -1,0 +1,117 @@
+// defines: the page's own IndexedDB database ("spanwright-workbench", via idb) and the
+// plain-data shapes it keeps: the dataset and its passages, the split, the base reader's
+// files, the training settings and the state of the last training run. Checkpoints live
+// in the worker's database (src/io/idb-store.ts), not here.
+//
+// One object store `kv`, keyed by the names in WorkbenchState; each value is written
+// whole, so a save is one transaction and a reload finds either the old or the new value.
+import { openDB, type DBSchema, type IDBPDatabase } from 'idb';
+import type { QARecord } from '../src/data/record.js';
+import type { TrainConfig } from '../src/train/config.js';
+import type { ModelFiles } from '../workers/protocol.js';
+
+export interface Passage {
+  id: string;
+  text: string;
+  title?: string;
+}
+
+export interface Dataset {
+  records: QARecord[];
+  /** every passage: those the records use and plain ones added for labelling */
+  passages: Passage[];
+  /** file names imported, in order */
+  sources: string[];
+}
+
+export interface SplitSettings {
+  /** share of questions held out for validation, by whole passages */
+  validationFraction: number;
+  seed: number;
+}
+
+export interface StoredBase {
+  name: string;
+  files: ModelFiles;
+}
+
+/**
+ * Where a training run stands, as the page saw it:
+ *   running      the worker is training it now
+ *   paused       halted on request with a checkpoint; "resume" continues it
+ *   stopped      halted on request and closed; its checkpoints stay
+ *   finished     every planned update was taken
+ *   interrupted  the page was reloaded or crashed while it ran; continue from its last checkpoint
+ *   failed       the worker reported an error (in `error`)
+ */
+export type RunStatus = 'running' | 'paused' | 'stopped' | 'finished' | 'interrupted' | 'failed';
+
+/** Chart series: parallel arrays, one entry per update or evaluation. */
+export interface RunSeries {
+  update: number[];
+  loss: number[];
+  lr: number[];
+  tokensPerSecond: number[];
+  evalUpdate: number[];
+  em: number[];
+  f1: number[];
+}
+
+export interface RunRecord {
+  runId: string;
+  status: RunStatus;
+  config: TrainConfig;
+  datasetHash: string;
+  baseName: string;
+  /** ISO time the run first started */
+  startedAt: string;
+  update: number;
+  totalUpdates: number;
+  etaMs: number;
+  lastCheckpoint: { id: string; step: number } | null;
+  series: RunSeries;
+  error?: string;
+}
+
+export interface WorkbenchState {
+  dataset: Dataset;
+  split: SplitSettings;
+  base: StoredBase;
+  settings: TrainConfig;
+  run: RunRecord;
+}
+
+interface WorkbenchDb extends DBSchema {
+  kv: { key: string; value: unknown };
+}
+
+let db: Promise<IDBPDatabase<WorkbenchDb>> | null = null;
+
+function open(): Promise<IDBPDatabase<WorkbenchDb>> {
+  db ??= openDB<WorkbenchDb>('spanwright-workbench', 1, {
+    upgrade(d) {
+      if (!d.objectStoreNames.contains('kv')) d.createObjectStore('kv');
+    },
+  });
+  return db;
+}
+
+export async function loadState<K extends keyof WorkbenchState>(key: K): Promise<WorkbenchState[K] | undefined> {
+  return (await (await open()).get('kv', key)) as WorkbenchState[K] | undefined;
+}
+
+export async function saveState<K extends keyof WorkbenchState>(key: K, value: WorkbenchState[K]): Promise<void> {
+  await (await open()).put('kv', value, key);
+}
+
+export async function clearState(key: keyof WorkbenchState): Promise<void> {
+  await (await open()).delete('kv', key);
+}
+
+export function emptySeries(): RunSeries {
+  return { update: [], loss: [], lr: [], tokensPerSecond: [], evalUpdate: [], em: [], f1: [] };
+}
+
+export function emptyDataset(): Dataset {
+  return { records: [], passages: [], sources: [] };
+}

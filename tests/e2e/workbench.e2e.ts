@@ -1,0 +1,278 @@
+// The browser workbench end to end, in Debian's Chromium (playwright-core), on a fresh
+// profile: import the demo data, label a passage holding markup, load a checkpoint
+// folder, train a few updates and watch the charts, reload mid-run and continue from the
+// last checkpoint, pause, evaluate, ask, export and parse the downloaded safetensors,
+// then open the app again offline.
+//
+// Across the whole session it fails on any request to another origin, on console
+// errors and uncaught page errors, and on a main-thread long task over 200 ms while a
+// run trains (PerformanceObserver 'longtask'; 200 ms is this project's budget, the
+// browser reports tasks over 50 ms). Screenshots of each screen go to
+// tests/e2e/artifacts/ (git-ignored); with SPANWRIGHT_SCREENSHOTS=1 a few also go to
+// tests/e2e/screenshots/ for the README.
+//
+// The reader is the 2-layer, hidden-32 checkpoint of tests/reference/fixtures/checkpoint
+// (written by the PyTorch fixture generator): small enough that a few updates take
+// seconds. Its 64-token vocabulary makes it a poor reader, and nothing here checks
+// accuracy — only that every stage runs and hands real data to the next.
+import { mkdirSync, readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import type { Page } from 'playwright-core';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { CAUTION } from '../../src/io/model-card.js';
+import { readSafetensors } from '../../src/io/safetensors.js';
+import { buildWorkbench, startServer, type RunningServer } from '../../src/cli/serve.js';
+import { openBrowser, type OpenBrowser } from './browser.js';
+
+const ROOT = fileURLToPath(new URL('../../', import.meta.url));
+const ARTIFACTS = join(ROOT, 'tests/e2e/artifacts');
+const SCREENSHOTS = join(ROOT, 'tests/e2e/screenshots');
+const FIXTURE = join(ROOT, 'tests/reference/fixtures/checkpoint');
+const DEMO = join(ROOT, 'tiny-models/demo');
+/** this project's budget for one main-thread task while training */
+const LONG_TASK_MS = 200;
+
+let server: RunningServer;
+let browser: OpenBrowser;
+let page: Page;
+const requests: string[] = [];
+const consoleErrors: string[] = [];
+const longTasks: Array<{ start: number; duration: number }> = [];
+/** [from, to] in the current page's performance.now() clock while a run trains */
+let trainingSince: number | null = null;
+
+async function now(): Promise<number> {
+  return page.evaluate(() => performance.now());
+}
+
+/** Long tasks of the current page load inside the training window that just closed. */
+async function collectLongTasks(from: number, to: number): Promise<void> {
+  const tasks = await page.evaluate(() => (window as unknown as { __longTasks: Array<{ start: number; duration: number }> }).__longTasks);
+  longTasks.push(...tasks.filter((t) => t.start + t.duration >= from && t.start <= to));
+}
+
+async function screen(name: string): Promise<void> {
+  await page.locator(`nav button[data-screen="${name}"]`).click();
+  await page.locator(`nav button[data-screen="${name}"][aria-current="page"]`).waitFor();
+}
+
+async function shot(name: string, forReadme = false): Promise<void> {
+  await page.screenshot({ path: join(ARTIFACTS, `${name}.png`), fullPage: true });
+  if (forReadme && process.env.SPANWRIGHT_SCREENSHOTS === '1') await page.screenshot({ path: join(SCREENSHOTS, `${name}.png`) });
+}
+
+async function setField(name: string, value: number): Promise<void> {
+  const input = page.locator(`training-screen input[name="${name}"]`);
+  await input.fill(String(value));
+  await input.dispatchEvent('change');
+}
+
+async function chartPoints(id: string): Promise<number> {
+  return Number((await page.locator(`#${id}`).getAttribute('data-points')) ?? '0');
+}
+
+async function waitForEngine(): Promise<void> {
+  await page.locator('spanwright-app[data-engine="ready"]').waitFor({ timeout: 60_000 });
+}
+
+beforeAll(async () => {
+  mkdirSync(ARTIFACTS, { recursive: true });
+  mkdirSync(SCREENSHOTS, { recursive: true });
+  if (process.env.SPANWRIGHT_E2E_NO_BUILD !== '1') await buildWorkbench();
+  server = await startServer({ port: 0 });
+  browser = await openBrowser();
+  browser.context.on('request', (r) => requests.push(r.url()));
+  await browser.context.addInitScript(() => {
+    const w = window as unknown as { __longTasks: Array<{ start: number; duration: number }> };
+    w.__longTasks = [];
+    new PerformanceObserver((list) => {
+      for (const e of list.getEntries()) w.__longTasks.push({ start: e.startTime, duration: e.duration });
+    }).observe({ type: 'longtask', buffered: true });
+  });
+  page = browser.context.pages()[0] ?? (await browser.context.newPage());
+  page.on('console', (m) => {
+    if (m.type() === 'error') consoleErrors.push(m.text());
+  });
+  page.on('pageerror', (e) => consoleErrors.push(`uncaught: ${e.message}`));
+});
+
+afterAll(async () => {
+  await browser?.close();
+  await server?.close();
+});
+
+describe('the browser workbench', () => {
+  it('starts cross-origin isolated with SIMD, its engine in a worker', async () => {
+    await page.goto(server.url);
+    await waitForEngine();
+    expect(await page.evaluate(() => crossOriginIsolated)).toBe(true);
+    await expect(page.locator('#isolation').textContent()).resolves.toContain('isolated');
+    await expect(page.locator('#simd').textContent()).resolves.toContain('on');
+    await expect(page.locator('#engine').textContent()).resolves.toContain('wasm + fast kernels');
+    // the offline cache takes control for the later offline check
+    await page.evaluate(() => navigator.serviceWorker.ready.then(() => undefined));
+  });
+
+  it('imports the demo questions with a clean validation report', async () => {
+    await page.locator('#import-files').setInputFiles(join(DEMO, 'validation.jsonl'));
+    const report = page.locator('.import-report[data-file="validation.jsonl"]');
+    await report.waitFor();
+    const lines = readFileSync(join(DEMO, 'validation.jsonl'), 'utf8').split('\n').filter((l) => l.trim() !== '').length;
+    await expect(report.textContent()).resolves.toMatch(new RegExp(`${lines} question\\(s\\) added,\\s+0 error\\(s\\)`));
+    await expect(page.locator('#stat-questions').textContent()).resolves.toBe(String(lines));
+    await shot('data', true);
+  });
+
+  it('shows markup inside a passage as text and never runs it', async () => {
+    const markup = '<script>window.__injected = 1</script><img src="x" onerror="window.__injected = 2"> The night boat sails at 23:40.';
+    await page.locator('summary', { hasText: 'Add a passage' }).click();
+    await page.locator('#new-title').fill('markup test');
+    await page.locator('#new-text').fill(markup);
+    await page.locator('#add-passage').click();
+    const box = page.locator('#passage-text');
+    await expect(box.inputValue()).resolves.toBe(markup);
+    // label it: select "<script>" by offsets, as Shift+arrows would
+    await box.evaluate((el: HTMLTextAreaElement) => el.setSelectionRange(0, '<script>'.length));
+    await page.locator('#use-selection').click();
+    await page.locator('#question-input').fill('Which tag opens the note?');
+    await page.locator('#save-question').click();
+    const item = page.locator('ul.questions li', { hasText: 'Which tag opens the note?' });
+    await item.waitFor();
+    await expect(item.locator('.answer').textContent()).resolves.toBe('<script>');
+    const found = await page.evaluate(() => {
+      const all: Element[] = [];
+      const walk = (root: Document | ShadowRoot) => {
+        for (const el of root.querySelectorAll('*')) {
+          all.push(el);
+          if (el.shadowRoot) walk(el.shadowRoot);
+        }
+      };
+      walk(document);
+      return {
+        injected: (window as unknown as { __injected?: number }).__injected ?? null,
+        scripts: all.filter((e) => e.tagName === 'SCRIPT' && e.textContent?.includes('__injected')).length,
+        images: all.filter((e) => e.tagName === 'IMG').length,
+      };
+    });
+    expect(found).toEqual({ injected: null, scripts: 0, images: 0 });
+  });
+
+  it('loads a checkpoint folder as the base reader', async () => {
+    await screen('reader');
+    await page.locator('#model-files').setInputFiles(['config.json', 'model.safetensors', 'vocab.txt'].map((f) => join(FIXTURE, f)));
+    await page.locator('#param-count').waitFor();
+    const config = JSON.parse(readFileSync(join(FIXTURE, 'config.json'), 'utf8')) as { hidden_size: number; num_hidden_layers: number };
+    await expect(page.locator('#base-info').textContent()).resolves.toContain(`${config.num_hidden_layers} layers, hidden ${config.hidden_size}`);
+    await shot('base-reader', true);
+  });
+
+  it('trains, survives a reload mid-run, continues from the checkpoint and pauses', async () => {
+    await screen('training');
+    for (const [name, value] of [['maxLength', 32], ['stride', 4], ['maxQueryLength', 12], ['batchSize', 4], ['gradAccumulation', 1], ['epochs', 1], ['evalEvery', 3]] as const) {
+      await setField(name, value);
+    }
+    await expect(page.locator('#settings-error').count()).resolves.toBe(0);
+    await page.locator('#start-run').click();
+    trainingSince = await now();
+    await page.waitForFunction(() => Number(document.querySelector('spanwright-app')?.shadowRoot?.querySelector('training-screen')?.shadowRoot?.querySelector('#chart-loss')?.getAttribute('data-points') ?? 0) >= 4, null, { timeout: 120_000 });
+    await page.locator('#run-status', { hasText: 'last checkpoint at update' }).waitFor({ timeout: 120_000 });
+    expect(await chartPoints('chart-lr')).toBeGreaterThanOrEqual(4);
+    expect(await chartPoints('chart-speed')).toBeGreaterThanOrEqual(4);
+    await shot('training', true);
+    await collectLongTasks(trainingSince, await now());
+
+    // a reload kills the worker mid-run: the run must come back as interrupted
+    await page.reload();
+    await waitForEngine();
+    await screen('training');
+    const resume = page.locator('#continue-run');
+    await resume.waitFor();
+    const label = (await resume.textContent()) ?? '';
+    const step = Number(/update (\d+)/.exec(label)?.[1]);
+    expect(step).toBeGreaterThan(0);
+    await shot('training-interrupted');
+    await resume.click();
+    trainingSince = await now();
+    await page.locator(`#run-status[data-status="running"]`).waitFor();
+    await page.waitForFunction(
+      (s) => Number(document.querySelector('spanwright-app')?.shadowRoot?.querySelector('training-screen')?.shadowRoot?.querySelector('#run-status')?.getAttribute('data-update') ?? 0) >= s + 3,
+      step,
+      { timeout: 120_000 },
+    );
+    await page.locator('#pause-run').click();
+    await page.locator('#run-status[data-status="paused"]').waitFor({ timeout: 120_000 });
+    await collectLongTasks(trainingSince, await now());
+    await expect(page.locator('#resume-run').textContent()).resolves.toMatch(/Resume from update \d+/);
+  });
+
+  it('lists the checkpoints with their scores and storage', async () => {
+    await screen('checkpoints');
+    await page.locator('#checkpoint-table tbody tr').first().waitFor();
+    expect(await page.locator('#checkpoint-table tbody tr').count()).toBeGreaterThan(0);
+    await expect(page.locator('#storage').textContent()).resolves.toMatch(/Checkpoints take\s+[\d.]+ MB/);
+    await shot('checkpoints');
+  });
+
+  it('evaluates base and fine-tuned readers side by side', async () => {
+    await screen('evaluation');
+    await page.locator('#evaluate').click();
+    await page.locator('#question-table tbody tr').first().waitFor({ timeout: 120_000 });
+    const summary = (await page.locator('#eval-summary').textContent()) ?? '';
+    expect(summary).toContain('F1, answerable');
+    await page.locator('#misses-only').check();
+    const outcomes = await page.locator('#question-table tbody tr').evaluateAll((rows) => rows.map((r) => r.getAttribute('data-outcome')));
+    expect(outcomes.every((o) => o !== 'correct')).toBe(true);
+    await page.locator('#question-table tbody tr summary').first().click();
+    await shot('evaluation', true);
+  });
+
+  it('answers a question over all passages, with the caution on screen', async () => {
+    await screen('ask');
+    await expect(page.locator('#caution').textContent()).resolves.toContain(CAUTION);
+    await page.locator('#ask-question').fill('When does the night boat sail?');
+    await page.locator('#ask-button').click();
+    await page.locator('#answers').waitFor({ timeout: 60_000 });
+    expect(await page.locator('#answers ol.answers li').count()).toBeGreaterThan(0);
+    await shot('ask', true);
+  });
+
+  it('exports the fine-tuned model and the download parses as safetensors', async () => {
+    await screen('export');
+    await page.locator('#export-fp32').click();
+    const link = page.locator('a[data-file="model.safetensors"]');
+    await link.waitFor({ timeout: 60_000 });
+    const [download] = await Promise.all([page.waitForEvent('download'), link.click()]);
+    const bytes = new Uint8Array(readFileSync(await download.path()));
+    const exported = readSafetensors(bytes, 'downloaded model.safetensors').tensors;
+    const base = readSafetensors(new Uint8Array(readFileSync(join(FIXTURE, 'model.safetensors'))), 'fixture').tensors;
+    const head = exported.get('qa_outputs.weight');
+    expect(head?.shape).toEqual(base.get('qa_outputs.weight')?.shape);
+    // training moved the span head away from the base weights
+    const before = base.get('qa_outputs.weight')!.data;
+    expect(head!.data.some((v, i) => v !== before[i])).toBe(true);
+    // int8 weights (with their measured logit drift in the card) are built in the worker too
+    await page.locator('#export-int8').click();
+    for (const name of ['model.int8.safetensors', 'MODEL_CARD.md']) {
+      await page.locator(`a[data-file="${name}"]`).waitFor({ timeout: 60_000 });
+    }
+    await page.locator('#data-jsonl').click();
+    await page.locator('a[data-file="dataset.jsonl"]').waitFor();
+    await shot('export');
+  });
+
+  it('opens offline from its cache', async () => {
+    await browser.context.setOffline(true);
+    await page.reload();
+    await waitForEngine();
+    await browser.context.setOffline(false);
+  });
+
+  it('made no request to another origin, logged no error, and kept the page responsive while training', () => {
+    const origin = new URL(server.url).origin;
+    const foreign = requests.filter((u) => !u.startsWith('blob:') && !u.startsWith('data:') && new URL(u).origin !== origin);
+    expect(foreign).toEqual([]);
+    expect(consoleErrors).toEqual([]);
+    expect(longTasks.filter((t) => t.duration > LONG_TASK_MS)).toEqual([]);
+  });
+});
