@@ -4,7 +4,9 @@
 //                 implies for 2 epochs over ~450 windows (≈ 300 questions)
 //   pretraining   MaskedLmTrainer.step (head on masked positions only) on 32 rows of 128
 //   dense MLM     Trainer.mlmStep (every position decoded), for the first size only, as
-//                 the reference the sparse head is measured against in the same run
+//                 the reference the sparse head is measured against in the same run; on
+//                 16 rows, since 32 × 128 × V float32 logits and their gradients have
+//                 aborted the wasm heap here
 //
 //   npx tsx tiny-models/recipe/measure-sizes.ts [--vocab N] [--steps N] [--json FILE]
 //
@@ -108,8 +110,8 @@ export async function measureSizes(vocab: number, steps: number, log: (line: str
     // the dense reference, once
     let denseMlmTokensPerS: number | null = null;
     if (i === 0) {
-      const denseMs = timeSteps(Math.max(1, Math.floor(steps / 2)), () => void trainer.mlmStep([mlmBatchOf(32, 128, vocab, seed++)], 1e-5));
-      denseMlmTokensPerS = (32 * 128 * 1000) / denseMs;
+      const denseMs = timeSteps(Math.max(1, Math.floor(steps / 2)), () => void trainer.mlmStep([mlmBatchOf(16, 128, vocab, seed++)], 1e-5));
+      denseMlmTokensPerS = (16 * 128 * 1000) / denseMs;
     }
     trainer.dispose();
     mlm.dispose();
@@ -126,7 +128,7 @@ export async function measureSizes(vocab: number, steps: number, log: (line: str
     log(
       `${m.name}: ${(m.params / 1e6).toFixed(2)} M params; fine-tune 8×384 ${m.finetuneTokensPerS.toFixed(0)} tok/s ` +
         `(≈ ${m.finetuneMinutes.toFixed(1)} min for 2 epochs × 450 windows); pretrain 32×128 ${m.pretrainTokensPerS.toFixed(0)} tok/s` +
-        (m.denseMlmTokensPerS === null ? '' : `; dense-head MLM ${m.denseMlmTokensPerS.toFixed(0)} tok/s (sparse/dense ${(m.pretrainTokensPerS / m.denseMlmTokensPerS).toFixed(2)}×)`) +
+        (m.denseMlmTokensPerS === null ? '' : `; dense-head MLM 16×128 ${m.denseMlmTokensPerS.toFixed(0)} tok/s (sparse/dense ${(m.pretrainTokensPerS / m.denseMlmTokensPerS).toFixed(2)}×)`) +
         `; tensors live ${tf.memory().numTensors}`,
     );
     out.push(m);

