@@ -1,7 +1,8 @@
 // The browser workbench end to end, in Debian's Chromium (playwright-core), on a fresh
 // profile: import the demo data, label a passage holding markup, load a checkpoint
 // folder, train a few updates and watch the charts, reload mid-run and continue from the
-// last checkpoint, pause, evaluate, ask, export and parse the downloaded safetensors,
+// last checkpoint, pause, evaluate, ask, export and parse the downloaded safetensors
+// (and run the downloaded model.onnx in onnxruntime-node against the engine),
 // then open the app again offline.
 //
 // Across the whole session it fails on any request to another origin, on console
@@ -18,9 +19,14 @@
 import { mkdirSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import * as tf from '@tensorflow/tfjs';
+import * as ort from 'onnxruntime-node';
 import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { CAUTION } from '../../src/io/model-card.js';
+import { configFromHf } from '../../src/model/config.js';
+import { spanLogits } from '../../src/model/encoder.js';
+import { ReaderParams } from '../../src/model/params.js';
 import { readSafetensors } from '../../src/io/safetensors.js';
 import { buildWorkbench, startServer, type RunningServer } from '../../src/cli/serve.js';
 import { openBrowser, type OpenBrowser } from './browser.js';
@@ -237,7 +243,7 @@ describe('the browser workbench', () => {
     await shot('ask', true);
   });
 
-  it('exports the fine-tuned model and the download parses as safetensors', async () => {
+  it('exports the fine-tuned model: the download parses as safetensors, and model.onnx runs to the engine\'s logits', async () => {
     await screen('export');
     await page.locator('#export-fp32').click();
     const link = page.locator('a[data-file="model.safetensors"]');
@@ -255,6 +261,37 @@ describe('the browser workbench', () => {
     await page.locator('#export-int8').click();
     for (const name of ['model.int8.safetensors', 'MODEL_CARD.md']) {
       await page.locator(`a[data-file="${name}"]`).waitFor({ timeout: 60_000 });
+    }
+    // model.onnx is built in the worker under the page's CSP (no 'unsafe-eval'); run by
+    // onnxruntime-node (the reference ONNX runtime, npm `onnxruntime-node`) it gives the
+    // engine's logits (tfjs cpu backend) for the fp32 weights downloaded above, within 1e-4
+    await page.locator('#export-onnx').click();
+    const onnxLink = page.locator('a[data-file="model.onnx"]');
+    const alert = page.locator('export-screen [role="alert"]');
+    await onnxLink.or(alert).first().waitFor({ timeout: 60_000 });
+    expect(await alert.allTextContents()).toEqual([]);
+    const [onnxDownload] = await Promise.all([page.waitForEvent('download'), onnxLink.click()]);
+    const session = await ort.InferenceSession.create(new Uint8Array(readFileSync(await onnxDownload.path())), { logSeverityLevel: 3 });
+    const ids = [2, 17, 33, 5, 9, 3, 41, 12, 60, 3, 2, 8, 8, 50, 3, 19, 0, 0, 0, 0]; // [2, 10], the second padded after 6
+    const mask = ids.map((_, i) => (i < 16 ? 1 : 0));
+    const types = ids.map((_, i) => (i % 10 >= 5 ? 1 : 0));
+    const feed = (v: number[]) => new ort.Tensor('int64', BigInt64Array.from(v.map(BigInt)), [2, 10]);
+    const got = await session.run({ input_ids: feed(ids), attention_mask: feed(mask), token_type_ids: feed(types) });
+    await session.release();
+    await tf.setBackend('cpu');
+    const config = configFromHf(JSON.parse(readFileSync(join(FIXTURE, 'config.json'), 'utf8')));
+    const { params } = ReaderParams.fromNamed(config, exported);
+    const want = tf.tidy(() => {
+      const int = (v: number[]) => tf.tensor2d(v, [2, 10], 'int32');
+      const { start, end } = spanLogits(params, config, { inputIds: int(ids), attentionMask: int(mask), tokenTypeIds: int(types) }, { training: false });
+      return { start: start.dataSync(), end: end.dataSync() };
+    });
+    params.dispose();
+    for (const [name, engine] of [['start_logits', want.start], ['end_logits', want.end]] as const) {
+      const onnx = got[name]!.data as Float32Array;
+      expect(onnx.length).toBe(engine.length);
+      expect(Math.max(...engine) - Math.min(...engine)).toBeGreaterThan(0.5); // something to compare: measured spread 2.1 (start), 1.6 (end)
+      expect(Math.max(...onnx.map((v, i) => Math.abs(v - engine[i]!)))).toBeLessThan(1e-4);
     }
     await page.locator('#data-jsonl').click();
     await page.locator('a[data-file="dataset.jsonl"]').waitFor();
