@@ -25,6 +25,8 @@ export interface WasmBackendLike {
   };
   dataIdMap: { get(dataId: object): { memoryOffset: number } | undefined };
   makeOutput(shape: number[], dtype: tf.DataType): tf.TensorInfo;
+  /** One more tensor shares this data (how Reshape avoids a copy). */
+  incRef(dataId: object): void;
 }
 
 /** Exports of kernels.c; every pointer is a byte offset into the tfjs heap. */
@@ -37,6 +39,31 @@ interface KernelExports {
   ): void;
   gemm_workspace_floats(): number;
   erf_f32(x: number, y: number, n: number): void;
+  sum_leading_f32(x: number, y: number, m: number, n: number): void;
+  segment_sum_f32(x: number, ids: number, out: number, count: number, inner: number, segments: number): void;
+  attention_forward(
+    q: number, k: number, v: number, bias: number, ctx: number, probs: number, scratch: number,
+    B: number, T: number, N: number, D: number, scale: number,
+    dropout: number, mix: number, threshold: number, keepScale: number, workspace: number,
+  ): void;
+  dropout_f32(x: number, y: number, n: number, mix: number, threshold: number, scale: number): void;
+  adamw_f32(
+    p: number, g: number, m: number, v: number, pOut: number, mOut: number, vOut: number, n: number,
+    gradScale: number, scaled: number, decay: number, decayed: number, b1: number, oneMinusB1: number,
+    b2: number, oneMinusB2: number, negStep: number, c2: number, eps: number,
+  ): void;
+  bias_gelu_f32(x: number, b: number, y: number, rows: number, n: number): void;
+  bias_gelu_grad_f32(x: number, b: number, dy: number, dx: number, db: number, rows: number, n: number): void;
+  layer_norm_f32(x: number, gamma: number, beta: number, y: number, mean: number, rstd: number, rows: number, n: number, eps: number): void;
+  layer_norm_grad_f32(
+    x: number, gamma: number, mean: number, rstd: number, dy: number, dx: number, dgamma: number, dbeta: number,
+    rows: number, n: number,
+  ): void;
+  attention_backward(
+    q: number, k: number, v: number, probs: number, dctx: number, dq: number, dk: number, dv: number,
+    scratch: number, B: number, T: number, N: number, D: number, scale: number,
+    dropout: number, mix: number, threshold: number, keepScale: number, workspace: number,
+  ): void;
 }
 
 export interface FastModule {

@@ -9,13 +9,17 @@
 //
 // Shapes: B batch, T tokens, H hidden, N heads, D head size (H / N), I feed-forward
 // width, V vocabulary. Token-wise work runs on [B·T, H] matrices so every Linear layer
-// is one untransposed 2-D product (weights are kept [in, out], see params.ts); only the
-// attention products are batched, [B·N, T, D] × [B·N, D, T].
+// is one untransposed 2-D product (weights are kept [in, out], see params.ts); attention
+// takes Q, K, V in that layout too and splits the heads itself.
 //
 // Tensor discipline: these functions create intermediates freely and return new
 // tensors; the caller wraps them in tf.tidy (or tf.variableGrads) and owns the result.
 
 import * as tf from '@tensorflow/tfjs';
+import { attention } from '../kernels/attention.js';
+import { dropout as seededDropout } from '../kernels/dropout.js';
+import { biasGelu } from '../kernels/gelu.js';
+import { layerNorm as fusedLayerNorm } from '../kernels/layer-norm.js';
 import type { ReaderConfig } from './config.js';
 import type { ReaderParams } from './params.js';
 import { seedFor } from './random.js';
@@ -52,29 +56,31 @@ function linear(pass: Pass, name: string, x: tf.Tensor2D): tf.Tensor2D {
   return tf.add(tf.matMul(x, pass.params.get(`${name}.weight`)), pass.params.get(`${name}.bias`));
 }
 
-/** LayerNorm over the last axis (Ba et al. 2016), biased variance as PyTorch. */
+/** LayerNorm over the last axis (Ba et al. 2016), biased variance as PyTorch; one fused op (src/kernels/layer-norm.ts). */
 function layerNorm(pass: Pass, name: string, x: tf.Tensor2D): tf.Tensor2D {
-  const mean = tf.mean(x, -1, true); // [B·T, 1]
-  const centred = tf.sub(x, mean); // [B·T, H]
-  const variance = tf.mean(tf.square(centred), -1, true); // [B·T, 1]
-  const normed = tf.mul(centred, tf.rsqrt(tf.add(variance, pass.config.layerNormEps))); // [B·T, H]
-  return tf.add(tf.mul(normed, pass.params.get(`${name}.weight`)), pass.params.get(`${name}.bias`));
+  return fusedLayerNorm(x, pass.params.get(`${name}.weight`) as tf.Tensor1D, pass.params.get(`${name}.bias`) as tf.Tensor1D, pass.config.layerNormEps);
 }
 
-/** Exact GELU 0.5·x·(1 + erf(x/√2)), or its sigmoid form x·σ(1.702x) (Hendrycks & Gimpel 2016). */
-function activation<R extends tf.Rank>(pass: Pass, x: tf.Tensor<R>): tf.Tensor<R> {
-  if (pass.config.activation === 'gelu_sigmoid') return tf.mul(x, tf.sigmoid(tf.mul(x, 1.702)));
-  return tf.mul(tf.mul(x, 0.5), tf.add(1, tf.erf(tf.mul(x, Math.SQRT1_2))));
+/**
+ * act(x·W + b): exact GELU 0.5·u·(1 + erf(u/√2)) as one fused bias+GELU op
+ * (src/kernels/gelu.ts), or its sigmoid form u·σ(1.702u) (Hendrycks & Gimpel 2016).
+ */
+function linearActivation(pass: Pass, name: string, x: tf.Tensor2D): tf.Tensor2D {
+  if (pass.config.activation === 'gelu_sigmoid') {
+    const u = linear(pass, name, x);
+    return tf.mul(u, tf.sigmoid(tf.mul(u, 1.702)));
+  }
+  return biasGelu(tf.matMul(x, pass.params.get(`${name}.weight`)), pass.params.get(`${name}.bias`) as tf.Tensor1D);
 }
 
 /**
  * Inverted dropout (scaled by 1/(1 − rate) while training), off at inference. `site`
- * names the place in the network so each site gets its own mask from one step seed.
+ * names the place in the network so each site gets its own mask from one step seed;
+ * the mask is a pure function of that seed (src/kernels/dropout-mask.ts).
  */
 function dropout<R extends tf.Rank>(pass: Pass, x: tf.Tensor<R>, rate: number, site: string): tf.Tensor<R> {
   if (!pass.opts.training || rate === 0) return x;
-  const seed = seedFor(pass.opts.dropoutSeed ?? 0, site);
-  return tf.dropout(x, rate, undefined, seed) as tf.Tensor<R>;
+  return seededDropout(x, rate, seedFor(pass.opts.dropoutSeed ?? 0, site));
 }
 
 // ---- the parts of the diagram -------------------------------------------------------
@@ -95,33 +101,30 @@ function embeddings(pass: Pass, inputs: ReaderInputs): tf.Tensor2D {
 /**
  * Multi-head self-attention, before the output projection:
  * softmax(QKᵀ/√D + (1 − mask)·(−10000)) · V per head, heads concatenated. [B·T, H]
+ * One fused op (src/kernels/attention.ts): on wasm its kernels take the heads by
+ * strides and keep only the softmax for the backward; elsewhere it composes tfjs ops.
+ * Its dropout mask is a pure function of the site's seed (src/kernels/dropout-mask.ts).
  */
-function selfAttention(pass: Pass, layer: string, x: tf.Tensor2D, maskBias: tf.Tensor4D, B: number, T: number): tf.Tensor2D {
-  const { hiddenSize: H, numHeads: N } = pass.config;
-  const D = H / N;
-  const heads = (t: tf.Tensor2D, perm: number[], shape: [number, number, number]): tf.Tensor3D =>
-    tf.reshape(tf.transpose(tf.reshape(t, [B, T, N, D]), perm), shape);
-  const q = heads(linear(pass, `${layer}.attention.self.query`, x), [0, 2, 1, 3], [B * N, T, D]); // [B·N, T, D]
-  const kT = heads(linear(pass, `${layer}.attention.self.key`, x), [0, 2, 3, 1], [B * N, D, T]); // [B·N, D, T]
-  const v = heads(linear(pass, `${layer}.attention.self.value`, x), [0, 2, 1, 3], [B * N, T, D]); // [B·N, T, D]
-  const scores = tf.mul(tf.matMul(q, kT), 1 / Math.sqrt(D)); // [B·N, T, T]
-  const masked = tf.add(tf.reshape(scores, [B, N, T, T]), maskBias); // [B, N, T, T]
-  const probs = dropout(pass, tf.softmax(masked, -1), pass.config.attentionDropout, `${layer}.attention.probs`); // [B, N, T, T]
-  const context = tf.matMul(tf.reshape(probs, [B * N, T, T]) as tf.Tensor3D, v); // [B·N, T, D]
-  return tf.reshape(tf.transpose(tf.reshape(context, [B, N, T, D]), [0, 2, 1, 3]), [B * T, H]) as tf.Tensor2D; // [B·T, H]
+function selfAttention(pass: Pass, layer: string, x: tf.Tensor2D, keyBias: tf.Tensor2D): tf.Tensor2D {
+  const q = linear(pass, `${layer}.attention.self.query`, x); // [B·T, H]
+  const k = linear(pass, `${layer}.attention.self.key`, x); // [B·T, H]
+  const v = linear(pass, `${layer}.attention.self.value`, x); // [B·T, H]
+  const rate = pass.opts.training ? pass.config.attentionDropout : 0;
+  const dropoutSeed = seedFor(pass.opts.dropoutSeed ?? 0, `${layer}.attention.probs`);
+  return attention(q, k, v, keyBias, { numHeads: pass.config.numHeads, dropoutRate: rate, dropoutSeed }); // [B·T, H]
 }
 
 /** W2·act(W1·a). [B·T, H] */
 function feedForward(pass: Pass, layer: string, a: tf.Tensor2D): tf.Tensor2D {
-  const inner = activation(pass, linear(pass, `${layer}.intermediate.dense`, a)); // [B·T, I]
+  const inner = linearActivation(pass, `${layer}.intermediate.dense`, a); // [B·T, I]
   return linear(pass, `${layer}.output.dense`, inner); // [B·T, H]
 }
 
 /** One post-LN encoder layer: two residual lines. */
-function encoderLayer(pass: Pass, i: number, x: tf.Tensor2D, maskBias: tf.Tensor4D, B: number, T: number): tf.Tensor2D {
+function encoderLayer(pass: Pass, i: number, x: tf.Tensor2D, keyBias: tf.Tensor2D): tf.Tensor2D {
   const layer = `bert.encoder.layer.${i}`;
   const rate = pass.config.hiddenDropout;
-  const attended = linear(pass, `${layer}.attention.output.dense`, selfAttention(pass, layer, x, maskBias, B, T));
+  const attended = linear(pass, `${layer}.attention.output.dense`, selfAttention(pass, layer, x, keyBias));
   const a = layerNorm(pass, `${layer}.attention.output.LayerNorm`, tf.add(x, dropout(pass, attended, rate, `${layer}.attention.output`)));
   const fed = feedForward(pass, layer, a);
   return layerNorm(pass, `${layer}.output.LayerNorm`, tf.add(a, dropout(pass, fed, rate, `${layer}.output`)));
@@ -129,12 +132,11 @@ function encoderLayer(pass: Pass, i: number, x: tf.Tensor2D, maskBias: tf.Tensor
 
 /** The encoder's last hidden states as a [B·T, H] matrix. */
 function encode(pass: Pass, inputs: ReaderInputs): tf.Tensor2D {
-  const [B, T] = inputs.inputIds.shape;
   checkInputs(inputs, pass.config);
-  // [B, 1, 1, T]: 0 for real keys, −10000 for padding keys, broadcast over heads and queries
-  const maskBias = tf.reshape(tf.mul(tf.sub(1, tf.cast(inputs.attentionMask, 'float32')), MASKED_SCORE), [B, 1, 1, T]) as tf.Tensor4D;
+  // [B, T]: 0 for real keys, −10000 for padding keys; attention broadcasts it over heads and queries
+  const keyBias = tf.mul(tf.sub(1, tf.cast(inputs.attentionMask, 'float32')), MASKED_SCORE) as tf.Tensor2D;
   let x = embeddings(pass, inputs); // [B·T, H]
-  for (let i = 0; i < pass.config.numLayers; i++) x = encoderLayer(pass, i, x, maskBias, B, T); // [B·T, H]
+  for (let i = 0; i < pass.config.numLayers; i++) x = encoderLayer(pass, i, x, keyBias); // [B·T, H]
   return x;
 }
 
@@ -162,7 +164,7 @@ export function spanLogits(params: ReaderParams, config: ReaderConfig, inputs: R
 export function mlmLogits(params: ReaderParams, config: ReaderConfig, inputs: ReaderInputs, opts: ForwardOptions): tf.Tensor3D {
   const pass: Pass = { params, config, opts };
   const [B, T] = inputs.inputIds.shape;
-  const h = activation(pass, linear(pass, 'cls.predictions.transform.dense', encode(pass, inputs))); // [B·T, H]
+  const h = linearActivation(pass, 'cls.predictions.transform.dense', encode(pass, inputs)); // [B·T, H]
   const transformed = layerNorm(pass, 'cls.predictions.transform.LayerNorm', h); // [B·T, H]
   // an explicit transpose then a plain product: stock wasm's transposeB matMul is the slow path
   const decoder = tf.transpose(params.get('bert.embeddings.word_embeddings.weight')); // [H, V]

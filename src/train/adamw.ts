@@ -17,6 +17,7 @@
 
 import * as tf from '@tensorflow/tfjs';
 import type { NamedTensors } from '../io/tensors.js';
+import { adamwUpdate } from '../kernels/adamw-update.js';
 
 export interface AdamWOptions {
   /** β1, first-moment decay (torch default 0.9). */
@@ -87,30 +88,21 @@ export class AdamW {
     }
     const { beta1, beta2, epsilon, weightDecay } = this.options;
     tf.tidy(() => {
-      const b1 = tf.scalar(beta1);
-      const b2 = tf.scalar(beta2);
-      const oneMinusB1 = tf.scalar(1 - beta1);
-      const oneMinusB2 = tf.scalar(1 - beta2);
-      const eps = tf.scalar(epsilon);
-      const scale = gradScale === 1 ? null : tf.scalar(gradScale);
-      const decayFactor = tf.scalar(1 - lr * weightDecay);
       for (const [name, p] of this.params) {
         const raw = grads.get(name);
         if (raw === undefined) continue;
         const slot = this.slots.get(name)!;
         const t = slot.step + 1;
-        const g = scale === null ? raw : tf.mul(raw, scale);
-        // 1. decoupled decay
-        const decayed = slot.decay && weightDecay !== 0 ? tf.mul(p, decayFactor) : p;
-        // 2–3. moments
-        const m = tf.add(tf.mul(slot.m, b1), tf.mul(g, oneMinusB1));
-        const v = tf.add(tf.mul(slot.v, b2), tf.mul(tf.mul(g, oneMinusB2), g));
-        // 4. bias-corrected step
-        const stepSize = lr / (1 - beta1 ** t);
-        const correction2Sqrt = Math.sqrt(1 - beta2 ** t);
-        const denom = tf.add(tf.div(tf.sqrt(v), tf.scalar(correction2Sqrt)), eps);
-        // torch's addcdiv_(m, denom, value=−stepSize): p + (−stepSize·m) / denom
-        const updated = tf.add(decayed, tf.div(tf.mul(m, tf.scalar(-stepSize)), denom));
+        // 1–4 in one op (src/kernels/adamw-update.ts: one wasm kernel, or the same tfjs ops elsewhere)
+        const [updated, m, v] = adamwUpdate(p, raw, slot.m, slot.v, {
+          gradScale,
+          decayFactor: slot.decay && weightDecay !== 0 ? 1 - lr * weightDecay : null,
+          beta1,
+          beta2,
+          stepSize: lr / (1 - beta1 ** t),
+          correction2Sqrt: Math.sqrt(1 - beta2 ** t),
+          epsilon,
+        });
         slot.m.assign(m);
         slot.v.assign(v);
         p.assign(updated);

@@ -1,9 +1,11 @@
 // defines: `npm run bench` — every benchmark in one run.
 //   1. the tokenizer bench (tests/bench/tokenize.ts, another stage's), when present,
 //      in its own process so the two do not share a heap
-//   2. the engine bench (engine.ts), last, so with --json its JSON object is the
+//   2. with --quality only (it trains for 10–15 minutes): the learning curves
+//      (quality.ts), with --json printed as one `{"quality": …}` line
+//   3. the engine bench (engine.ts), last, so with --json its JSON object is the
 //      LAST line of the output
-// Arguments are passed to both (e.g. --json, --skip-cpu).
+// Arguments are passed to all (e.g. --json, --skip-cpu).
 
 import { spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
@@ -21,6 +23,11 @@ if (existsSync(tokenizeBench)) {
   if (r.status !== 0) console.error(`tests/bench/tokenize.ts exited with ${r.status}`);
 } else {
   console.log('tokenizer bench: tests/bench/tokenize.ts not present, skipped');
+}
+
+if (args.includes('--quality')) {
+  const { main: qualityMain } = await import('./quality.js');
+  await qualityMain(args);
 }
 
 await engineMain(args);

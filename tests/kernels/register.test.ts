@@ -9,6 +9,14 @@ import { fastKernelsActive, registerFastKernels, restoreStockKernels } from '../
 import { batchMatMulConfig } from '../../src/kernels/matmul.js';
 import { erfConfig } from '../../src/kernels/erf.js';
 import { oneHotConfig } from '../../src/kernels/one-hot.js';
+import { sumConfig } from '../../src/kernels/sum.js';
+import { FUSED_ATTENTION, FUSED_ATTENTION_GRAD } from '../../src/kernels/attention.js';
+import { BIAS_GELU, BIAS_GELU_GRAD } from '../../src/kernels/gelu.js';
+import { LAYER_NORM, LAYER_NORM_GRAD } from '../../src/kernels/layer-norm.js';
+import { DROPOUT } from '../../src/kernels/dropout.js';
+import { ADAMW_UPDATE } from '../../src/kernels/adamw-update.js';
+
+const FUSED = [FUSED_ATTENTION, FUSED_ATTENTION_GRAD, BIAS_GELU, BIAS_GELU_GRAD, LAYER_NORM, LAYER_NORM_GRAD, DROPOUT, ADAMW_UPDATE];
 
 beforeAll(async () => {
   await tf.setBackend('wasm');
@@ -41,6 +49,19 @@ describe('fast kernel registration', () => {
 
     // and the stock kernel still computes after the round trip
     expect(Array.from(tf.matMul(tf.tensor2d([[1, 2]]), tf.tensor2d([[3], [4]])).dataSync())).toEqual([11]);
+  });
+
+  it('the fused ops\' kernels come and go with the fast paths; stock Sum, GatherV2, Identity, Cast, Transpose come back', () => {
+    const stock = [tf.Sum, tf.GatherV2, tf.Identity, tf.Cast, tf.Transpose].map((name) => tf.getKernel(name, 'wasm'));
+    for (const name of FUSED) expect(tf.getKernel(name, 'wasm'), name).toBeUndefined();
+    registerFastKernels();
+    for (const name of FUSED) expect(tf.getKernel(name, 'wasm'), name).toBeDefined();
+    expect(tf.getKernel(tf.Sum, 'wasm')?.kernelFunc).toBe(sumConfig.kernelFunc);
+    // the stock setupFunc still travels with the fast config (it binds the C++ entry points the stock fallback calls)
+    expect(tf.getKernel(tf.Sum, 'wasm')?.setupFunc).toBe(stock[0]?.setupFunc);
+    restoreStockKernels();
+    for (const name of FUSED) expect(tf.getKernel(name, 'wasm'), name).toBeUndefined();
+    [tf.Sum, tf.GatherV2, tf.Identity, tf.Cast, tf.Transpose].forEach((name, i) => expect(tf.getKernel(name, 'wasm')).toBe(stock[i]));
   });
 
   it('fast results keep flowing after many calls (no heap views go stale)', () => {

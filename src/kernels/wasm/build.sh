@@ -13,7 +13,9 @@ set -euo pipefail
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
 cd "$here"
 
-exports=(gemm_f32 gemm_workspace_floats erf_f32)
+exports=(gemm_f32 gemm_workspace_floats erf_f32 sum_leading_f32 segment_sum_f32
+  attention_forward attention_backward bias_gelu_f32 bias_gelu_grad_f32 layer_norm_f32
+  layer_norm_grad_f32 dropout_f32 adamw_f32)
 export_flags=()
 for e in "${exports[@]}"; do export_flags+=("-Wl,--export=$e"); done
 
