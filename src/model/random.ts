@@ -4,17 +4,7 @@
 // name, so initialising one head afresh (a checkpoint without `qa_outputs`) gives the
 // same values whatever else was loaded, and adding a tensor shifts no other.
 
-/** Mulberry32 (Tommy Ettinger, public domain): uniform in [0, 1) from a 32-bit state. */
-function mulberry32(seed: number): () => number {
-  let state = seed >>> 0;
-  return () => {
-    state = (state + 0x6d2b79f5) >>> 0;
-    let t = state;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+import { mulberry32 } from '../data/random.js';
 
 /** FNV-1a over the UTF-16 units of `label`, folded with `seed`, then the MurmurHash3 finaliser. */
 export function seedFor(seed: number, label: string): number {
