@@ -1,17 +1,20 @@
 // defines: EngineClient — the page's typed handle on the engine worker
 // (workers/engine-worker.ts): `call(request)` resolves with that request kind's result
-// (workers/protocol.ts), `onRunEvent` hears the training loop's events. The page never
+// (workers/protocol.ts), `onRunEvent` hears the training loop's events and
+// `onCurveEvent` a learning curve's progress. The page never
 // imports tfjs; everything it knows about the model arrives through here.
 import type { LoopEvent } from '../src/train/loop.js';
-import type { EngineResults, RequestKind, RequestMessage, RequestOf, WorkerMessage } from '../workers/protocol.js';
+import type { CurveEvent, EngineResults, RequestKind, RequestMessage, RequestOf, WorkerMessage } from '../workers/protocol.js';
 
 export type RunEventListener = (runId: string, event: LoopEvent) => void;
+export type CurveEventListener = (curveId: string, event: CurveEvent) => void;
 
 export class EngineClient {
   private readonly worker: Worker;
   private nextId = 1;
   private readonly pending = new Map<number, { resolve(v: unknown): void; reject(e: Error): void }>();
   private readonly listeners = new Set<RunEventListener>();
+  private readonly curveListeners = new Set<CurveEventListener>();
 
   constructor() {
     this.worker = new Worker(new URL('../workers/engine-worker.ts', import.meta.url), { type: 'module', name: 'spanwright-engine' });
@@ -37,9 +40,18 @@ export class EngineClient {
     return () => this.listeners.delete(listener);
   }
 
+  onCurveEvent(listener: CurveEventListener): () => void {
+    this.curveListeners.add(listener);
+    return () => this.curveListeners.delete(listener);
+  }
+
   private receive(message: WorkerMessage): void {
     if (message.type === 'run-event') {
       for (const l of this.listeners) l(message.runId, message.event);
+      return;
+    }
+    if (message.type === 'curve-event') {
+      for (const l of this.curveListeners) l(message.curveId, message.event);
       return;
     }
     const p = this.pending.get(message.requestId);

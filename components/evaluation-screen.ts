@@ -2,7 +2,8 @@
 // SQuAD 2.0 rules: EM and F1 over all, answerable and unanswerable questions, the
 // no-answer threshold that maximises F1, the base reader beside the fine-tuned one, and
 // a per-question table (filterable to the misses) whose rows open onto the passage with
-// the gold answer and the prediction marked.
+// the gold answer and the prediction marked; below them, a learning curve on request
+// (<learning-curve>: F1 and EM against the number of training questions).
 // Events out: evaluated {result} for each reader scored.
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
@@ -13,6 +14,7 @@ import type { BaseInfo, EvaluationResult, ModelChoice } from '../workers/protoco
 import type { EngineClient } from './engine-client.js';
 import type { Mark } from './marked-passage.js';
 import { screenStyles } from './shared-styles.js';
+import './learning-curve.js';
 import './marked-passage.js';
 
 const pct = (v: number | null | undefined) => (v === null || v === undefined ? '–' : v.toFixed(2));
@@ -52,6 +54,8 @@ export class EvaluationScreen extends LitElement {
   @property({ attribute: false }) engine: EngineClient | null = null;
   @property({ attribute: false }) baseInfo: BaseInfo | null = null;
   @property({ attribute: false }) tunedName: string | null = null;
+  /** the training questions of the current split (for the learning curve) */
+  @property({ attribute: false }) train: QARecord[] = [];
   /** the validation questions of the current split */
   @property({ attribute: false }) validation: QARecord[] = [];
   @property({ attribute: false }) settings: TrainConfig | null = null;
@@ -79,7 +83,9 @@ export class EvaluationScreen extends LitElement {
         </div>
         ${this.error ? html`<p class="note bad" role="alert">${this.error}</p>` : ''}
       </section>
-      ${base || tuned ? this.renderSummary(base, tuned) : ''} ${this.renderQuestions()}
+      ${base || tuned ? this.renderSummary(base, tuned) : ''}
+      <learning-curve .engine=${this.engine} .baseInfo=${this.baseInfo} .train=${this.train} .validation=${this.validation} .settings=${this.settings}></learning-curve>
+      ${this.renderQuestions()}
     `;
   }
 

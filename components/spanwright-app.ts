@@ -278,6 +278,7 @@ export class SpanwrightApp extends LitElement {
           .engine=${this.engine}
           .baseInfo=${this.baseInfo}
           .tunedName=${this.tunedName}
+          .train=${split.train}
           .validation=${split.validation}
           .settings=${this.settings}
           .results=${this.evaluations}

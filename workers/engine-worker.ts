@@ -1,19 +1,21 @@
 // defines: the workbench's engine worker — the only place in the browser where tensors
 // live. It answers the page's EngineRequests (workers/protocol.ts) by calling the core
 // (src/): loading a reader, fine-tuning it (src/train/finetune.ts), checkpoints in
-// IndexedDB (src/io/idb-store.ts), evaluation, questions over passages and exports.
+// IndexedDB (src/io/idb-store.ts), evaluation, learning curves, questions over passages
+// and exports.
 //
 // Why a worker: the fast kernels compile their WebAssembly synchronously
 // (src/kernels/wasm-module.ts), which Chrome allows only off the main thread, and a
 // training step blocks for seconds; the page stays responsive and only renders messages.
 //
 // State held here: the base reader (weights, config, tokenizer, vocabulary files), the
-// fine-tuned reader (the last finished run, or a restored checkpoint), and the halt flag
-// of the running training run.
+// fine-tuned reader (the last finished run, or a restored checkpoint), the halt flag
+// of the running training run and the cancel flag of the running learning curve.
 import * as tf from '@tensorflow/tfjs';
 import { getThreadsCount, setWasmPaths } from '@tensorflow/tfjs-backend-wasm';
+import { mulberry32, shuffleInPlace } from '../src/data/random.js';
 import type { QARecord } from '../src/data/record.js';
-import { evaluateRecords, predictRecords } from '../src/eval/evaluate.js';
+import { buildWindows, evaluateRecords, predictRecords } from '../src/eval/evaluate.js';
 import { loadCheckpointDir } from '../src/io/checkpoint-dir.js';
 import { IdbCheckpointStore } from '../src/io/idb-store.js';
 import { exportModel } from '../src/io/export.js';
@@ -33,9 +35,12 @@ import type {
   AnswerView,
   AskResult,
   BaseInfo,
+  CurveEvent,
+  CurvePoint,
   EngineRequest,
   EngineResults,
   EvaluationResult,
+  LearningCurve,
   ModelChoice,
   QuestionView,
   RecordLength,
@@ -64,6 +69,8 @@ let base: BaseReader | null = null;
 let tuned: { params: ReaderParams; name: string } | null = null;
 /** the run being trained and whether it was asked to halt */
 let running: { runId: string; halt: boolean } | null = null;
+/** the learning curve being drawn, whether it was asked to stop, and its end */
+let curve: { curveId: string; cancel: boolean; ended: Promise<void> } | null = null;
 
 function post(message: WorkerMessage, transfer: Transferable[] = []): void {
   scope.postMessage(message, transfer);
@@ -79,6 +86,41 @@ function reader(choice: ModelChoice): { params: ReaderParams; config: ReaderConf
   if (choice === 'base') return { params: b.params, config: b.config, tokenizer: b.tokenizer, name: b.name };
   if (!tuned) throw new Error('there is no fine-tuned reader yet: train one, or restore a checkpoint on the Checkpoints screen');
   return { params: tuned.params, config: b.config, tokenizer: b.tokenizer, name: tuned.name };
+}
+
+/**
+ * Nested shares of the training questions, by whole passages so no passage is split:
+ * 1. passage ids sorted (UTF-16 code-unit order), so the shares depend on the set of
+ *    records and not on their order (as src/data/split.ts does);
+ * 2. shuffled with mulberry32(seed);
+ * 3. each share takes passages from the front of that order until it holds at least
+ *    round(share × all) questions (one passage at the least).
+ * Every share is a prefix of one order, so each smaller share lies inside each larger
+ * one. Records keep their input order.
+ */
+function nestedShares(records: readonly QARecord[], shares: readonly number[], seed: number): Array<{ share: number; records: QARecord[]; passages: number }> {
+  for (const share of shares) {
+    if (!(share > 0 && share <= 1)) throw new RangeError(`learning curve: a share must be in (0, 1], got ${share}`);
+  }
+  if (!Number.isInteger(seed)) throw new RangeError(`learning curve: seed must be a whole number, got ${seed}`);
+  // 1. passages and their sizes, in a fixed order
+  const size = new Map<string, number>();
+  for (const r of records) size.set(r.passageId, (size.get(r.passageId) ?? 0) + 1);
+  const passages = [...size.keys()].sort((a, b) => (a < b ? -1 : a > b ? 1 : 0));
+  // 2. shuffled by the seed
+  shuffleInPlace(passages, mulberry32(seed));
+  // 3. a prefix of that order per share
+  return shares.map((share) => {
+    const target = Math.round(share * records.length);
+    const taken = new Set<string>();
+    let questions = 0;
+    for (const p of passages) {
+      if (taken.size > 0 && questions >= target) break;
+      taken.add(p);
+      questions += size.get(p)!;
+    }
+    return { share, records: records.filter((r) => taken.has(r.passageId)), passages: taken.size };
+  });
 }
 
 // ---------------------------------------------------------------------------
@@ -153,8 +195,11 @@ const handlers: { [K in RequestKind]: Handler<K> } = {
   },
 
   async train(req): Promise<TrainEnded> {
+    // leaving the Evaluation screen cancels its curve: a run started right after waits for the update in hand
+    if (curve?.cancel) await curve.ended;
     const b = needBase();
     if (running) throw new Error(`run ${running.runId} is still training; pause or stop it first`);
+    if (curve) throw new Error('a learning curve is being drawn; wait for it or cancel it on the Evaluation screen first');
     const run = { runId: req.runId, halt: false };
     running = run;
     let totalUpdates = 0;
@@ -216,6 +261,78 @@ const handlers: { [K in RequestKind]: Handler<K> } = {
     tuned?.params.dispose();
     tuned = { params, name: `checkpoint ${req.id}` };
     return { id: req.id, step: ckpt.meta.step };
+  },
+
+  async 'learning-curve'(req): Promise<LearningCurve> {
+    const b = needBase();
+    if (running) throw new Error(`run ${running.runId} is training; pause or stop it before drawing a learning curve`);
+    if (curve) throw new Error('a learning curve is already being drawn');
+    if (req.train.length === 0) throw new Error('a learning curve needs training questions: add some on the Data screen');
+    if (req.validation.length === 0) throw new Error('a learning curve needs validation questions to score: hold some out on the Data screen');
+    const subsets = nestedShares(req.train, req.shares, req.seed);
+    let end = () => {};
+    const drawing = { curveId: req.curveId, cancel: false, ended: new Promise<void>((resolve) => (end = resolve)) };
+    curve = drawing;
+    const send = (event: CurveEvent) => post({ type: 'curve-event', curveId: req.curveId, event });
+    const features = { maxLen: req.config.maxLength, stride: req.config.stride, maxQueryTokens: req.config.maxQueryLength };
+    try {
+      // the validation windows are the same for every share: built once
+      const windows = buildWindows(b.tokenizer, req.validation, features);
+      const points: CurvePoint[] = [];
+      const of = subsets.length;
+      for (const [index, subset] of subsets.entries()) {
+        if (drawing.cancel) break;
+        if (base !== b) throw new Error('the base reader changed while the learning curve was drawn');
+        send({ type: 'share', index, of, share: subset.share, questions: subset.records.length, passages: subset.passages });
+        // a throwaway run: a fresh copy of the base, no store, so no checkpoint is written
+        const result = await fineTune({
+          base: { params: b.params, config: b.config, name: b.name },
+          tokenizer: b.tokenizer,
+          train: subset.records,
+          config: req.config,
+          datasetHash: 'learning-curve',
+          hooks: {
+            onEvent: (e) => {
+              if (e.type === 'progress') send({ type: 'update', index, of, update: e.update, totalUpdates: e.totalUpdates });
+            },
+            shouldStop: () => drawing.cancel,
+          },
+        });
+        try {
+          if (result.outcome.status === 'stopped') break;
+          send({ type: 'scoring', index, of });
+          const { report } = evaluateRecords({ params: result.params, config: b.config, tokenizer: b.tokenizer }, req.validation, { windows });
+          const point: CurvePoint = {
+            share: subset.share,
+            questions: subset.records.length,
+            passages: subset.passages,
+            updates: result.outcome.state.trainer.update,
+            em: report.summary.em,
+            f1: report.summary.f1,
+          };
+          points.push(point);
+          send({ type: 'point', index, of, point });
+        } finally {
+          result.params.dispose();
+        }
+      }
+      return {
+        curveId: req.curveId,
+        status: points.length === subsets.length ? 'finished' : 'cancelled',
+        trainQuestions: req.train.length,
+        validationQuestions: req.validation.length,
+        points,
+      };
+    } finally {
+      curve = null;
+      end();
+    }
+  },
+
+  'cancel-curve'(req) {
+    if (!curve || curve.curveId !== req.curveId) return { accepted: false };
+    curve.cancel = true;
+    return { accepted: true };
   },
 
   evaluate(req): EvaluationResult {

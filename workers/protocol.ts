@@ -3,7 +3,8 @@
 // Page → worker: an EngineRequest, wrapped as {requestId, request}. The worker answers
 // every request exactly once with a `reply` (its result, or an error message), and
 // while a training run goes it also sends `run-event` messages (the training loop's own
-// LoopEvent, src/train/loop.ts). Everything here is plain data — records, configs,
+// LoopEvent, src/train/loop.ts), and while a learning curve is drawn, `curve-event`
+// messages (CurveEvent). Everything here is plain data — records, configs,
 // numbers, strings, Uint8Array — so it crosses postMessage and lands in IndexedDB
 // unchanged. No tensors ever reach the page.
 import type { QARecord } from '../src/data/record.js';
@@ -51,6 +52,14 @@ export type EngineRequest =
   | { kind: 'prune-checkpoints'; keepBest: number; keepLast: number }
   /** load a checkpoint's weights as the fine-tuned reader */
   | { kind: 'restore-checkpoint'; id: string }
+  /**
+   * a learning curve: fresh copies of the base trained with `config` on nested shares of
+   * `train` (whole passages, picked in an order shuffled by `seed`, so each smaller share
+   * lies inside the larger), each scored on `validation`; nothing goes to the checkpoint store
+   */
+  | { kind: 'learning-curve'; curveId: string; train: QARecord[]; validation: QARecord[]; config: TrainConfig; shares: number[]; seed: number }
+  /** ask a running learning curve to stop after its current update; the points done so far come back */
+  | { kind: 'cancel-curve'; curveId: string }
   | { kind: 'evaluate'; model: ModelChoice; records: QARecord[]; maxLength: number; stride: number; maxQueryLength: number }
   | { kind: 'ask'; model: ModelChoice; question: string; passages: Array<{ id: string; text: string }>; topPassages: number; topAnswers: number; maxLength: number; stride: number; maxQueryLength: number }
   | { kind: 'export'; model: ModelChoice; fp16: boolean; int8: boolean; onnx: boolean; card: ExportCardInput };
@@ -103,6 +112,41 @@ export interface TrainEnded {
   update: number;
   totalUpdates: number;
   metrics: Metrics | null;
+}
+
+/** One point of a learning curve: a reader trained on `questions` training questions. */
+export interface CurvePoint {
+  /** the share of the training questions asked for, in (0, 1] */
+  share: number;
+  /** training questions and passages the share took (whole passages, so near share × all) */
+  questions: number;
+  passages: number;
+  /** optimizer updates the run took */
+  updates: number;
+  /** validation scores by the SQuAD 2.0 rules, in percent; null when no question of that kind */
+  em: number | null;
+  f1: number | null;
+}
+
+/** Progress of a learning curve, as it goes. `index` counts shares from 0 of `of`. */
+export type CurveEvent =
+  /** training on a share begins */
+  | { type: 'share'; index: number; of: number; share: number; questions: number; passages: number }
+  /** update `update` of `totalUpdates` of this share's run is done */
+  | { type: 'update'; index: number; of: number; update: number; totalUpdates: number }
+  /** this share's reader is being scored on the validation questions */
+  | { type: 'scoring'; index: number; of: number }
+  /** this share's point is done */
+  | { type: 'point'; index: number; of: number; point: CurvePoint };
+
+export interface LearningCurve {
+  curveId: string;
+  /** 'cancelled': asked to stop; `points` holds the shares finished before */
+  status: 'finished' | 'cancelled';
+  /** training questions in all (the 100% share) */
+  trainQuestions: number;
+  validationQuestions: number;
+  points: CurvePoint[];
 }
 
 /** One question of an evaluation, with character spans for highlighting. */
@@ -176,6 +220,8 @@ export interface EngineResults {
   'delete-checkpoint': { deleted: string };
   'prune-checkpoints': { deleted: string[] };
   'restore-checkpoint': { id: string; step: number };
+  'learning-curve': LearningCurve;
+  'cancel-curve': { accepted: boolean };
   evaluate: EvaluationResult;
   ask: AskResult;
   export: ExportResult;
@@ -194,5 +240,6 @@ export interface RequestMessage {
 export type WorkerMessage =
   | { type: 'reply'; requestId: number; ok: true; result: EngineResults[RequestKind] }
   | { type: 'reply'; requestId: number; ok: false; error: string }
-  | { type: 'run-event'; runId: string; event: LoopEvent };
+  | { type: 'run-event'; runId: string; event: LoopEvent }
+  | { type: 'curve-event'; curveId: string; event: CurveEvent };
 

@@ -1,9 +1,10 @@
 // The browser workbench end to end, in Debian's Chromium (playwright-core), on a fresh
 // profile: import the demo data, label a passage holding markup, load a checkpoint
 // folder, train a few updates and watch the charts, reload mid-run and continue from the
-// last checkpoint, pause, evaluate, ask, export and parse the downloaded safetensors
-// (and run the downloaded model.onnx in onnxruntime-node against the engine),
-// then open the app again offline.
+// last checkpoint, pause, evaluate, draw a learning curve (three throwaway runs in the
+// worker), ask, export and parse the downloaded safetensors (and run the downloaded
+// model.onnx in onnxruntime-node against the engine), open the app again offline, and
+// load the shipped base reader (tiny-models/base/).
 //
 // Across the whole session it fails on any request to another origin, on console
 // errors and uncaught page errors, and on a main-thread long task over 200 ms while a
@@ -24,7 +25,7 @@ import * as ort from 'onnxruntime-node';
 import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { CAUTION } from '../../src/io/model-card.js';
-import { configFromHf } from '../../src/model/config.js';
+import { configFromHf, paramCount } from '../../src/model/config.js';
 import { spanLogits } from '../../src/model/encoder.js';
 import { ReaderParams } from '../../src/model/params.js';
 import { readSafetensors } from '../../src/io/safetensors.js';
@@ -36,6 +37,7 @@ const ARTIFACTS = join(ROOT, 'tests/e2e/artifacts');
 const SCREENSHOTS = join(ROOT, 'tests/e2e/screenshots');
 const FIXTURE = join(ROOT, 'tests/reference/fixtures/checkpoint');
 const DEMO = join(ROOT, 'tiny-models/demo');
+const SHIPPED = join(ROOT, 'tiny-models/base');
 /** this project's budget for one main-thread task while training */
 const LONG_TASK_MS = 200;
 
@@ -47,6 +49,8 @@ const consoleErrors: string[] = [];
 const longTasks: Array<{ start: number; duration: number }> = [];
 /** [from, to] in the current page's performance.now() clock while a run trains */
 let trainingSince: number | null = null;
+/** checkpoints listed before the learning curve, which must add none */
+let checkpointRows = 0;
 
 async function now(): Promise<number> {
   return page.evaluate(() => performance.now());
@@ -215,7 +219,8 @@ describe('the browser workbench', () => {
   it('lists the checkpoints with their scores and storage', async () => {
     await screen('checkpoints');
     await page.locator('#checkpoint-table tbody tr').first().waitFor();
-    expect(await page.locator('#checkpoint-table tbody tr').count()).toBeGreaterThan(0);
+    checkpointRows = await page.locator('#checkpoint-table tbody tr').count();
+    expect(checkpointRows).toBeGreaterThan(0);
     await expect(page.locator('#storage').textContent()).resolves.toMatch(/Checkpoints take\s+[\d.]+ MB/);
     await shot('checkpoints');
   });
@@ -231,6 +236,58 @@ describe('the browser workbench', () => {
     expect(outcomes.every((o) => o !== 'correct')).toBe(true);
     await page.locator('#question-table tbody tr summary').first().click();
     await shot('evaluation', true);
+  });
+
+  it('draws a learning curve on nested shares of the training questions and keeps no checkpoint', async () => {
+    // the training split as the Data screen counts it (the demo questions plus the one labelled above)
+    await screen('data');
+    const trainQuestions = Number(/(\d+) training and/.exec((await page.locator('#split-counts').textContent()) ?? '')?.[1]);
+    expect(trainQuestions).toBeGreaterThan(0);
+    // a share takes whole passages until it reaches round(share × all), so it overshoots by less than one passage
+    const perPassage = new Map<string, number>();
+    for (const line of readFileSync(join(DEMO, 'validation.jsonl'), 'utf8').split('\n').filter((l) => l.trim() !== '')) {
+      const id = (JSON.parse(line) as { passage_id: string }).passage_id;
+      perPassage.set(id, (perPassage.get(id) ?? 0) + 1);
+    }
+    const largestPassage = Math.max(...perPassage.values());
+
+    // the short windows and one epoch set on the Training screen above keep the three runs to seconds
+    await screen('evaluation');
+    const since = await now();
+    // cancelled during its first share, a curve returns without a point and frees the worker
+    await page.locator('#curve-start').click();
+    await page.locator('#curve-progress', { hasText: /update \d+ of \d+/ }).waitFor({ timeout: 30_000 });
+    await page.locator('#curve-cancel').click();
+    await page.locator('#curve-cancelled').waitFor({ timeout: 30_000 });
+    expect(await page.locator('learning-curve').getAttribute('data-points')).toBe('0');
+    // then the whole curve
+    await page.locator('#curve-start').click();
+    await page.locator('#curve-progress').waitFor();
+    await page.locator('learning-curve[data-status="done"], learning-curve[data-status="failed"]').waitFor({ timeout: 60_000 });
+    await collectLongTasks(since, await now());
+    expect(await page.locator('learning-curve [role="alert"]').allTextContents()).toEqual([]);
+    const rows = await page.locator('#curve-table tbody tr').evaluateAll((trs) =>
+      trs.map((tr) => ({ share: Number(tr.getAttribute('data-share')), questions: Number(tr.getAttribute('data-questions')), f1: tr.getAttribute('data-f1') })),
+    );
+    expect(rows.map((r) => r.share)).toEqual([0.25, 0.5, 1]);
+    expect(rows[2]!.questions).toBe(trainQuestions);
+    for (const r of rows.slice(0, 2)) {
+      const target = Math.round(r.share * trainQuestions);
+      expect(r.questions).toBeGreaterThanOrEqual(target);
+      expect(r.questions).toBeLessThan(target + largestPassage);
+    }
+    expect(rows[0]!.questions).toBeLessThanOrEqual(rows[1]!.questions);
+    for (const r of rows) {
+      const f1 = Number(r.f1);
+      expect(r.f1 !== null && r.f1 !== '' && Number.isFinite(f1) && f1 >= 0 && f1 <= 100, `F1 ${r.f1} of share ${r.share}`).toBe(true);
+    }
+    await expect(page.locator('learning-curve').getAttribute('data-points')).resolves.toBe('3');
+    await page.locator('learning-curve #curve-plot canvas').first().waitFor();
+    await shot('learning-curve');
+    // the three runs were throwaway: the store holds what it held before
+    await screen('checkpoints');
+    await page.locator('#checkpoint-table tbody tr').first().waitFor();
+    expect(await page.locator('#checkpoint-table tbody tr').count()).toBe(checkpointRows);
   });
 
   it('answers a question over all passages, with the caution on screen', async () => {
@@ -303,6 +360,20 @@ describe('the browser workbench', () => {
     await page.reload();
     await waitForEngine();
     await browser.context.setOffline(false);
+  });
+
+  it('loads the shipped base reader, as large as tiny-models/base/config.json says', async () => {
+    await screen('reader');
+    // enabled once the build's precache.json lists the shipped files
+    await page.locator('#use-shipped:enabled').waitFor({ timeout: 10_000 });
+    const before = (await page.locator('#base-info h3').textContent()) ?? '';
+    await page.locator('#use-shipped').click();
+    await page.locator('#base-info h3').filter({ hasNotText: before }).waitFor({ timeout: 60_000 });
+    expect(await page.locator('#base-error').count()).toBe(0);
+    const want = paramCount(configFromHf(JSON.parse(readFileSync(join(SHIPPED, 'config.json'), 'utf8')), 'tiny-models/base/config.json')).total;
+    const shown = Number(/^[\d,]+/.exec(((await page.locator('#param-count').textContent()) ?? '').trim())?.[0].replace(/,/g, ''));
+    expect(shown).toBe(want);
+    await shot('base-reader-shipped');
   });
 
   it('made no request to another origin, logged no error, and kept the page responsive while training', () => {
