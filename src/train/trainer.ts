@@ -182,7 +182,7 @@ export class Trainer {
    */
   optimizerState(): AdamWState {
     const { steps, tensors } = this.optimizer.exportState();
-    return { steps, tensors: this.swapLinearAxes(tensors) };
+    return { steps, tensors: swapLinearAxes(tensors, this.linear) };
   }
 
   /**
@@ -196,7 +196,7 @@ export class Trainer {
     if (!Number.isInteger(state.update) || state.update < 0 || state.update > this.plan.totalUpdates) {
       throw new Error(`Trainer.restore: saved update ${state.update} is outside this plan's 0…${this.plan.totalUpdates}`);
     }
-    this.optimizer.importState({ steps: optimizer.steps, tensors: this.swapLinearAxes(optimizer.tensors) });
+    this.optimizer.importState({ steps: optimizer.steps, tensors: swapLinearAxes(optimizer.tensors, this.linear) });
     this.update = state.update;
   }
 
@@ -257,27 +257,27 @@ export class Trainer {
       lossSum?.dispose();
     }
   }
+}
 
-  /**
-   * Moments follow the variables' layout (Linear weights [in, out]); checkpoints hold
-   * them [out, in] like the weights. A transpose is its own inverse, so this one
-   * function converts both ways.
-   */
-  private swapLinearAxes(tensors: NamedTensors): NamedTensors {
-    const out: NamedTensors = new Map();
-    for (const [key, tensor] of tensors) {
-      const name = key.replace(/^adam\.[mv]\./, '');
-      if (this.linear.get(name) !== true || tensor.shape.length !== 2) {
-        out.set(key, tensor);
-        continue;
-      }
-      const [rows, cols] = tensor.shape;
-      const data = new Float32Array(rows * cols);
-      for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) data[c * rows + r] = tensor.data[r * cols + c];
-      out.set(key, { shape: [cols, rows], data });
+/**
+ * Moments follow the variables' layout (Linear weights [in, out]); checkpoints hold them
+ * [out, in] like the weights. A transpose is its own inverse, so this one function
+ * converts both ways. `linear`: engine name → whether the variable is a Linear weight.
+ */
+export function swapLinearAxes(tensors: NamedTensors, linear: ReadonlyMap<string, boolean>): NamedTensors {
+  const out: NamedTensors = new Map();
+  for (const [key, tensor] of tensors) {
+    const name = key.replace(/^adam\.[mv]\./, '');
+    if (linear.get(name) !== true || tensor.shape.length !== 2) {
+      out.set(key, tensor);
+      continue;
     }
-    return out;
+    const [rows, cols] = tensor.shape;
+    const data = new Float32Array(rows * cols);
+    for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) data[c * rows + r] = tensor.data[r * cols + c];
+    out.set(key, { shape: [cols, rows], data });
   }
+  return out;
 }
 
 /** Int32 [B, T] tensors of one batch (created inside the caller's scope). */

@@ -15,7 +15,6 @@
 // Letters: B rows, T tokens per row, H hidden, V vocabulary, M masked positions.
 
 import * as tf from '@tensorflow/tfjs';
-import type { NamedTensors } from '../../src/io/tensors.js';
 import { parameterShapes, type ReaderConfig } from '../../src/model/config.js';
 import { hiddenStates, type ReaderInputs } from '../../src/model/encoder.js';
 import type { ReaderParams } from '../../src/model/params.js';
@@ -23,6 +22,7 @@ import { AdamW, type AdamWState } from '../../src/train/adamw.js';
 import type { MlmBatch } from '../../src/train/batches.js';
 import { clipScale, globalNorm } from '../../src/train/clip.js';
 import { mlmLoss } from '../../src/train/losses.js';
+import { swapLinearAxes } from '../../src/train/trainer.js';
 import { maskedPositions } from '../../src/train/mlm-data.js';
 
 export interface MaskedLmOptions {
@@ -107,11 +107,11 @@ export class MaskedLmTrainer {
   /** Moments in checkpoint layout (Linear weights [out, in]) with step counts. */
   optimizerState(): AdamWState {
     const { steps, tensors } = this.optimizer.exportState();
-    return { steps, tensors: this.swapLinearAxes(tensors) };
+    return { steps, tensors: swapLinearAxes(tensors, this.linear) };
   }
 
   restoreOptimizer(state: AdamWState): void {
-    this.optimizer.importState({ steps: state.steps, tensors: this.swapLinearAxes(state.tensors) });
+    this.optimizer.importState({ steps: state.steps, tensors: swapLinearAxes(state.tensors, this.linear) });
   }
 
   dispose(): void {
@@ -148,23 +148,6 @@ export class MaskedLmTrainer {
     // 2. decoder tied to the word embeddings; an explicit transpose, then a plain product
     const decoder = tf.transpose(p('bert.embeddings.word_embeddings.weight')); // [H, V]
     return tf.add(tf.matMul(transformed, decoder), p('cls.predictions.bias')) as tf.Tensor2D; // [M, V]
-  }
-
-  /** Moments follow the variables' layout; a transpose is its own inverse, so one function converts both ways. */
-  private swapLinearAxes(tensors: NamedTensors): NamedTensors {
-    const out: NamedTensors = new Map();
-    for (const [key, tensor] of tensors) {
-      const name = key.replace(/^adam\.[mv]\./, '');
-      if (this.linear.get(name) !== true || tensor.shape.length !== 2) {
-        out.set(key, tensor);
-        continue;
-      }
-      const [rows, cols] = tensor.shape;
-      const data = new Float32Array(rows * cols);
-      for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) data[c * rows + r] = tensor.data[r * cols + c];
-      out.set(key, { shape: [cols, rows], data });
-    }
-    return out;
   }
 }
 
