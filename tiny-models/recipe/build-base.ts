@@ -31,14 +31,14 @@
 // step for step. The elapsed training time is saved with each checkpoint.
 
 import { mkdirSync, readFileSync, existsSync, writeFileSync, appendFileSync, statSync } from 'node:fs';
-import { dirname, join, resolve } from 'node:path';
+import { dirname, join, relative, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import * as tf from '@tensorflow/tfjs';
 import { FsCheckpointStore } from '../../src/cli/fs-store.js';
 import { sha256Hex, type CheckpointMeta } from '../../src/io/checkpoint-store.js';
-import { namedToSafetensors } from '../../src/io/safetensors.js';
+import { namedToSafetensors, readSafetensors } from '../../src/io/safetensors.js';
 import type { NamedTensors } from '../../src/io/tensors.js';
-import { configToHf, paramCount, presetConfig, type ReaderConfig } from '../../src/model/config.js';
+import { configFromHf, configToHf, paramCount, presetConfig, type ReaderConfig } from '../../src/model/config.js';
 import { ReaderParams } from '../../src/model/params.js';
 import type { MlmBatch, MlmMasking } from '../../src/train/batches.js';
 import { maskedBatch, packDocuments, type DocumentTokens, type PackedSequences } from '../../src/train/mlm-data.js';
@@ -87,6 +87,11 @@ export interface RecipeSettings {
   evalRows: number;
   out: string;
   work: string;
+  /**
+   * a model folder this recipe wrote earlier (config.json, model.safetensors, vocab.txt,
+   * pretraining.json) to continue from instead of a random start; null = random start
+   */
+  init: string | null;
 }
 
 const DEFAULTS: RecipeSettings = {
@@ -108,6 +113,7 @@ const DEFAULTS: RecipeSettings = {
   evalRows: 64,
   out: join(repo, 'tiny-models', 'base'),
   work: join(repo, 'runs', 'base-build'),
+  init: null,
 };
 
 interface Args {
@@ -154,6 +160,9 @@ function parseArgs(argv: string[]): Args {
     } else if (flag === '--out') {
       settings.out = resolve(value);
       given.add('out');
+    } else if (flag === '--init') {
+      settings.init = resolve(value);
+      given.add('init');
     } else if (flag === '--work') {
       settings.work = resolve(value);
       given.add('work');
@@ -225,12 +234,13 @@ async function prepare(s: RecipeSettings): Promise<Prepared> {
   const manifestPath = join(dir, 'manifest.json');
   if (existsSync(manifestPath)) {
     const manifest = JSON.parse(readFileSync(manifestPath, 'utf8')) as Manifest;
-    if (manifest.vocabSize === s.vocabSize) {
-      const vocabText = readFileSync(join(dir, 'vocab.txt'), 'utf8');
+    const vocabText = readFileSync(join(dir, 'vocab.txt'), 'utf8');
+    const initText = s.init === null ? null : readFileSync(join(s.init, 'vocab.txt'), 'utf8');
+    if (manifest.vocabSize === s.vocabSize && (initText === null || initText === vocabText)) {
       log(`data: cached in ${dir} (${manifest.tokens.train} training tokens, ${manifest.tokens.heldout} held out)`);
       return { vocab: vocabText.trimEnd().split('\n'), tokenizer: WordPieceTokenizer.fromVocabTxt(vocabText), train: readIds(join(dir, 'train')), heldout: readIds(join(dir, 'heldout')), manifest };
     }
-    log(`data: cache in ${dir} was built for ${manifest.vocabSize} tokens, rebuilding for ${s.vocabSize}`);
+    log(`data: cache in ${dir} was built for another vocabulary (${manifest.vocabSize} tokens), rebuilding`);
   }
   mkdirSync(dir, { recursive: true });
 
@@ -242,7 +252,18 @@ async function prepare(s: RecipeSettings): Promise<Prepared> {
   log(`corpus: ${docs.length} documents, ${heldDocs.length} held out`);
 
   // 2. vocabulary
-  const { vocab, report } = await buildVocabulary(trainDocs.map((d) => d.text), s.vocabSize, dir);
+  const built = await buildVocabulary(trainDocs.map((d) => d.text), s.vocabSize, dir);
+  const report = built.report;
+  let vocab = built.vocab;
+  if (s.init !== null) {
+    // a continued run keeps the vocabulary its weights were trained with; the tokens the
+    // recipe builds today may differ at the frequency cut (ties), which the log reports
+    const theirs = readFileSync(join(s.init, 'vocab.txt'), 'utf8').trimEnd().split('\n');
+    const ours = new Set(vocab);
+    const differ = theirs.filter((t) => !ours.has(t)).length;
+    log(`vocabulary: ${relative(repo, s.init)}/vocab.txt kept for --init (${differ} of its ${theirs.length} tokens differ from this build's)`);
+    vocab = theirs;
+  }
   const vocabText = `${vocab.join('\n')}\n`;
   writeFileSync(join(dir, 'vocab.txt'), vocabText);
   log(`vocabulary: trained ${report.trainedSize} tokens, cut to ${report.size}; tokens per word ${report.full.tokensPerWord.toFixed(3)} → ${report.cut.tokensPerWord.toFixed(3)}; [UNK] ${report.cut.unk}`);
@@ -292,6 +313,59 @@ interface PretrainMeta extends CheckpointMeta {
   adamSteps: Record<string, number>;
   /** the latest held-out measurement */
   heldout: { loss: number; accuracy: number; predicted: number; atStep: number } | null;
+  /** the earlier run this one continued from (--init), as its pretraining.json tells */
+  initFrom: InitFrom | null;
+}
+
+/** What a continued run inherited: the earlier run's own counts and settings. */
+export interface InitFrom {
+  /** the folder, relative to the repository */
+  dir: string;
+  steps: number;
+  tokensSeen: number;
+  trainingMinutes: number;
+  learningRate: number;
+  heldoutAccuracy: number | null;
+}
+
+/**
+ * Weights to continue from (--init): the folder must have been written by this recipe
+ * with the same vocabulary and size, so that only the optimizer's state starts afresh.
+ */
+function readInit(dir: string, config: ReaderConfig, vocab: readonly string[]): { weights: NamedTensors; from: InitFrom } {
+  const need = ['config.json', 'model.safetensors', 'vocab.txt', 'pretraining.json'];
+  const absent = need.filter((f) => !existsSync(join(dir, f)));
+  if (absent.length > 0) throw new Error(`--init ${dir}: ${absent.join(', ')} not found; it must be a folder this recipe wrote`);
+  const theirs = readFileSync(join(dir, 'vocab.txt'), 'utf8').trimEnd().split('\n');
+  if (theirs.length !== vocab.length || theirs.some((t, i) => t !== vocab[i])) {
+    throw new Error(`--init ${dir}: vocab.txt differs from the recipe's vocabulary (${theirs.length} vs ${vocab.length} tokens); the weights would not line up`);
+  }
+  const theirConfig = configFromHf(JSON.parse(readFileSync(join(dir, 'config.json'), 'utf8')), join(dir, 'config.json'));
+  for (const key of ['hiddenSize', 'numLayers', 'numHeads', 'intermediateSize', 'maxPositions', 'vocabSize'] as const) {
+    if (theirConfig[key] !== config[key]) throw new Error(`--init ${dir}: config.json ${key} is ${theirConfig[key]}, this run's size needs ${config[key]}`);
+  }
+  const prior = JSON.parse(readFileSync(join(dir, 'pretraining.json'), 'utf8')) as {
+    steps: number;
+    tokensSeen: number;
+    trainingMinutes: number;
+    settings: { learningRate: number };
+    heldout: { accuracy: number } | null;
+    initFrom?: InitFrom | null;
+  };
+  // a chain of continued runs reports its totals: add what the earlier run itself inherited
+  const before = prior.initFrom ?? { steps: 0, tokensSeen: 0, trainingMinutes: 0 };
+  const { tensors } = readSafetensors(new Uint8Array(readFileSync(join(dir, 'model.safetensors'))), join(dir, 'model.safetensors'));
+  return {
+    weights: tensors,
+    from: {
+      dir: relative(repo, dir) || '.',
+      steps: prior.steps + before.steps,
+      tokensSeen: prior.tokensSeen + before.tokensSeen,
+      trainingMinutes: prior.trainingMinutes + before.trainingMinutes,
+      learningRate: prior.settings.learningRate,
+      heldoutAccuracy: prior.heldout?.accuracy ?? null,
+    },
+  };
 }
 
 /** Rows per update and the phase's packed rows, by sequence length. */
@@ -356,7 +430,15 @@ async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMet
     log(`resume: ${saved.id} — step ${meta.step}, ${(meta.elapsedMs / 60000).toFixed(1)} of ${s.minutes} min, ${meta.tokensSeen} tokens seen`);
   } else {
     const config = modelConfig(s, data.vocab.length);
-    params = ReaderParams.init(config, s.seed);
+    let initFrom: InitFrom | null = null;
+    if (s.init !== null) {
+      const init = readInit(s.init, config, data.vocab);
+      params = ReaderParams.fromNamed(config, init.weights, { seed: s.seed, source: s.init }).params;
+      initFrom = init.from;
+      log(`start: continuing from ${init.from.dir} (${init.from.steps} updates, ${init.from.tokensSeen} tokens seen there); the optimizer starts afresh`);
+    } else {
+      params = ReaderParams.init(config, s.seed);
+    }
     meta = {
       step: 0,
       schedulePosition: 0,
@@ -371,6 +453,7 @@ async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMet
       phaseLength: s.maxLen,
       adamSteps: {},
       heldout: null,
+      initFrom,
     };
     log(`start: ${s.preset}, ${paramCount(config).total} parameters, budget ${s.minutes} min, T ${s.maxLen} then ${s.longLen} for the last ${s.longShare * 100}%`);
   }
@@ -540,7 +623,8 @@ async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, par
     trainingMinutes: meta.elapsedMs / 60000,
     heldout: meta.heldout,
     metrics: meta.metrics,
-    settings: { ...s, out: undefined, work: undefined },
+    initFrom: meta.initFrom ?? null,
+    settings: { ...s, out: undefined, work: undefined, init: undefined },
     data: data.manifest,
   };
   writeFileSync(join(s.out, 'pretraining.json'), `${JSON.stringify({ ...pretraining, data: { ...data.manifest, heldoutIds: undefined } }, null, 2)}\n`);
@@ -555,6 +639,7 @@ async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, par
     heldoutShort: meta.metrics.heldoutLossShort === undefined ? null : { loss: meta.metrics.heldoutLossShort, accuracy: meta.metrics.heldoutAccuracyShort ?? Number.NaN, length: s.maxLen },
     settings: s,
     manifest: data.manifest,
+    initFrom: meta.initFrom ?? null,
     sources: SOURCES,
     sizes,
     weightsBytes: bytes.length,

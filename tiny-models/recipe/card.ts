@@ -26,6 +26,8 @@ export interface CardFacts {
     tokens: { train: number; heldout: number };
     datasetHash: string;
   };
+  /** the earlier run of this recipe that this one continued from (--init), or null */
+  initFrom: { dir: string; steps: number; tokensSeen: number; trainingMinutes: number; learningRate: number; heldoutAccuracy: number | null } | null;
   sources: readonly { source: string; package: string; version: string; licence: string }[];
   sizes: { sizes: SizeMeasurement[]; measuredAt: string; vocab: number } | null;
   weightsBytes: number;
@@ -102,10 +104,20 @@ export function renderBaseCard(c: CardFacts): string {
       `and linear decay to 0 at its end, gradient clipping at ${s.maxGradNorm}, dropout ${s.dropout}, seed ${s.seed}.`,
   );
   out.push(
-    `- Run: ${c.steps.toLocaleString('en-US')} updates, ${c.tokensSeen.toLocaleString('en-US')} tokens seen (${f(c.tokensSeen / c.manifest.tokens.train, 1)} passes over the training tokens), ` +
+    `- ${c.initFrom === null ? 'Run' : 'This run'}: ${c.steps.toLocaleString('en-US')} updates, ${c.tokensSeen.toLocaleString('en-US')} tokens seen (${f(c.tokensSeen / c.manifest.tokens.train, 1)} passes over the training tokens), ` +
       `${f(c.trainingMinutes, 1)} minutes of training (${f(c.tokensSeen / (c.trainingMinutes * 60), 0)} tokens/s on average, evaluation and checkpoint time excluded) ` +
       "on 2 CPU cores shared with other work, the project's own engine (tfjs wasm backend with Spanwright's fast kernels, Node 20).",
   );
+  if (c.initFrom !== null) {
+    const p = c.initFrom;
+    const acc = p.heldoutAccuracy === null ? '' : `, held-out MLM accuracy ${f(100 * p.heldoutAccuracy, 1)}%`;
+    out.push(
+      `- Continued (\`--init\`) from an earlier run of this recipe, whose weights it started from (the optimizer started afresh): ` +
+        `${p.steps.toLocaleString('en-US')} updates, ${p.tokensSeen.toLocaleString('en-US')} tokens, ${f(p.trainingMinutes, 1)} minutes at peak learning rate ${p.learningRate}${acc}. ` +
+        `In all: ${(p.steps + c.steps).toLocaleString('en-US')} updates, ${(p.tokensSeen + c.tokensSeen).toLocaleString('en-US')} tokens seen ` +
+        `(${f((p.tokensSeen + c.tokensSeen) / c.manifest.tokens.train, 1)} passes), ${f(p.trainingMinutes + c.trainingMinutes, 1)} minutes.`,
+    );
+  }
   if (c.heldout !== null) {
     const short = c.heldoutShort === null ? '' : `; at ${c.heldoutShort.length} tokens: loss ${f(c.heldoutShort.loss, 3)}, accuracy ${f(100 * c.heldoutShort.accuracy, 1)}%`;
     out.push(

@@ -10,8 +10,11 @@
 //   2. tokenize the training documents with that full vocabulary and count each token
 //   3. keep the specials, every single-character token and its "##" continuation (so any
 //      word spelled in the corpus's alphabet stays spellable, greedy longest-match
-//      falling back to characters), then the most frequent other tokens (ties: lower
-//      trained id first) until the target size; kept tokens stay in trained-id order
+//      falling back to characters), then the most frequent other tokens until the
+//      target size. The order is canonical, because the trainer's own id order varies
+//      from run to run (seen with 0.23.2: the same tokens, in another order): specials,
+//      the alphabet by code point (bare forms, then "##" forms), then the rest by count,
+//      ties by the token's text
 //   4. re-tokenize with the cut vocabulary and report the [UNK] share and tokens per
 //      word of both, to show what the cut cost
 
@@ -67,15 +70,18 @@ export async function buildVocabulary(texts: readonly string[], target: number, 
   });
   const alphabet = keep.size - specials.size;
   if (keep.size > target) throw new Error(`buildVocabulary: the alphabet alone (${keep.size} tokens) exceeds the target size ${target}`);
+  const byText = (a: string, b: string) => (a < b ? -1 : a > b ? 1 : 0);
   const ranked = full
     .map((_, id) => id)
     .filter((id) => !keep.has(id))
-    .sort((a, b) => fullCount.counts[b] - fullCount.counts[a] || a - b);
-  for (const id of ranked) {
-    if (keep.size >= target) break;
-    keep.add(id);
-  }
-  const vocab = full.filter((_, id) => keep.has(id));
+    .sort((a, b) => fullCount.counts[b] - fullCount.counts[a] || byText(full[a]!, full[b]!));
+  const letters = full.filter((t) => isAlphabet(t) && !specials.has(t));
+  const vocab = [
+    ...SPECIAL_TOKENS,
+    ...letters.filter((t) => !t.startsWith('##')).sort(byText),
+    ...letters.filter((t) => t.startsWith('##')).sort(byText),
+    ...ranked.slice(0, target - keep.size).map((id) => full[id]!),
+  ];
 
   // 4. what the cut cost
   const cutCount = await countTokens(vocab, texts);
