@@ -13,7 +13,7 @@ import { LitElement, css, html } from 'lit';
 import { customElement, state } from 'lit/decorators.js';
 import { hashDataset } from '../src/data/hash.js';
 import { splitByPassage, type Split } from '../src/data/split.js';
-import { DEFAULT_TRAIN_CONFIG, type TrainConfig } from '../src/train/config.js';
+import { DEFAULT_TRAIN_CONFIG, suggestedLearningRate, type TrainConfig } from '../src/train/config.js';
 import type { LoopEvent } from '../src/train/loop.js';
 import type { BaseInfo, EngineReady, EvaluationResult } from '../workers/protocol.js';
 import { EngineClient } from './engine-client.js';
@@ -180,7 +180,12 @@ export class SpanwrightApp extends LitElement {
       this.baseInfo = await this.engine.call({ kind: 'load-base', name: base.name, files }, [files.safetensors.buffer]);
       this.tunedName = null;
       this.evaluations = {};
-      if (save) await saveState('base', base);
+      if (save) {
+        await saveState('base', base);
+        // a newly chosen reader starts from the learning rate suggested for its width
+        this.settings = { ...this.settings, learningRate: suggestedLearningRate(this.baseInfo.config.hiddenSize) };
+        await saveState('settings', this.settings);
+      }
       // a window cannot be longer than the model's position table
       const limit = this.baseInfo.config.maxPositions;
       if (this.settings.maxLength > limit) {

@@ -7,7 +7,7 @@
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
 import type { Split } from '../src/data/split.js';
-import { DEFAULT_TRAIN_CONFIG, checkTrainConfig, type TrainConfig } from '../src/train/config.js';
+import { DEFAULT_TRAIN_CONFIG, checkTrainConfig, suggestedLearningRate, type TrainConfig } from '../src/train/config.js';
 import type { BaseInfo } from '../workers/protocol.js';
 import { formatDuration } from './reader-screen.js';
 import { screenStyles } from './shared-styles.js';
@@ -70,6 +70,12 @@ export class TrainingScreen extends LitElement {
 
   @state() private formError = '';
 
+  /** A setting's default; the learning rate's depends on the loaded reader's width. */
+  private _defaultOf(key: keyof TrainConfig): string {
+    if (key === 'learningRate' && this.baseInfo !== null) return `${suggestedLearningRate(this.baseInfo.config.hiddenSize)} for this reader's width`;
+    return String(DEFAULT_TRAIN_CONFIG[key]);
+  }
+
   override render() {
     const run = this.run;
     const running = run?.status === 'running';
@@ -83,7 +89,7 @@ export class TrainingScreen extends LitElement {
             (f) => html`<label>
               ${f.label}
               <input name=${f.key} type="number" step=${f.step} .value=${String(this.settings[f.key])} ?disabled=${running} />
-              <small>${f.help} Default ${DEFAULT_TRAIN_CONFIG[f.key]}.</small>
+              <small>${f.help} Default ${this._defaultOf(f.key)}.</small>
             </label>`,
           )}
         </form>

@@ -23,7 +23,7 @@ export function register(program: Command): void {
     .option('--base <dir>', 'the base model directory', DEFAULT_BASE)
     .option('--out <dir>', 'where to write (default runs/demo-<date>-<time>)')
     .option('--epochs <n>', 'passes over the training windows (default 2)', '2')
-    .option('--lr <x>', 'peak learning rate (default: the train default)')
+    .option('--lr <x>', 'peak learning rate (default: the one suggested for the base width, as train)')
     .option('--seed <n>', 'seed for data order and dropout')
     .option('--json', 'print {before, after, out} as one JSON object on the last line')
     .action((o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json'> & { out?: string }) =>

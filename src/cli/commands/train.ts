@@ -7,6 +7,7 @@
 //                checkpoints on disk under <out>/checkpoints
 //   3. measure   SQuAD 2.0 EM/F1 on the eval file, with the tuned no-answer threshold
 //   4. write     <out>/config.json, model.safetensors, vocabulary, MODEL_CARD.md
+import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Command } from 'commander';
 import { UserError, printJson, runCommand } from '../common.js';
@@ -15,7 +16,8 @@ import { countProgress, trainingProgress } from '../progress.js';
 import { scoresObject, scoresTable } from '../scores.js';
 import { hashDataset } from '../../data/hash.js';
 import type { QARecord } from '../../data/record.js';
-import { DEFAULT_TRAIN_CONFIG, trainConfig, type TrainConfig } from '../../train/config.js';
+import { DEFAULT_TRAIN_CONFIG, suggestedLearningRate, trainConfig, type TrainConfig } from '../../train/config.js';
+import { configFromHf } from '../../model/config.js';
 import type { EvaluationReport } from '../../eval/report.js';
 
 export const DEFAULT_BASE = 'tiny-models/base';
@@ -51,14 +53,31 @@ function num(name: string, v: string | undefined): number | undefined {
   return n;
 }
 
-/** The train config from the command's options over the defaults. */
+/**
+ * The hidden size of the base directory's config.json, or null when it cannot be read
+ * (loading the base later reports the problem with its file and field).
+ */
+export function baseHiddenSize(dir: string): number | null {
+  try {
+    const path = join(dir, 'config.json');
+    return configFromHf(JSON.parse(readFileSync(path, 'utf8')) as Record<string, unknown>, path).hiddenSize;
+  } catch {
+    return null;
+  }
+}
+
+/**
+ * The train config from the command's options over the defaults; without --lr, the rate
+ * suggested for the base's width (src/train/config.ts, suggestedLearningRate).
+ */
 export function configFromOptions(o: TrainOptions): TrainConfig {
   const overrides: Partial<TrainConfig> = {};
   const set = <K extends keyof TrainConfig>(k: K, v: TrainConfig[K] | undefined) => {
     if (v !== undefined) overrides[k] = v;
   };
   set('epochs', int('epochs', o.epochs));
-  set('learningRate', num('lr', o.lr));
+  const hidden = o.lr === undefined ? baseHiddenSize(o.base) : null;
+  set('learningRate', num('lr', o.lr) ?? (hidden === null ? undefined : suggestedLearningRate(hidden)));
   set('batchSize', int('batch', o.batch));
   set('gradAccumulation', int('accumulate', o.accumulate));
   set('maxLength', int('max-len', o.maxLen));
@@ -225,7 +244,7 @@ export function register(program: Command): void {
     .option('--base <dir>', 'the base model directory', DEFAULT_BASE)
     .requiredOption('--out <dir>', 'where the trained model directory (and its checkpoints/) go')
     .option('--epochs <n>', `passes over the training windows (default ${d.epochs})`)
-    .option('--lr <x>', `peak learning rate after warmup (default ${d.learningRate})`)
+    .option('--lr <x>', `peak learning rate after warmup (default by the base's hidden size: ${suggestedLearningRate(256)} up to 256, ${suggestedLearningRate(512)} up to 512, ${suggestedLearningRate(768)} above)`)
     .option('--batch <n>', `windows per micro-batch (default ${d.batchSize})`)
     .option('--accumulate <n>', `micro-batches per optimizer update (default ${d.gradAccumulation})`)
     .option('--max-len <n>', `tokens per window, special tokens included (default ${d.maxLength})`)
