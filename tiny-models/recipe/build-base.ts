@@ -627,7 +627,6 @@ async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, par
     settings: { ...s, out: undefined, work: undefined, init: undefined },
     data: data.manifest,
   };
-  writeFileSync(join(s.out, 'pretraining.json'), `${JSON.stringify({ ...pretraining, data: { ...data.manifest, heldoutIds: undefined } }, null, 2)}\n`);
   const facts: CardFacts = {
     preset: s.preset,
     config,
@@ -644,6 +643,9 @@ async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, par
     sizes,
     weightsBytes: bytes.length,
   };
+  // the card's facts go along, so that a later stage (span-pretrain.ts) can render the card again
+  const card = { ...facts, settings: { ...s, out: undefined, work: undefined, init: undefined }, manifest: { ...data.manifest, heldoutIds: undefined } };
+  writeFileSync(join(s.out, 'pretraining.json'), `${JSON.stringify({ ...pretraining, data: { ...data.manifest, heldoutIds: undefined }, card }, null, 2)}\n`);
   writeFileSync(join(s.out, 'MODEL_CARD.md'), renderBaseCard(facts));
   const total = ['config.json', 'model.safetensors', 'vocab.txt', 'MODEL_CARD.md', 'pretraining.json'].reduce((n, f) => n + statSync(join(s.out, f)).size, 0);
   log(`finish: wrote ${s.out} (model.safetensors ${(bytes.length / 1e6).toFixed(2)} MB, ${(total / 1e6).toFixed(2)} MB in all) from step ${meta.step}`);

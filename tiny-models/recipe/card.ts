@@ -33,31 +33,49 @@ export interface CardFacts {
   weightsBytes: number;
 }
 
+/** The second stage (span-pretrain.ts), when it ran: the folder then ships a trained span head. */
+export interface SpanStageFacts {
+  /** what the questions are and where they come from, one sentence */
+  method: string;
+  questions: number;
+  unanswerable: number;
+  updates: number;
+  windows: number;
+  minutes: number;
+  settings: { learningRate: number; batchSize: number; maxLength: number; stride: number; epochs: number };
+  heldOut: { questions: number; em: number | null; f1: number | null; answerableF1: number | null; unanswerableF1: number | null };
+}
+
 const f = (x: number, digits = 2) => (Number.isFinite(x) ? x.toFixed(digits) : 'n/a');
 const millions = (x: number) => `${(x / 1e6).toFixed(2)} M`;
 
-export function renderBaseCard(c: CardFacts): string {
+export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null): string {
   const { config: m, settings: s } = c;
   const out: string[] = [];
   out.push(`# Spanwright base reader (${c.preset}, uncased)`, '');
   out.push(
     `A tiny BERT-style encoder (post-LayerNorm, ${m.numLayers} layers, hidden ${m.hiddenSize}, ${m.numHeads} heads, feed-forward ${m.intermediateSize}, ` +
       `exact GELU, ${m.maxPositions} positions, vocabulary ${m.vocabSize}) pretrained from scratch on this machine with the masked-language-model ` +
-      'objective only (no next-sentence task). It is the starting point that Spanwright fine-tunes into an extractive question-answering reader; ' +
-      'it has **no trained span head** (`qa_outputs` is left out, so loading it says the head is initialised afresh), and it answers nothing until fine-tuned.',
+      'objective only (no next-sentence task)' +
+      (span === null
+        ? '. It is the starting point that Spanwright fine-tunes into an extractive question-answering reader; ' +
+          'it has **no trained span head** (`qa_outputs` is left out, so loading it says the head is initialised afresh), and it answers nothing until fine-tuned.'
+        : ', then given a span head trained on extractive questions made mechanically from WordNet (see "Span stage"). ' +
+          'It is the starting point that Spanwright fine-tunes into a reader for your domain; out of the box it answers only dictionary-style questions, and poorly.'),
     '',
   );
 
   out.push('## Files', '');
   out.push('| file | what |', '| --- | --- |');
-  out.push('| `config.json` | HF-style BERT config (`architectures: BertForMaskedLM`) |');
-  out.push(`| \`model.safetensors\` | encoder and MLM head weights, fp16, common BERT naming, ${f(c.weightsBytes / 1e6)} MB |`);
+  out.push(`| \`config.json\` | HF-style BERT config (\`architectures: ${span === null ? 'BertForMaskedLM' : 'BertForQuestionAnswering'}\`) |`);
+  out.push(`| \`model.safetensors\` | encoder, ${span === null ? '' : 'span head and '}MLM head weights, fp16, common BERT naming, ${f(c.weightsBytes / 1e6)} MB |`);
   out.push('| `vocab.txt` | the uncased WordPiece vocabulary, one token per line, id = line number − 1 |');
   out.push('| `pretraining.json` | the numbers of this card as data, with the run settings |');
+  if (span !== null) out.push('| `span-pretraining.json` | the span stage\'s numbers and settings |');
   out.push('');
 
   out.push('## Size', '');
-  out.push(`- Parameters: ${c.params.total.toLocaleString('en-US')} (encoder ${c.params.encoder.toLocaleString('en-US')}, MLM head ${c.params.mlmHead.toLocaleString('en-US')} with its decoder tied to the word embeddings; the ${c.params.spanHead} span-head parameters are not shipped).`);
+  out.push(`- Parameters: ${c.params.total.toLocaleString('en-US')} (encoder ${c.params.encoder.toLocaleString('en-US')}, MLM head ${c.params.mlmHead.toLocaleString('en-US')} with its decoder tied to the word embeddings; span head ${c.params.spanHead}${span === null ? ', not shipped' : ''}).`);
   out.push(`- On disk: ${f(c.weightsBytes / 1e6)} MB of fp16 weights.`, '');
 
   out.push('## Pretraining corpus and licences', '');
@@ -128,6 +146,27 @@ export function renderBaseCard(c: CardFacts): string {
   }
   out.push('');
 
+  if (span !== null) {
+    const h = span.heldOut;
+    const pc = (x: number | null) => (x === null ? 'n/a' : f(x, 1));
+    out.push('## Span stage', '');
+    out.push(
+      `After masked-LM pretraining, the encoder and a fresh span head were fine-tuned once through ${span.questions.toLocaleString('en-US')} questions ` +
+        `(${span.unanswerable.toLocaleString('en-US')} unanswerable) — ${span.method} ` +
+        'Training a reader on a labelled intermediate task before the target task is supplementary training (Phang et al. 2018, "Sentence Encoders on STILTs").',
+      '',
+    );
+    out.push(
+      `- ${span.updates.toLocaleString('en-US')} updates of ${span.settings.batchSize} windows of ${span.settings.maxLength} tokens (stride ${span.settings.stride}), ` +
+        `${span.windows.toLocaleString('en-US')} windows, peak learning rate ${span.settings.learningRate} with 10% warmup and linear decay, ${f(span.minutes, 1)} minutes, the project's own fine-tuning loop.`,
+    );
+    out.push(
+      `- Held-out entries (${h.questions} questions on WordNet entries never trained on), SQuAD 2.0 rules: EM ${pc(h.em)}, F1 ${pc(h.f1)} ` +
+        `(answerable F1 ${pc(h.answerableF1)}, unanswerable ${pc(h.unanswerableF1)}). Answering nothing would score ${f((100 * span.unanswerable) / span.questions, 1)}.`,
+      '',
+    );
+  }
+
   out.push('## Why this size', '');
   if (c.sizes !== null) {
     out.push(
@@ -161,7 +200,7 @@ export function renderBaseCard(c: CardFacts): string {
   out.push('## What it can and cannot do', '');
   out.push(
     '- Can: after fine-tuning, pick out short, literal answer spans (names, dates, numbers, short phrases) when the question shares words with the passage; run fast on a CPU, in a browser tab.',
-    '- Cannot: reason over several sentences, paraphrase, count, or compare reliably; it knows little vocabulary beyond 19th–21st-century American political prose, a 19th-century novel and dictionary glosses; it is English only and uncased; it was never trained on questions; the masked-word accuracy above is a rough measure of how much of the language it has absorbed.',
+    `- Cannot: reason over several sentences, paraphrase, count, or compare reliably; it knows little vocabulary beyond 19th–21st-century American political prose, a 19th-century novel and dictionary glosses; it is English only and uncased; ${span === null ? 'it was never trained on questions' : 'the only questions it was trained on are mechanical dictionary questions'}; the masked-word accuracy above is a rough measure of how much of the language it has absorbed.`,
     '',
   );
 
