@@ -208,7 +208,15 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null)
   out.push(`${CAUTION} This base model is not a source of facts: anything it extracts is text from your documents, possibly out of context.`, '');
 
   out.push('## Rebuilding', '');
-  out.push('`npm run build:base -- --minutes N` (re-runnable: it resumes from its newest checkpoint under `runs/base-build/`); `npm run build:base -- --finish` writes this folder from the newest checkpoint. The recipe is in `tiny-models/recipe/`.', '');
+  out.push(
+    '`npm run build:base -- --minutes N` (re-runnable: it resumes from its newest checkpoint under `runs/base-build/`); `npm run build:base -- --finish` writes this folder from the newest checkpoint. ' +
+      (c.initFrom === null
+        ? ''
+        : `This folder took two runs: a first one as above (${f(c.initFrom.trainingMinutes, 1)} minutes of training at peak learning rate ${c.initFrom.learningRate}, written with \`--finish\`), then \`--init FIRST_DIR --minutes ${s.minutes} --lr ${s.learningRate} --work OTHER_WORK_DIR\` from its folder. `) +
+      (span === null ? '' : 'The span stage: `npm run build:base:span -- --from DIR --out DIR`. ') +
+      'The recipe is in `tiny-models/recipe/`.',
+    '',
+  );
   return out.join('\n');
 }
 
