@@ -8,6 +8,7 @@
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
 import type { QARecord } from '../src/data/record.js';
+import { readerWarnings } from '../src/eval/reader-warnings.js';
 import type { SquadScores } from '../src/eval/squad-metric.js';
 import type { TrainConfig } from '../src/train/config.js';
 import type { BaseInfo, EvaluationResult, ModelChoice } from '../workers/protocol.js';
@@ -106,6 +107,11 @@ export class EvaluationScreen extends LitElement {
           <tr><th>EM at that threshold</th>${cols.map((r) => html`<td class="num">${r?.tuned ? pct(r.tuned.summary.em) : '–'}</td>`)}</tr>
         </tbody>
       </table>
+      ${tuned
+        ? readerWarnings(tuned.tuned?.summary ?? tuned.summary, base ? (base.tuned?.summary ?? base.summary) : null).map(
+            (w) => html`<p class="note warn reader-warning">${w.replace(/^warning: (.)/, (_, c: string) => c.toUpperCase())}</p>`,
+          )
+        : ''}
     </section>`;
   }
 

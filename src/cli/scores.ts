@@ -39,3 +39,4 @@ export function scoresTable(rows: ReadonlyArray<{ label: string; scores: SquadSc
   const foot = total ? `(${total.total} questions: ${total.answerable.total} answerable, ${total.unanswerable.total} unanswerable; no-ans = share of unanswerable questions answered with nothing, %)` : '';
   return [head, ...lines, foot].join('\n');
 }
+

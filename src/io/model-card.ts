@@ -4,6 +4,7 @@
 
 import type { ReaderConfig } from '../model/config.js';
 import type { SplitScores, SquadScores } from '../eval/squad-metric.js';
+import { readerWarnings } from '../eval/reader-warnings.js';
 import type { Int8TensorReport } from './int8.js';
 
 /** Shown on every card, and by the UI beside every answer. */
@@ -112,6 +113,8 @@ export function renderModelCard(info: ModelCardInfo): string {
     if (m.withThreshold) out.push(...scoreRows(`best threshold ${m.withThreshold.threshold.toFixed(3)}`, m.withThreshold));
     out.push('');
     if (m.withThreshold) out.push('The best threshold was chosen on the same validation questions, so its scores are optimistic for new questions.', '');
+    const scored = m.withThreshold ?? m.withoutThreshold;
+    if (scored) for (const w of readerWarnings(scored)) out.push(`**${w.replace(/^warning: /, 'Warning: ')}**`, '');
   } else {
     out.push('Not measured for this export.', '');
   }

@@ -123,5 +123,18 @@ describe('exportModel', () => {
     expect(card).toContain('`<name>.scale` is F32 `[rows]`');
     expect(card).toMatch(/\| `qa_outputs\.weight` \| 2×16 \|/);
     expect(card).toContain('EM/F1 of the int8 model on validation questions: not measured');
+    expect(card).not.toContain('Warning:');
+  });
+
+  it('the model card warns when the reader found almost no answerable answer', () => {
+    const weak = { ...scores(20, 20), answerable: { em: 0, f1: 1, total: 6 } };
+    const { files } = exportModel({
+      config,
+      tensors: weights(),
+      vocab: { file: 'vocab.txt', text: `${VOCAB.join('\n')}\n` },
+      card: { baseModel: 'tiny-models/base', date: '2025-01-02T03:04:05Z', metrics: { withoutThreshold: weak } },
+    });
+    const card = new TextDecoder().decode(files.find((f) => f.name === 'MODEL_CARD.md')!.bytes);
+    expect(card).toContain("**Warning: the reader found almost none of the 6 answerable questions' answers (answerable F1 1.0)");
   });
 });

@@ -6,6 +6,8 @@ import { access } from 'node:fs/promises';
 import { join } from 'node:path';
 import type { Command } from 'commander';
 import { UserError, printJson, runCommand } from '../common.js';
+import { CAUTION } from '../../io/model-card.js';
+import { readerWarnings } from '../../eval/reader-warnings.js';
 import { scoresObject, scoresTable } from '../scores.js';
 import { DEFAULT_BASE, configFromOptions, trainReader, type TrainOptions } from './train.js';
 
@@ -50,12 +52,16 @@ export function register(program: Command): void {
           { label: 'fine-tuned', scores: after.summary },
         ];
         if (after.tuned) rows.push({ label: `fine-tuned, threshold ${after.tuned.threshold.toFixed(2)}`, scores: after.tuned.summary });
-        process.stdout.write(`\nvalidation (${validation})\n${scoresTable(rows)}\n\n`);
+        process.stdout.write(`\nvalidation (${validation})\n${scoresTable(rows)}\n`);
+        const warnings = readerWarnings(after.tuned?.summary ?? after.summary, before.tuned?.summary ?? before.summary);
+        if (warnings.length > 0) warnings.push(`The base's card (${join(o.base, 'MODEL_CARD.md')}) says how it was measured.`);
+        process.stdout.write(`${warnings.map((w) => `${w}\n`).join('')}\n`);
         process.stdout.write(`${run.train.length} training questions, ${run.config.epochs} epochs, ${run.seconds.toFixed(0)} s in all\n`);
         process.stdout.write(`model directory: ${out}/\n`);
         for (const f of run.files) process.stdout.write(`  ${f.name.padEnd(24)} ${f.bytes.toLocaleString('en-US').padStart(12)} bytes\n`);
         process.stdout.write(`checkpoints:     ${out}/checkpoints/\n`);
         process.stdout.write(`try it:          npm run spanwright -- ask --model ${out} --passages ${DEMO}/passages.jsonl --question "…"\n`);
+        process.stdout.write(`\n${CAUTION}\n`);
       }),
     );
 }

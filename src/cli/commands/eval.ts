@@ -6,6 +6,7 @@ import type { Command } from 'commander';
 import { printJson, runCommand } from '../common.js';
 import { loadReader, loadRecords, startEngine, windowOptions } from '../model-dir.js';
 import { countProgress } from '../progress.js';
+import { readerWarnings } from '../../eval/reader-warnings.js';
 import { scoresObject, scoresTable } from '../scores.js';
 import { DEFAULT_FEATURE_OPTIONS } from '../../text/features.js';
 
@@ -61,6 +62,7 @@ export function register(program: Command): void {
         process.stdout.write(`${scoresTable(rows)}\n`);
         const c = report.counts;
         process.stdout.write(`outcomes: ${c.correct} correct, ${c.partial} partial, ${c['wrong-span']} wrong span, ${c['false-no-answer']} answered nothing wrongly, ${c['false-answer']} answered an unanswerable question\n`);
+        for (const w of readerWarnings(report.tuned?.summary ?? report.summary)) process.stdout.write(`${w}\n`);
       }),
     );
 

@@ -13,6 +13,7 @@ import type { Command } from 'commander';
 import { UserError, printJson, runCommand } from '../common.js';
 import { loadReader, loadRecords, startEngine, writeFilesAtomically } from '../model-dir.js';
 import { countProgress, trainingProgress } from '../progress.js';
+import { readerWarnings } from '../../eval/reader-warnings.js';
 import { scoresObject, scoresTable } from '../scores.js';
 import { hashDataset } from '../../data/hash.js';
 import type { QARecord } from '../../data/record.js';
@@ -274,6 +275,7 @@ Example:
         }
         if (run.after) process.stdout.write(`${scoresTable([{ label: 'trained', scores: run.after.summary }])}\n`);
         if (run.after?.tuned) process.stdout.write(`with the tuned no-answer threshold ${run.after.tuned.threshold.toFixed(2)}: EM ${run.after.tuned.summary.em?.toFixed(1)} F1 ${run.after.tuned.summary.f1?.toFixed(1)}\n`);
+        if (run.after) for (const w of readerWarnings(run.after.tuned?.summary ?? run.after.summary)) process.stdout.write(`${w}\n`);
         process.stdout.write(`model directory: ${run.out} (${run.files.map((f) => f.name).join(', ')}) in ${run.seconds.toFixed(0)} s\n`);
       }),
     );
