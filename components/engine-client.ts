@@ -19,6 +19,13 @@ export class EngineClient {
   constructor() {
     this.worker = new Worker(new URL('../workers/engine-worker.ts', import.meta.url), { type: 'module', name: 'spanwright-engine' });
     this.worker.onmessage = (e: MessageEvent<WorkerMessage>) => this.receive(e.data);
+    // A reload or navigation away ends the worker at once rather than leaving the browser
+    // to tear it down: a checkpoint save it had in flight then aborts promptly instead of
+    // holding up the next page's checkpoint load (DEVELOPERS.md, "Known problems").
+    // A page kept in the back/forward cache (persisted) keeps its engine.
+    window.addEventListener('pagehide', (e: PageTransitionEvent) => {
+      if (!e.persisted) this.worker.terminate();
+    });
     this.worker.onerror = (e: ErrorEvent) => {
       const error = new Error(`the engine worker failed: ${e.message || 'it could not start'}`);
       for (const p of this.pending.values()) p.reject(error);
