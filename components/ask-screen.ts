@@ -89,12 +89,13 @@ export class AskScreen extends LitElement {
             ${r.answers.map(
               (a) => html`<li>
                 <span class="answer-text">${a.text}</span>
-                <span class="muted scores">— passage ${a.passageId}; reader ${a.readerScore.toFixed(2)}, BM25 ${a.retrieverScore.toFixed(2)}, combined ${a.combinedScore.toFixed(2)}</span>
+                <span class="muted scores">— passage ${a.passageId}; reader ${a.readerScore.toFixed(2)}${a.retrieverScore === null ? '' : html`, BM25 ${a.retrieverScore.toFixed(2)}, combined ${a.combinedScore.toFixed(2)}`}</span>
                 <marked-passage .text=${a.context} .marks=${[{ start: a.start, end: a.end, kind: 'guess' as const }]}></marked-passage>
               </li>`,
             )}
           </ol>`}
-      <p class="muted">Passages read: ${r.retrieved.map((h) => `${h.passageId} (${h.score.toFixed(2)})`).join(', ')}</p>
+      <p class="muted">Passages read: ${r.retrieved.map((h) => (h.score === null ? h.passageId : `${h.passageId} (${h.score.toFixed(2)})`)).join(', ')}</p>
+      <p class="muted score-help">Reader: the start + end logit of the span (higher is surer). BM25: how well the passage's words match the question. Combined: both scaled to 0–1 over these answers and averaged.</p>
     </section>`;
   }
 

@@ -65,7 +65,7 @@ export class EvaluationScreen extends LitElement {
 
   @state() private busy = '';
   @state() private error = '';
-  @state() private shown: ModelChoice = 'tuned';
+  @state() private shown: 'base' | 'tuned' = 'tuned';
   @state() private missesOnly = false;
 
   override render() {
@@ -123,7 +123,7 @@ export class EvaluationScreen extends LitElement {
       <h3>Question by question</h3>
       <div class="row">
         <label>Reader
-          <select @change=${(e: Event) => (this.shown = (e.target as HTMLSelectElement).value as ModelChoice)}>
+          <select @change=${(e: Event) => (this.shown = (e.target as HTMLSelectElement).value as 'base' | 'tuned')}>
             <option value="tuned" ?selected=${result.model === 'tuned'} ?disabled=${!this.results.tuned}>fine-tuned</option>
             <option value="base" ?selected=${result.model === 'base'}>base</option>
           </select>

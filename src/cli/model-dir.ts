@@ -88,21 +88,3 @@ export async function startEngine(): Promise<typeof import('@tensorflow/tfjs')> 
   }
   return tf;
 }
-
-/**
- * Window settings for reading with a model: the asked max length (capped at the model's
- * positions), the stride, and at most a third of the window for the question.
- */
-export function windowOptions(maxLen: number, stride: number, maxPositions: number, log: (line: string) => void) {
-  if (!Number.isInteger(maxLen) || maxLen < 8) throw new UserError(`--max-len must be a whole number of at least 8, not ${maxLen}`);
-  if (!Number.isInteger(stride) || stride < 0) throw new UserError(`--stride must be a whole number, not ${stride}`);
-  let len = maxLen;
-  if (len > maxPositions) {
-    log(`note: the model has ${maxPositions} positions; windows are ${maxPositions} tokens, not ${maxLen}`);
-    len = maxPositions;
-  }
-  const maxQueryTokens = Math.min(64, Math.floor(len / 3));
-  const room = len - maxQueryTokens - 3;
-  if (stride >= room) throw new UserError(`--stride ${stride} must be below the ${room} context tokens a ${len}-token window holds`);
-  return { maxLen: len, stride, maxQueryTokens };
-}

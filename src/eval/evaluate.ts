@@ -98,7 +98,7 @@ export interface PredictOptions {
 
 /** Answers for records: windows, logits, decoding. */
 export function predictRecords(reader: ReaderParts, records: readonly QARecord[], options: PredictOptions = {}): Decoded & { windows: number } {
-  const windows = options.windows ?? buildWindows(reader.tokenizer, records, options.features);
+  const windows = options.windows ?? readerWindows(reader, records, options.features);
   const logits = readerLogits(reader.params, reader.config, windows, { batchSize: options.batchSize, onProgress: options.onProgress });
   return { ...predictAll(records, windows, logits, options.decode), windows: windows.length };
 }
@@ -107,6 +107,11 @@ export function predictRecords(reader: ReaderParts, records: readonly QARecord[]
 export function buildWindows(tokenizer: FeatureTokenizer, records: readonly QARecord[], options: Partial<FeatureOptions> = {}): Feature[] {
   const builder = new FeatureBuilder(tokenizer, options);
   return records.flatMap((r) => builder.build(r).features);
+}
+
+/** Every window of every record as this reader reads them: with its question-match token types when its config has them. */
+export function readerWindows(reader: Pick<ReaderParts, 'config' | 'tokenizer'>, records: readonly QARecord[], options: Partial<FeatureOptions> = {}): Feature[] {
+  return buildWindows(reader.tokenizer, records, { ...options, questionMatch: reader.config.questionMatch });
 }
 
 /** The SQuAD 2.0 report of the reader on labelled records, with the tuned threshold. */

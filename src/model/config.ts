@@ -36,6 +36,15 @@ export interface ReaderConfig {
   activation: Activation;
   /** σ of the truncated-normal initialisation (cut at ±2σ) */
   initStd: number;
+  /**
+   * Context words that also occur in the question get token type 2 instead of 1 (needs
+   * typeVocabSize ≥ 3): the exact-match feature of DrQA (Chen et al. 2017, "Reading
+   * Wikipedia to Answer Open-Domain Questions"), carried in BERT's own token-type input so
+   * the architecture, the checkpoint naming and the ONNX graph stay BERT's.
+   * config.json: "spanwright_question_match". src/text/features.ts computes it. Absent
+   * (as in configs saved before it existed) means off.
+   */
+  questionMatch?: boolean;
 }
 
 /** BERT-base's values (Devlin et al. 2019, and its published `config.json`). */
@@ -52,6 +61,7 @@ export const DEFAULT_CONFIG: ReaderConfig = {
   layerNormEps: 1e-12, // BERT's published config.json
   activation: 'gelu', // exact GELU, as BERT
   initStd: 0.02, // BERT's initializer_range
+  // questionMatch absent: off, plain BERT inputs, as every checkpoint from elsewhere expects
 };
 
 export type PresetName = 'tiny' | 'small';
@@ -99,6 +109,10 @@ export function validateConfig(config: ReaderConfig, source = 'config'): void {
   if (config.activation !== 'gelu' && config.activation !== 'gelu_sigmoid') {
     problems.push(`activation must be "gelu" or "gelu_sigmoid", got ${JSON.stringify(config.activation)}`);
   }
+  if (config.questionMatch !== undefined && typeof config.questionMatch !== 'boolean') problems.push(`questionMatch must be true or false, got ${JSON.stringify(config.questionMatch)}`);
+  else if (config.questionMatch && config.typeVocabSize < 3) {
+    problems.push(`questionMatch needs typeVocabSize of at least 3 (type 2 marks context words found in the question), got ${config.typeVocabSize}`);
+  }
   if (Number.isInteger(config.hiddenSize) && Number.isInteger(config.numHeads) && config.numHeads > 0 && config.hiddenSize % config.numHeads !== 0) {
     problems.push(`hiddenSize (${config.hiddenSize}) must be a multiple of numHeads (${config.numHeads})`);
   }
@@ -140,6 +154,8 @@ export function configFromHf(json: unknown, file = 'config.json'): ReaderConfig 
     }
     activation = found;
   }
+  const match = o.spanwright_question_match;
+  if (match !== undefined && typeof match !== 'boolean') throw new Error(`${file}: "spanwright_question_match" must be true or false, got ${JSON.stringify(match)}`);
   const config: ReaderConfig = {
     vocabSize: required('vocab_size'),
     hiddenSize: required('hidden_size'),
@@ -153,6 +169,7 @@ export function configFromHf(json: unknown, file = 'config.json'): ReaderConfig 
     layerNormEps: optional('layer_norm_eps', DEFAULT_CONFIG.layerNormEps),
     activation,
     initStd: optional('initializer_range', DEFAULT_CONFIG.initStd),
+    ...(match === true ? { questionMatch: true } : {}),
   };
   validateConfig(config, file);
   return config;
@@ -176,6 +193,8 @@ export function configToHf(config: ReaderConfig): Record<string, unknown> {
     hidden_act: config.activation === 'gelu' ? 'gelu' : 'quick_gelu',
     initializer_range: config.initStd,
     position_embedding_type: 'absolute',
+    // written only when on, so a plain BERT config stays plain
+    ...(config.questionMatch ? { spanwright_question_match: true } : {}),
   };
 }
 

@@ -22,6 +22,14 @@ export interface FeatureOptions {
   stride: number;
   /** longer questions keep their first maxQueryTokens tokens; 64 as in BERT's SQuAD runs */
   maxQueryTokens: number;
+  /**
+   * Context tokens of a word that the question also holds get token type 2 (the reader's
+   * `questionMatch`, src/model/config.ts). A word is a run of tokens with no character
+   * between them and letters or digits on both sides of every join; two words match when
+   * their token ids are the same, so matching follows the tokenizer's own normalisation
+   * (lower case and no accents for an uncased vocabulary).
+   */
+  questionMatch?: boolean;
 }
 
 export const DEFAULT_FEATURE_OPTIONS: Readonly<FeatureOptions> = { maxLen: 384, stride: 128, maxQueryTokens: 64 };
@@ -128,11 +136,14 @@ export class FeatureBuilder {
     const n = ctx.ids.length;
 
     // 1. the question, truncated to maxQueryTokens
-    let qIds = tok.encodeFlat(record.question).ids;
+    const qEnc = tok.encodeFlat(record.question);
+    let qIds = qEnc.ids;
     if (qIds.length > maxQueryTokens) {
       warnings.push(`record "${record.id}": the question has ${qIds.length} tokens; only the first ${maxQueryTokens} are kept`);
       qIds = qIds.subarray(0, maxQueryTokens);
     }
+    // which context tokens belong to a word the (kept) question holds
+    const matched = this.options.questionMatch ? matchedTokens(ctx, record.context, wordKeys(qEnc, record.question, qIds.length)) : null;
     const q = qIds.length;
     const room = maxLen - q - 3;
 
@@ -179,6 +190,7 @@ export class FeatureBuilder {
       const end = base + (to - from); // position of the final [SEP]
       inputIds[end] = tok.sepId;
       tokenTypeIds.fill(1, base, end + 1);
+      if (matched) for (let k = from; k < to; k++) if (matched[k]) tokenTypeIds[base + k - from] = 2;
       attentionMask.fill(1, 0, end + 1);
       for (let k = from; k < to; k++) {
         offsets[2 * (base + k - from)] = ctx.starts[k]!;
@@ -196,6 +208,38 @@ export class FeatureBuilder {
     if (aStart >= 0 && !held) answerLost = true;
     return { features, warnings, answerLost, boundaryMismatch };
   }
+}
+
+/** Word ranges [first, last) of an encoding: tokens joined with no gap between letters or digits. */
+function wordRanges(enc: FlatEncoding, text: string, count = enc.ids.length): Array<[number, number]> {
+  const out: Array<[number, number]> = [];
+  const alnum = (i: number) => i >= 0 && i < text.length && /[\p{L}\p{N}]/u.test(text[i]!);
+  let first = 0;
+  for (let k = 1; k <= count; k++) {
+    const joins = k < count && enc.starts[k] === enc.ends[k - 1] && alnum(enc.starts[k]! - 1) && alnum(enc.starts[k]!);
+    if (!joins) {
+      out.push([first, k]);
+      first = k;
+    }
+  }
+  return out;
+}
+
+const keyOf = (ids: Int32Array, [first, last]: [number, number]) => Array.from(ids.subarray(first, last)).join(',');
+
+/** The token-id keys of the first `count` tokens' words (a word cut by the count is left out). */
+function wordKeys(enc: FlatEncoding, text: string, count: number): Set<string> {
+  const keys = new Set<string>();
+  for (const range of wordRanges(enc, text)) if (range[1] <= count) keys.add(keyOf(enc.ids, range));
+  return keys;
+}
+
+/** Per context token: 1 when its word's key is among `keys`. */
+function matchedTokens(ctx: FlatEncoding, text: string, keys: Set<string>): Uint8Array {
+  const out = new Uint8Array(ctx.ids.length);
+  if (keys.size === 0) return out;
+  for (const range of wordRanges(ctx, text)) if (keys.has(keyOf(ctx.ids, range))) out.fill(1, range[0], range[1]);
+  return out;
 }
 
 /** The first k with ends[k] > pos (token ends never decrease), or -1. */

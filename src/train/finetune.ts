@@ -9,6 +9,7 @@
 //                   records (src/eval/evaluate.ts) and `saveCheckpoint` = the store
 //   5. prune        keep the best checkpoint by validation F1 and the last two
 
+import { mulberry32 } from '../data/random.js';
 import type { QARecord } from '../data/record.js';
 import { evaluateRecords } from '../eval/evaluate.js';
 import type { Checkpoint, CheckpointMeta, CheckpointStore } from '../io/checkpoint-store.js';
@@ -28,6 +29,8 @@ export interface RunMeta extends CheckpointMeta {
   /** AdamW's per-parameter step counts (the moments are tensors) */
   optimizerSteps: Record<string, number>;
   runConfig: { train: TrainConfig; model: ReaderConfig; base: string };
+  /** which stage saved it: fine-tuning on labelled questions (absent in older checkpoints) or the practice stage */
+  stage?: 'fine-tune' | 'practice';
 }
 
 export interface FineTuneRequest {
@@ -46,6 +49,16 @@ export interface FineTuneRequest {
   hooks?: Pick<LoopHooks, 'onEvent' | 'signal' | 'shouldStop' | 'yieldToEvents'>;
   /** windows per forward pass when evaluating */
   evalBatchSize?: number;
+  /**
+   * Train on every window that holds an answer but only this share of the others
+   * (seeded by the run seed); unset keeps every window. For practice questions over long
+   * passages, whose windows without the answer would otherwise be most of the work.
+   */
+  noAnswerWindowShare?: number;
+  /** which stage this run is, for its checkpoints' meta (default 'fine-tune') */
+  stage?: 'fine-tune' | 'practice';
+  /** told the id of every checkpoint saved */
+  onCheckpoint?: (id: string) => void;
 }
 
 export interface FineTuneResult {
@@ -70,9 +83,15 @@ export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
     maxLen: config.maxLength,
     stride: config.stride,
     maxQueryTokens: config.maxQueryLength,
+    questionMatch: req.base.config.questionMatch,
   });
-  const features = req.train.flatMap((r) => builder.build(r).features);
+  let features = req.train.flatMap((r) => builder.build(r).features);
   builder.clearCache();
+  if (req.noAnswerWindowShare !== undefined) {
+    const keep = mulberry32(config.seed ^ 0x5a17);
+    const share = req.noAnswerWindowShare;
+    features = features.filter((f) => f.startPosition > 0 || keep() < share);
+  }
   if (features.length === 0) throw new Error('fine-tuning needs at least one training question');
   const validationWindows = req.validation
     ? req.validation.flatMap((r) => new FeatureBuilder(req.tokenizer, builder.options).build(r).features)
@@ -142,9 +161,11 @@ export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
           label: request.reason,
           run: request.state,
           optimizerSteps: opt.steps,
+          stage: req.stage ?? 'fine-tune',
         };
         const ckpt: Checkpoint<RunMeta> = { meta, tensors };
-        await store.save(ckpt);
+        const saved = await store.save(ckpt);
+        req.onCheckpoint?.(saved.id);
         // 5. prune
         await store.prune({ keepBest: 1, keepLast: 2 });
       }

@@ -6,7 +6,7 @@ import { readdir, stat } from 'node:fs/promises';
 import { basename, join } from 'node:path';
 import type { Command } from 'commander';
 import { UserError, printJson, readBytes, runCommand } from '../common.js';
-import { loadReader, startEngine, windowOptions } from '../model-dir.js';
+import { readModelDir, startEngine } from '../model-dir.js';
 import { decodeText } from '../../data/decode.js';
 import type { Passage } from '../../retrieve/bm25.js';
 import { CAUTION } from '../../io/model-card.js';
@@ -89,52 +89,36 @@ export function register(program: Command): void {
         if (!(w >= 0 && w <= 1)) throw new UserError(`--retriever-weight must be between 0 and 1, not "${o.retrieverWeight}"`);
         if (o.question.trim() === '') throw new UserError('--question is empty');
         const passages = await readPassages(o.passages);
-        const { Bm25Index } = await import('../../retrieve/bm25.js');
-        const { combineScores } = await import('../../retrieve/combine.js');
-        const hits = new Bm25Index(passages).search(o.question, k);
-        if (hits.length === 0) {
+        await startEngine();
+        const { ReaderSession } = await import('../../session/reader-session.js');
+        const session = new ReaderSession();
+        const files = await readModelDir(o.model);
+        let result;
+        try {
+          session.loadBase({ name: o.model, files, names: files.names as { config: string; weights: string; vocab: string } });
+          result = session.ask({ model: 'base', question: o.question, passages, topPassages: k, topAnswers: top, retrieverWeight: w });
+        } catch (err) {
+          throw new UserError((err as Error).message);
+        } finally {
+          session.dispose();
+        }
+        if (result.retrieved.length === 0) {
           if (o.json) return printJson({ question: o.question, answers: [] });
           process.stdout.write('no passage shares a word with the question\n');
           return;
         }
-        await startEngine();
-        const { predictRecords } = await import('../../eval/evaluate.js');
-        const reader = await loadReader(o.model);
         const byId = new Map(passages.map((p) => [p.id, p]));
-        const records = hits.map((h) => ({
-          id: h.passageId,
-          passageId: h.passageId,
-          context: byId.get(h.passageId)!.text,
-          question: o.question,
-          answers: [],
-          unanswerable: false,
-        }));
-        const decoded = predictRecords({ params: reader.params, config: reader.config, tokenizer: reader.tokenizer }, records, {
-          decode: { nBest: 5 },
-          features: windowOptions(Math.min(384, reader.config.maxPositions), Math.min(128, Math.floor(reader.config.maxPositions / 4)), reader.config.maxPositions, () => undefined),
-        });
-        reader.params.dispose();
-        const candidates = hits.flatMap((h) =>
-          (decoded.decodings.get(h.passageId)?.nBest ?? []).slice(0, 2).map((c) => ({
-            passageId: h.passageId,
-            text: c.text,
-            charStart: c.charStart,
-            charEnd: c.charEnd,
-            readerScore: c.score,
-            retrieverScore: h.score,
-            noAnswerMargin: decoded.scoreDiffs[h.passageId]!,
-          })),
-        );
-        const ranked = combineScores(candidates, { retrieverWeight: w }).slice(0, top);
+        const ranked = result.answers.map((a) => ({ ...a, charStart: a.contextStart + a.start, charEnd: a.contextStart + a.end }));
         if (o.json) return printJson({ question: o.question, answers: ranked, caution: CAUTION });
         const tty = process.stdout.isTTY === true;
         const mark = (s: string) => (tty ? `\x1b[1;4m${s}\x1b[0m` : `[[${s}]]`);
         ranked.forEach((a, i) => {
           process.stdout.write(`${i + 1}. ${a.text}\n`);
-          process.stdout.write(`   passage ${a.passageId} | reader ${a.readerScore.toFixed(2)} | retriever ${a.retrieverScore.toFixed(2)} | combined ${a.combinedScore.toFixed(3)}` +
+          process.stdout.write(`   passage ${a.passageId} | reader ${a.readerScore.toFixed(2)}` + (a.retrieverScore === null ? '' : ` | retriever ${a.retrieverScore.toFixed(2)} | combined ${a.combinedScore.toFixed(3)}`) +
             (a.noAnswerMargin > 0 ? ' | the reader leans towards "no answer here"' : '') + '\n');
           process.stdout.write(`   ${inSentence(byId.get(a.passageId)!.text, a.charStart, a.charEnd, mark)}\n`);
         });
+        process.stdout.write('\nreader: start + end logit of the span; retriever: BM25 match of the passage to the question; combined: both scaled to 0–1 over these answers, weighted by --retriever-weight\n');
         process.stdout.write(`\n${CAUTION}\n`);
       }),
     );

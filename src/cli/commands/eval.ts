@@ -3,12 +3,12 @@
 // threshold), or the id → answer map that `score` reads.
 import { writeFile } from 'node:fs/promises';
 import type { Command } from 'commander';
-import { printJson, runCommand } from '../common.js';
-import { loadReader, loadRecords, startEngine, windowOptions } from '../model-dir.js';
+import { UserError, printJson, runCommand } from '../common.js';
+import { loadRecords, readModelDir, startEngine } from '../model-dir.js';
 import { countProgress } from '../progress.js';
 import { readerWarnings } from '../../eval/reader-warnings.js';
 import { scoresObject, scoresTable } from '../scores.js';
-import { DEFAULT_FEATURE_OPTIONS } from '../../text/features.js';
+import { DEFAULT_WINDOWS } from '../../session/windows.js';
 
 interface ReadOptions {
   model: string;
@@ -23,29 +23,40 @@ interface ReadOptions {
 
 const log = (line: string) => process.stderr.write(`${line}\n`);
 
-async function read(o: ReadOptions) {
+/** A session holding the model directory as its base reader, and the question file's records. */
+async function open(o: ReadOptions) {
   await startEngine();
-  const { predictRecords } = await import('../../eval/evaluate.js');
-  const reader = await loadReader(o.model);
-  for (const n of reader.report.notices) log(`note: ${n}`);
+  const { ReaderSession } = await import('../../session/reader-session.js');
+  const session = new ReaderSession();
+  const files = await readModelDir(o.model);
+  try {
+    for (const n of session.loadBase({ name: o.model, files, names: files.names as { config: string; weights: string; vocab: string } }).notices) log(`note: ${n}`);
+  } catch (err) {
+    throw new UserError((err as Error).message);
+  }
   const records = await loadRecords(o.data, log);
-  const bar = countProgress('reading');
-  const decoded = predictRecords({ params: reader.params, config: reader.config, tokenizer: reader.tokenizer }, records, {
-    features: windowOptions(Number(o.maxLen), Number(o.stride), reader.config.maxPositions, log),
-    decode: o.threshold !== undefined ? { nullThreshold: Number(o.threshold) } : {},
-    onProgress: bar.update,
-  });
-  bar.stop();
-  reader.params.dispose();
-  return { records, decoded };
+  const windows = { maxLength: whole('max-len', o.maxLen), stride: whole('stride', o.stride) };
+  try {
+    session.windows(windows, session.base, (note) => log(`note: ${note}`));
+  } catch (err) {
+    throw new UserError((err as Error).message.replace(/^maxLength/, '--max-len').replace(/^stride/, '--stride'));
+  }
+  return { session, records, windows };
+}
+
+function whole(name: string, v: string | undefined): number | undefined {
+  if (v === undefined) return undefined;
+  const n = Number(v);
+  if (!Number.isInteger(n) || n < 0) throw new UserError(`--${name} must be a whole number, not "${v}"`);
+  return n;
 }
 
 function common(cmd: Command): Command {
   return cmd
     .requiredOption('--model <dir>', 'a model directory: config.json, model.safetensors, vocab.txt or tokenizer.json')
     .requiredOption('--data <file>', 'questions (SQuAD JSON layout, JSONL or CSV)')
-    .option('--max-len <n>', 'tokens per window', String(DEFAULT_FEATURE_OPTIONS.maxLen))
-    .option('--stride <n>', 'context tokens shared by neighbouring windows', String(DEFAULT_FEATURE_OPTIONS.stride));
+    .option('--max-len <n>', `tokens per window (default ${DEFAULT_WINDOWS.maxLength}, or the model's positions if fewer)`)
+    .option('--stride <n>', `context tokens shared by neighbouring windows (default ${DEFAULT_WINDOWS.stride}, less for short windows)`);
 }
 
 export function register(program: Command): void {
@@ -53,9 +64,15 @@ export function register(program: Command): void {
     .option('--json', 'print one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, tuned}')
     .action((o: ReadOptions) =>
       runCommand(async () => {
-        const { buildReport, questionsFromRecords } = await import('../../eval/report.js');
-        const { records, decoded } = await read(o);
-        const report = buildReport(questionsFromRecords(records), decoded.predictions, { bestSpans: decoded.bestSpans, scoreDiffs: decoded.scoreDiffs });
+        const { session, records, windows } = await open(o);
+        const bar = countProgress('reading');
+        let report;
+        try {
+          report = session.evaluate({ model: 'base', records, ...windows, onProgress: bar.update });
+        } finally {
+          bar.stop();
+          session.dispose();
+        }
         if (o.json) return printJson(scoresObject(report));
         const rows = [{ label: 'threshold 0', scores: report.summary }];
         if (report.tuned) rows.push({ label: `tuned ${report.tuned.threshold.toFixed(2)}`, scores: report.tuned.summary });
@@ -72,7 +89,15 @@ export function register(program: Command): void {
     .option('--threshold <x>', 'answer nothing when the null score beats the best span by more than this', '0')
     .action((o: ReadOptions) =>
       runCommand(async () => {
-        const { decoded } = await read(o);
+        const { session, records, windows } = await open(o);
+        const bar = countProgress('reading');
+        let decoded;
+        try {
+          decoded = session.predict({ model: 'base', records, ...windows, nullThreshold: o.threshold !== undefined ? Number(o.threshold) : undefined, onProgress: bar.update });
+        } finally {
+          bar.stop();
+          session.dispose();
+        }
         await writeFile(o.out!, `${JSON.stringify(decoded.predictions, null, 1)}\n`);
         if (o.naProb) await writeFile(o.naProb, `${JSON.stringify(decoded.scoreDiffs, null, 1)}\n`);
         const n = Object.keys(decoded.predictions).length;

@@ -11,7 +11,7 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Command } from 'commander';
 import { UserError, printJson, runCommand } from '../common.js';
-import { loadReader, loadRecords, startEngine, writeFilesAtomically } from '../model-dir.js';
+import { loadRecords, readModelDir, startEngine, writeFilesAtomically } from '../model-dir.js';
 import { countProgress, trainingProgress } from '../progress.js';
 import { readerWarnings } from '../../eval/reader-warnings.js';
 import { scoresObject, scoresTable } from '../scores.js';
@@ -19,7 +19,9 @@ import { hashDataset } from '../../data/hash.js';
 import type { QARecord } from '../../data/record.js';
 import { DEFAULT_TRAIN_CONFIG, suggestedLearningRate, trainConfig, type TrainConfig } from '../../train/config.js';
 import { configFromHf } from '../../model/config.js';
-import type { EvaluationReport } from '../../eval/report.js';
+import type { PracticeOptions, PracticePassage } from '../../practice/generate.js';
+import type { EvaluationResult } from '../../session/types.js';
+import type { RunMeta } from '../../train/finetune.js';
 
 export const DEFAULT_BASE = 'tiny-models/base';
 
@@ -104,135 +106,150 @@ export interface TrainRun {
   config: TrainConfig;
   train: QARecord[];
   evalRecords: QARecord[] | null;
-  before: EvaluationReport | null;
-  after: EvaluationReport | null;
+  before: EvaluationResult | null;
+  after: EvaluationResult | null;
+  /** the practice stage, when it ran */
+  practice: { questions: number; updates: number; seconds: number; afterPractice: EvaluationResult | null } | null;
   out: string;
   files: Array<{ name: string; bytes: number }>;
   seconds: number;
 }
 
-/** Steps 1–4; `log` takes human-readable lines (stderr). */
+/** The practice stage of a training run: where its passages come from and how long it trains. */
+export interface PracticeStep {
+  passages: PracticePassage[];
+  /** a name for the passages in messages ("the training questions' passages", a file) */
+  source: string;
+  config: TrainConfig;
+  questions?: Partial<PracticeOptions>;
+  questionMatch: boolean;
+  /** also score the reader after the practice stage alone */
+  measure?: boolean;
+}
+
+/** Steps 1–4 on one ReaderSession (src/session); `log` takes human-readable lines (stderr). */
 export async function trainReader(
-  o: { train: string; eval?: string; base: string; out: string; resume?: boolean; measureBase?: boolean; int8?: boolean; onnx?: boolean },
+  o: { train: string; eval?: string; base: string; out: string; resume?: boolean; measureBase?: boolean; int8?: boolean; onnx?: boolean; practice?: PracticeStep },
   config: TrainConfig,
   log: (line: string) => void,
 ): Promise<TrainRun> {
   const started = performance.now();
-  // 1. load
   await startEngine();
-  const { fineTune } = await import('../../train/finetune.js');
-  const { evaluateRecords } = await import('../../eval/evaluate.js');
-  const { exportModel } = await import('../../io/export.js');
-  const { quantizeModel } = await import('../../io/int8.js');
-  const { int8AccuracyCost } = await import('../../io/int8-check.js');
+  const { ReaderSession } = await import('../../session/reader-session.js');
   const { FsCheckpointStore } = await import('../fs-store.js');
-  const base = await loadReader(o.base);
-  for (const n of base.report.notices) log(`note: ${n}`);
-  if (config.maxLength > base.config.maxPositions) {
-    throw new UserError(`--max-len ${config.maxLength} exceeds the ${base.config.maxPositions} positions of ${o.base} (max_position_embeddings)`);
+  const session = new ReaderSession(new FsCheckpointStore<RunMeta>(join(o.out, 'checkpoints')));
+  // 1. load
+  const files = await readModelDir(o.base);
+  let info;
+  try {
+    info = session.loadBase({ name: o.base, files, names: files.names! as { config: string; weights: string; vocab: string } });
+  } catch (err) {
+    throw new UserError((err as Error).message);
+  }
+  for (const n of info.notices) log(`note: ${n}`);
+  if (config.maxLength > info.config.maxPositions) {
+    throw new UserError(`--max-len ${config.maxLength} exceeds the ${info.config.maxPositions} positions of ${o.base} (max_position_embeddings)`);
   }
   const train = await loadRecords(o.train, log);
   const evalRecords = o.eval ? await loadRecords(o.eval, log) : null;
   const datasetHash = await hashDataset(train);
-  const featureOptions = { maxLen: config.maxLength, stride: config.stride, maxQueryTokens: config.maxQueryLength };
-  const reader = (params: typeof base.params) => ({ params, config: base.config, tokenizer: base.tokenizer });
-  const evaluate = (label: string, params: typeof base.params) => {
+  const windows = { maxLength: config.maxLength, stride: config.stride, maxQueryLength: config.maxQueryLength };
+  const evaluate = (label: string, model: 'base' | 'start' | 'tuned') => {
     const bar = countProgress(label);
     try {
-      return evaluateRecords(reader(params), evalRecords!, { features: featureOptions, onProgress: bar.update }).report;
+      return session.evaluate({ model, records: evalRecords!, ...windows, onProgress: bar.update });
     } finally {
       bar.stop();
     }
   };
-
-  const before = evalRecords && o.measureBase ? evaluate('evaluating the base', base.params) : null;
-
-  // 2. train
-  const store = new FsCheckpointStore<import('../../train/finetune.js').RunMeta>(join(o.out, 'checkpoints'));
-  let resumeFrom: string | undefined;
-  if (o.resume) {
-    const saved = (await store.list()).filter((c) => c.meta.datasetHash === datasetHash);
-    const last = saved[saved.length - 1];
-    if (last === undefined) throw new UserError(`${join(o.out, 'checkpoints')}: no checkpoint of this training data to resume from`);
-    resumeFrom = last.id;
-    log(`resuming from checkpoint ${last.id} (update ${last.meta.step})`);
-  }
-  const progress = trainingProgress();
   const abort = new AbortController();
   const onSigint = () => {
     log('\nstopping after this update; the run can continue with --resume');
     abort.abort();
   };
   process.once('SIGINT', onSigint);
-  let result;
   try {
-    result = await fineTune({
-      base: { params: base.params, config: base.config, name: o.base },
-      tokenizer: base.tokenizer,
-      train,
-      validation: evalRecords ?? undefined,
-      config,
-      datasetHash,
-      store,
-      resumeFrom,
-      hooks: { onEvent: progress.onEvent, signal: abort.signal },
+    const before = evalRecords && o.measureBase ? evaluate('evaluating the base', 'base') : null;
+
+    // 2a. the practice stage, from the user's passages
+    let practice: TrainRun['practice'] = null;
+    if (o.practice) {
+      const p = o.practice;
+      const t0 = performance.now();
+      const preview = session.previewPractice({ passages: p.passages, questions: p.questions, sample: 0 });
+      log(`practice: ${preview.questions} questions (${preview.unanswerable} without an answer) written from ${preview.passages} passages of ${p.source}`);
+      const hash = `practice:${await hashDataset(train)}:${p.passages.length}:${JSON.stringify(p.questions ?? {})}`;
+      const resumeFrom = o.resume ? (await session.latestCheckpoint({ datasetHash: hash, stage: 'practice' }))?.id : undefined;
+      const progress = trainingProgress('practice');
+      let ended;
+      try {
+        ended = await session.practice({ runId: 'practice', passages: p.passages, questions: p.questions, config: p.config, questionMatch: p.questionMatch, datasetHash: hash, resumeFrom, onEvent: progress.onEvent, signal: abort.signal });
+      } finally {
+        progress.stop();
+      }
+      if (ended.status === 'stopped') throw new UserError(`stopped in the practice stage at update ${ended.update}; continue with the same command and --resume`, 130);
+      const afterPractice = evalRecords && p.measure ? evaluate('evaluating after practice', 'start') : null;
+      practice = { questions: ended.questions, updates: ended.totalUpdates, seconds: (performance.now() - t0) / 1000, afterPractice };
+    }
+
+    // 2b. fine-tuning, resumed from the newest checkpoint of this data when asked
+    let resumeFrom: string | undefined;
+    if (o.resume) {
+      const last = await session.latestCheckpoint({ datasetHash });
+      if (last === null) {
+        if (!o.practice) throw new UserError(`${join(o.out, 'checkpoints')}: no checkpoint of this training data to resume from`);
+      } else {
+        resumeFrom = last.id;
+        log(`resuming from checkpoint ${last.id} (update ${last.meta.step})`);
+      }
+    }
+    const progress = trainingProgress();
+    let ended;
+    try {
+      ended = await session.fineTune({ runId: 'train', train, validation: evalRecords ?? [], config, datasetHash, resumeFrom, onEvent: progress.onEvent, signal: abort.signal });
+    } finally {
+      progress.stop();
+    }
+    if (ended.status === 'stopped') throw new UserError(`stopped at update ${ended.update}; continue with the same command and --resume`, 130);
+
+    // 3. measure
+    const after = evalRecords ? evaluate('evaluating the trained reader', 'tuned') : null;
+
+    // 4. write
+    const { files: out } = session.exportReader({
+      model: 'tuned',
+      fp16: false,
+      int8: o.int8 === true,
+      onnx: o.onnx === true,
+      baseName: o.base,
+      int8Check: evalRecords ? { records: evalRecords, ...windows } : undefined,
+      card: {
+        dataset: { hash: datasetHash, records: train.length, train: train.length, validation: evalRecords?.length ?? 0 },
+        settings: config,
+        scores: after ? { withoutThreshold: after.summary, withThreshold: after.tuned ? { ...after.tuned.summary, threshold: after.tuned.threshold } : undefined } : undefined,
+        baseScores: before?.summary,
+        notes: [
+          ...(practice ? [`first trained on ${practice.questions} practice questions written from ${o.practice!.source} (${practice.updates} updates)`] : []),
+          `fine-tuned for ${ended.totalUpdates} updates (${config.epochs} epochs, windows of ${config.maxLength} tokens)`,
+        ],
+      },
     });
+    await writeFilesAtomically(o.out, out);
+    return {
+      config,
+      train,
+      evalRecords,
+      before,
+      after,
+      practice,
+      out: o.out,
+      files: out.map((f) => ({ name: f.name, bytes: f.bytes.length })),
+      seconds: (performance.now() - started) / 1000,
+    };
   } finally {
-    progress.stop();
     process.off('SIGINT', onSigint);
+    session.dispose();
   }
-  if (result.outcome.status === 'stopped') {
-    result.params.dispose();
-    throw new UserError(`stopped at update ${result.outcome.state.trainer.update}; continue with the same command and --resume`, 130);
-  }
-
-  // 3. measure
-  const after = evalRecords ? evaluate('evaluating the trained reader', result.params) : null;
-
-  // 4. write
-  const named = result.params.toNamed();
-  for (const name of base.report.missing.filter((n) => n.startsWith('cls.'))) named.delete(name);
-  const quantized = o.int8 ? quantizeModel(named) : undefined;
-  const accuracy = quantized && evalRecords
-    ? int8AccuracyCost(base.config, named, quantized, evalRecords, (await import('../../eval/evaluate.js')).buildWindows(base.tokenizer, evalRecords, featureOptions))
-    : undefined;
-  const { files } = exportModel({
-    config: base.config,
-    tensors: named,
-    vocab: base.vocab,
-    int8: quantized,
-    onnx: o.onnx,
-    card: {
-      baseModel: o.base,
-      dataset: { hash: datasetHash, records: train.length, train: train.length, validation: evalRecords?.length },
-      settings: config,
-      metrics: after
-        ? {
-            withoutThreshold: after.summary,
-            withThreshold: after.tuned ? { ...after.tuned.summary, threshold: after.tuned.threshold } : undefined,
-          }
-        : undefined,
-      date: new Date().toISOString(),
-      int8: accuracy ? { accuracy } : undefined,
-      notes: [
-        `fine-tuned for ${result.plan.totalUpdates} updates (${config.epochs} epochs over ${result.windows} windows of ${config.maxLength} tokens)`,
-        ...(before ? [`the base reader scored EM ${before.summary.em?.toFixed(1)} / F1 ${before.summary.f1?.toFixed(1)} on the same validation questions`] : []),
-      ],
-    },
-  });
-  await writeFilesAtomically(o.out, files);
-  result.params.dispose();
-  base.params.dispose();
-  return {
-    config,
-    train,
-    evalRecords,
-    before,
-    after,
-    out: o.out,
-    files: files.map((f) => ({ name: f.name, bytes: f.bytes.length })),
-    seconds: (performance.now() - started) / 1000,
-  };
 }
 
 export function register(program: Command): void {

@@ -1,0 +1,720 @@
+// defines: ReaderSession — the use-cases of Spanwright in one isomorphic object, shared by
+// the command line (src/cli/commands) and the workbench's engine worker
+// (workers/engine-worker.ts), so that neither grows its own copy of a rule.
+//
+// It owns the readers of one session:
+//   base     the reader as loaded (a model directory's files)
+//   start    the reader fine-tuning starts from: the base after the practice stage
+//            (practice questions from the user's passages), or the base itself
+//   tuned    the reader of the last fine-tuning run, or a restored checkpoint
+// and offers: loadBase, measure, timeSteps, previewPractice, practice, fineTune, halt,
+// the checkpoint use-cases, learningCurve, cancelCurve, evaluate, ask, exportReader.
+// Each takes one plain-data argument (plus callbacks for progress) and returns plain
+// data (types.ts), so the worker maps messages to methods one to one.
+//
+// Window settings are resolved against the reader in one place (windows.ts); a training
+// config's own three window fields are resolved the same way before a run.
+import { mulberry32, shuffleInPlace } from '../data/random.js';
+import type { QARecord } from '../data/record.js';
+import { evaluateRecords, predictRecords, readerWindows } from '../eval/evaluate.js';
+import { loadCheckpointDir } from '../io/checkpoint-dir.js';
+import type { CheckpointStore, CheckpointSummary, StoreUsage } from '../io/checkpoint-store.js';
+import { exportModel } from '../io/export.js';
+import { quantizeModel } from '../io/int8.js';
+import { int8AccuracyCost, measureInt8Drift } from '../io/int8-check.js';
+import type { ModelCardInfo } from '../io/model-card.js';
+import { paramCount, type ReaderConfig } from '../model/config.js';
+import { ReaderParams } from '../model/params.js';
+import { withQuestionMatch } from '../model/question-match.js';
+import { makePracticeQuestions, type PracticeOptions, type PracticePassage } from '../practice/generate.js';
+import { Bm25Index } from '../retrieve/bm25.js';
+import { combineScores } from '../retrieve/combine.js';
+import { FeatureBuilder } from '../text/features.js';
+import type { WordPieceTokenizer } from '../text/wordpiece.js';
+import type { TrainConfig } from '../train/config.js';
+import { fineTune, weightsOf, type RunMeta } from '../train/finetune.js';
+import type { LoopEvent } from '../train/loop.js';
+import type {
+  AnswerView,
+  AskResult,
+  BaseInfo,
+  CurveEvent,
+  CurvePoint,
+  EvaluationResult,
+  ExportCardInput,
+  ExportResult,
+  LearningCurve,
+  ModelChoice,
+  ModelFiles,
+  PracticePreview,
+  QuestionView,
+  RecordLength,
+  StepTiming,
+  TrainEnded,
+} from './types.js';
+import { resolveWindows, type WindowSettings } from './windows.js';
+
+/** A reader the session holds: weights, their config and tokenizer, and a name for people. */
+export interface SessionReader {
+  name: string;
+  config: ReaderConfig;
+  params: ReaderParams;
+  tokenizer: WordPieceTokenizer;
+}
+
+interface BaseReader extends SessionReader {
+  vocab: { file: 'vocab.txt' | 'tokenizer.json'; text: string };
+  /** parameters the checkpoint lacked (initialised afresh); left out of exports when MLM */
+  missing: string[];
+}
+
+/** Progress hooks of a training use-case; the worker posts them, the CLI prints them. */
+export interface RunHooks {
+  onEvent?: (event: LoopEvent) => void;
+  /** polled between updates; true stops the run after a checkpoint */
+  shouldStop?: () => boolean;
+  signal?: AbortSignal;
+}
+
+export interface FineTuneArgs extends RunHooks {
+  runId: string;
+  train: QARecord[];
+  validation: QARecord[];
+  config: TrainConfig;
+  /** src/data/hash.ts hashDataset of `train` */
+  datasetHash: string;
+  /** continue this checkpoint of the session's store */
+  resumeFrom?: string;
+  /** also measure at every evaluation (default true when there are validation questions) */
+  evalBatchSize?: number;
+}
+
+export interface PracticeArgs extends RunHooks {
+  runId: string;
+  /** the passages to write questions from: never the validation passages */
+  passages: PracticePassage[];
+  questions?: Partial<PracticeOptions>;
+  config: TrainConfig;
+  /** turn on the question-match token type for the start reader if the base lacks it */
+  questionMatch?: boolean;
+}
+
+/** Window settings as flat optional fields, the way the page and the CLI pass them. */
+export type WindowArgs = Partial<WindowSettings>;
+
+/** Questions per window when a use-case has no reason to choose. */
+const PRACTICE_NO_ANSWER_WINDOWS = 0.1;
+
+/**
+ * Nested shares of the training questions, by whole passages so no passage is split:
+ * 1. passage ids sorted (UTF-16 code-unit order), so the shares depend on the set of
+ *    records and not on their order (as src/data/split.ts does);
+ * 2. shuffled with mulberry32(seed);
+ * 3. each share takes passages from the front of that order until it holds at least
+ *    round(share × all) questions (one passage at the least).
+ * Every share is a prefix of one order, so each smaller share lies inside each larger
+ * one. Records keep their input order.
+ */
+export function nestedShares(records: readonly QARecord[], shares: readonly number[], seed: number): Array<{ share: number; records: QARecord[]; passages: number }> {
+  for (const share of shares) {
+    if (!(share > 0 && share <= 1)) throw new RangeError(`learning curve: a share must be in (0, 1], got ${share}`);
+  }
+  if (!Number.isInteger(seed)) throw new RangeError(`learning curve: seed must be a whole number, got ${seed}`);
+  // 1. passages and their sizes, in a fixed order
+  const size = new Map<string, number>();
+  for (const r of records) size.set(r.passageId, (size.get(r.passageId) ?? 0) + 1);
+  const passages = [...size.keys()].sort((a, b) => (a < b ? -1 : a > b ? 1 : 0));
+  // 2. shuffled by the seed
+  shuffleInPlace(passages, mulberry32(seed));
+  // 3. a prefix of that order per share
+  return shares.map((share) => {
+    const target = Math.round(share * records.length);
+    const taken = new Set<string>();
+    let questions = 0;
+    for (const p of passages) {
+      if (taken.size > 0 && questions >= target) break;
+      taken.add(p);
+      questions += size.get(p)!;
+    }
+    return { share, records: records.filter((r) => taken.has(r.passageId)), passages: taken.size };
+  });
+}
+
+/** The passages of records, each once, in first-seen order. */
+export function passagesOf(records: readonly QARecord[]): PracticePassage[] {
+  const seen = new Map<string, string>();
+  for (const r of records) if (!seen.has(r.passageId)) seen.set(r.passageId, r.context);
+  return [...seen].map(([id, text]) => ({ id, text }));
+}
+
+export class ReaderSession {
+  private baseReader: BaseReader | null = null;
+  private startReader: SessionReader | null = null;
+  private tunedReader: SessionReader | null = null;
+  /** the training run in progress (fine-tuning or practice) and whether it was asked to halt */
+  private running: { runId: string; halt: boolean } | null = null;
+  /** the learning curve being drawn, whether it was asked to stop, and its end */
+  private curve: { curveId: string; cancel: boolean; ended: Promise<void> } | null = null;
+
+  /** `store` keeps checkpoints (IndexedDB in the browser, a folder for the CLI); none = no checkpoints */
+  constructor(private readonly store: CheckpointStore<RunMeta> | null = null) {}
+
+  // ---- readers --------------------------------------------------------------------
+
+  /** The base reader; throws a message for people when none is loaded. */
+  get base(): BaseReader {
+    if (!this.baseReader) throw new Error('no base reader is loaded: choose one on the Base reader screen first');
+    return this.baseReader;
+  }
+
+  /** The reader a choice names. */
+  reader(choice: ModelChoice): SessionReader {
+    const b = this.base;
+    if (choice === 'base') return b;
+    if (choice === 'start') return this.startReader ?? b;
+    if (!this.tunedReader) throw new Error('there is no fine-tuned reader yet: train one, or restore a checkpoint on the Checkpoints screen');
+    return this.tunedReader;
+  }
+
+  /** Whether a fine-tuned reader is held. */
+  get hasTuned(): boolean {
+    return this.tunedReader !== null;
+  }
+
+  /** Makes these files the base reader; the start and fine-tuned readers go. */
+  loadBase(args: { name: string; files: ModelFiles; names?: { config: string; weights: string; vocab: string } }): BaseInfo {
+    const names = args.names ?? { config: `${args.name}/config.json`, weights: `${args.name}/model.safetensors`, vocab: `${args.name}/${args.files.vocab.file}` };
+    const loaded = loadCheckpointDir({ ...args.files, names });
+    this.disposeReaders();
+    this.baseReader = { name: args.name, config: loaded.config, params: loaded.params, tokenizer: loaded.tokenizer, vocab: loaded.vocab, missing: loaded.report.missing };
+    return {
+      name: args.name,
+      config: loaded.config,
+      params: paramCount(loaded.config),
+      vocabSize: loaded.tokenizer.vocabSize,
+      notices: loaded.report.notices,
+      missing: loaded.report.missing,
+      unexpected: loaded.report.unexpected,
+    };
+  }
+
+  /** The window settings `args` asks for, resolved against a reader (notes go to `onNote`). */
+  windows(args: WindowArgs, reader: Pick<SessionReader, 'config'> = this.base, onNote?: (note: string) => void) {
+    const resolved = resolveWindows(args, reader.config);
+    for (const n of resolved.notes) onNote?.(n);
+    return resolved;
+  }
+
+  /** A training config with its window fields resolved against the reader it trains. */
+  private trainSettings(config: TrainConfig, reader: SessionReader): TrainConfig {
+    const { settings } = resolveWindows({ maxLength: config.maxLength, stride: config.stride, maxQueryLength: config.maxQueryLength }, reader.config);
+    return { ...config, ...settings };
+  }
+
+  // ---- data -----------------------------------------------------------------------
+
+  /** Token counts of each record under the base's tokenizer, for the statistics. */
+  measure(args: { records: QARecord[] } & WindowArgs): RecordLength[] {
+    const b = this.base;
+    const builder = new FeatureBuilder(b.tokenizer, this.windows(args).features);
+    return args.records.map((r) => ({
+      id: r.id,
+      tokens: b.tokenizer.encodeFlat(r.question).ids.length + builder.contextEncoding(r.context).ids.length + 3,
+      windows: builder.build(r).features.length,
+    }));
+  }
+
+  /** Practice questions for passages, with a seeded sample to read, without training. */
+  previewPractice(args: { passages: PracticePassage[]; questions?: Partial<PracticeOptions>; sample?: number }): PracticePreview {
+    const made = makePracticeQuestions(args.passages, args.questions);
+    const byKind: PracticePreview['byKind'] = {};
+    for (const k of made.kinds.values()) byKind[k] = (byKind[k] ?? 0) + 1;
+    const order = shuffleInPlace([...made.records.keys()], mulberry32(args.questions?.seed ?? 1));
+    const sample = order.slice(0, args.sample ?? 20).sort((a, b) => a - b).map((i) => {
+      const r = made.records[i]!;
+      const a = r.answers[0];
+      return {
+        id: r.id,
+        passageId: r.passageId,
+        question: r.question,
+        answer: a?.text ?? '',
+        kind: made.kinds.get(r.id)!,
+        span: a ? { start: a.start, end: a.start + a.text.length } : null,
+        context: r.context,
+      };
+    });
+    return {
+      questions: made.records.length,
+      unanswerable: made.records.filter((r) => r.unanswerable).length,
+      passages: made.passages,
+      emptyPassages: made.emptyPassages,
+      byKind,
+      byAnswerKind: made.byAnswerKind,
+      sample,
+    };
+  }
+
+  // ---- training -------------------------------------------------------------------
+
+  private beginRun(runId: string): { runId: string; halt: boolean } {
+    if (this.running) throw new Error(`run ${this.running.runId} is still training; pause or stop it first`);
+    if (this.curve) throw new Error('a learning curve is being drawn; wait for it or cancel it on the Evaluation screen first');
+    const run = { runId, halt: false };
+    this.running = run;
+    return run;
+  }
+
+  /** Asks the running training run to save a checkpoint and return. */
+  halt(args: { runId: string }): { accepted: boolean } {
+    if (!this.running || this.running.runId !== args.runId) return { accepted: false };
+    this.running.halt = true;
+    return { accepted: true };
+  }
+
+  /** Times `steps` real training updates to estimate an epoch; the weights are not kept. */
+  async timeSteps(args: { train: QARecord[]; config: TrainConfig; steps: number }): Promise<StepTiming> {
+    const start = this.reader('start');
+    const stepMs: number[] = [];
+    let updatesPerEpoch = 0;
+    let windows = 0;
+    const result = await fineTune({
+      base: start,
+      tokenizer: start.tokenizer,
+      train: args.train,
+      config: this.trainSettings(args.config, start),
+      datasetHash: 'timing',
+      hooks: {
+        onEvent: (e) => {
+          if (e.type === 'start') [updatesPerEpoch, windows] = [e.plan.updatesPerEpoch, e.plan.features];
+          if (e.type === 'progress') stepMs.push(e.stepMs);
+        },
+        shouldStop: () => stepMs.length >= args.steps,
+      },
+    });
+    result.params.dispose();
+    const later = stepMs.length > 1 ? stepMs.slice(1) : stepMs;
+    const mean = later.reduce((a, x) => a + x, 0) / Math.max(1, later.length);
+    return { stepMs, updatesPerEpoch, windows, epochMs: mean * updatesPerEpoch };
+  }
+
+  /**
+   * The practice stage: questions written from the user's passages (src/practice), and
+   * the start reader trained on them — every window holding an answer, a tenth of the
+   * others. Afterwards fine-tuning starts from this reader. Checkpoints go to the store
+   * like a fine-tuning run's, so a stopped stage continues with `resumeFrom`.
+   */
+  async practice(args: PracticeArgs & { resumeFrom?: string; datasetHash?: string }): Promise<TrainEnded & { questions: number }> {
+    if (this.curve?.cancel) await this.curve.ended;
+    const start = this.reader('start');
+    const run = this.beginRun(args.runId);
+    // a reader with the question-match token type turned on is a temporary copy, let go below
+    let from = start;
+    let made: QARecord[];
+    try {
+      made = makePracticeQuestions(args.passages, args.questions).records;
+      if (made.length === 0) throw new Error('the passages gave no practice question: they need sentences with names, numbers, dates or phrases to ask about');
+      if (args.questionMatch && !start.config.questionMatch) {
+        const m = withQuestionMatch(start.config, start.params.toNamed());
+        from = { ...start, config: m.config, params: ReaderParams.fromNamed(m.config, m.named, { source: start.name }).params };
+      }
+    } catch (err) {
+      this.running = null;
+      throw err;
+    }
+    try {
+      const ended = await this.train(
+        run,
+        from,
+        {
+          runId: args.runId,
+          train: made,
+          validation: [],
+          config: args.config,
+          datasetHash: args.datasetHash ?? `practice:${made.length}:${args.questions?.seed ?? 0}`,
+          resumeFrom: args.resumeFrom,
+          onEvent: args.onEvent,
+          shouldStop: args.shouldStop,
+          signal: args.signal,
+        },
+        'practice',
+        PRACTICE_NO_ANSWER_WINDOWS,
+      );
+      if (this.startReader) this.startReader.params.dispose();
+      this.startReader = { name: `${start.name} + practice (run ${args.runId})`, config: from.config, params: ended.params, tokenizer: from.tokenizer };
+      return { ...ended.result, questions: made.length };
+    } finally {
+      if (from !== start) from.params.dispose();
+    }
+  }
+
+  /** Fine-tunes the start reader on labelled questions (or continues a run from a checkpoint). */
+  async fineTune(args: FineTuneArgs): Promise<TrainEnded> {
+    // leaving the Evaluation screen cancels its curve: a run started right after waits for the update in hand
+    if (this.curve?.cancel) await this.curve.ended;
+    const from = this.reader('start');
+    const run = this.beginRun(args.runId);
+    const ended = await this.train(run, from, args, 'fine-tune');
+    this.tunedReader?.params.dispose();
+    this.tunedReader = { name: `fine-tuned run ${args.runId}`, config: from.config, params: ended.params, tokenizer: from.tokenizer };
+    return ended.result;
+  }
+
+  /** One training run from a copy of `from`; the caller takes the trained weights. */
+  private async train(
+    run: { runId: string; halt: boolean },
+    from: SessionReader,
+    args: FineTuneArgs,
+    stage: 'practice' | 'fine-tune',
+    noAnswerWindowShare?: number,
+  ): Promise<{ result: TrainEnded; params: ReaderParams }> {
+    let totalUpdates = 0;
+    let checkpointId: string | null = null;
+    const store = this.store ?? undefined;
+    try {
+      const result = await fineTune({
+        base: from,
+        tokenizer: from.tokenizer,
+        train: args.train,
+        validation: args.validation.length > 0 ? args.validation : undefined,
+        config: this.trainSettings(args.config, from),
+        datasetHash: args.datasetHash,
+        store,
+        stage,
+        resumeFrom: args.resumeFrom,
+        noAnswerWindowShare,
+        evalBatchSize: args.evalBatchSize,
+        onCheckpoint: (id) => (checkpointId = id),
+        hooks: {
+          onEvent: (event) => {
+            if (event.type === 'start') totalUpdates = event.plan.totalUpdates;
+            args.onEvent?.(event);
+          },
+          shouldStop: () => run.halt || (args.shouldStop?.() ?? false),
+          signal: args.signal,
+        },
+      });
+      return {
+        result: {
+          runId: args.runId,
+          status: result.outcome.status,
+          update: result.outcome.state.trainer.update,
+          totalUpdates: totalUpdates || result.plan.totalUpdates,
+          metrics: result.metrics,
+          checkpointId,
+        },
+        params: result.params,
+      };
+    } finally {
+      this.running = null;
+    }
+  }
+
+  // ---- checkpoints ----------------------------------------------------------------
+
+  private needStore(): CheckpointStore<RunMeta> {
+    if (!this.store) throw new Error('this session keeps no checkpoints');
+    return this.store;
+  }
+
+  async listCheckpoints(): Promise<{ checkpoints: CheckpointSummary<RunMeta>[]; usage: StoreUsage }> {
+    const store = this.needStore();
+    return { checkpoints: await store.list(), usage: store.usage ? await store.usage() : { bytes: 0 } };
+  }
+
+  async deleteCheckpoint(args: { id: string }): Promise<{ deleted: string }> {
+    await this.needStore().delete(args.id);
+    return { deleted: args.id };
+  }
+
+  async pruneCheckpoints(args: { keepBest: number; keepLast: number }): Promise<{ deleted: string[] }> {
+    return { deleted: await this.needStore().prune({ keepBest: args.keepBest, keepLast: args.keepLast }) };
+  }
+
+  /** The newest checkpoint of a dataset and stage, or null. */
+  async latestCheckpoint(args: { datasetHash: string; stage?: 'practice' | 'fine-tune' }): Promise<CheckpointSummary<RunMeta> | null> {
+    const saved = (await this.needStore().list()).filter((c) => c.meta.datasetHash === args.datasetHash && (c.meta.stage ?? 'fine-tune') === (args.stage ?? 'fine-tune'));
+    return saved[saved.length - 1] ?? null;
+  }
+
+  /** Loads a checkpoint's weights as the fine-tuned reader (a practice checkpoint: as the start reader). */
+  async restoreCheckpoint(args: { id: string }): Promise<{ id: string; step: number }> {
+    const b = this.base;
+    const ckpt = await this.needStore().load(args.id);
+    const config = ckpt.meta.runConfig?.model ?? b.config;
+    const { params } = ReaderParams.fromNamed(config, weightsOf(ckpt.tensors), { source: `checkpoint ${args.id}` });
+    const reader = { name: `checkpoint ${args.id}`, config, params, tokenizer: b.tokenizer };
+    if (ckpt.meta.stage === 'practice') {
+      this.startReader?.params.dispose();
+      this.startReader = reader;
+    } else {
+      this.tunedReader?.params.dispose();
+      this.tunedReader = reader;
+    }
+    return { id: args.id, step: ckpt.meta.step };
+  }
+
+  // ---- measuring ------------------------------------------------------------------
+
+  /**
+   * A learning curve: fresh copies of the start reader trained with `config` on nested
+   * shares of `train` (nestedShares above), each scored on `validation`; nothing goes to
+   * the checkpoint store.
+   */
+  async learningCurve(args: {
+    curveId: string;
+    train: QARecord[];
+    validation: QARecord[];
+    config: TrainConfig;
+    shares: number[];
+    seed: number;
+    onEvent?: (event: CurveEvent) => void;
+  }): Promise<LearningCurve> {
+    const from = this.reader('start');
+    if (this.running) throw new Error(`run ${this.running.runId} is training; pause or stop it before drawing a learning curve`);
+    if (this.curve) throw new Error('a learning curve is already being drawn');
+    if (args.train.length === 0) throw new Error('a learning curve needs training questions: add some on the Data screen');
+    if (args.validation.length === 0) throw new Error('a learning curve needs validation questions to score: hold some out on the Data screen');
+    const subsets = nestedShares(args.train, args.shares, args.seed);
+    let end = () => {};
+    const drawing = { curveId: args.curveId, cancel: false, ended: new Promise<void>((resolve) => (end = resolve)) };
+    this.curve = drawing;
+    const send = (event: CurveEvent) => args.onEvent?.(event);
+    const config = this.trainSettings(args.config, from);
+    try {
+      // the validation windows are the same for every share: built once
+      const windows = readerWindows(from, args.validation, resolveWindows(config, from.config).features);
+      const points: CurvePoint[] = [];
+      const of = subsets.length;
+      for (const [index, subset] of subsets.entries()) {
+        if (drawing.cancel) break;
+        if (this.baseReader === null || this.reader('start') !== from) throw new Error('the base reader changed while the learning curve was drawn');
+        send({ type: 'share', index, of, share: subset.share, questions: subset.records.length, passages: subset.passages });
+        // a throwaway run: a fresh copy of the start reader, no store, so no checkpoint is written
+        const result = await fineTune({
+          base: from,
+          tokenizer: from.tokenizer,
+          train: subset.records,
+          config,
+          datasetHash: 'learning-curve',
+          hooks: {
+            onEvent: (e) => {
+              if (e.type === 'progress') send({ type: 'update', index, of, update: e.update, totalUpdates: e.totalUpdates });
+            },
+            shouldStop: () => drawing.cancel,
+          },
+        });
+        try {
+          if (result.outcome.status === 'stopped') break;
+          send({ type: 'scoring', index, of });
+          const { report } = evaluateRecords({ params: result.params, config: from.config, tokenizer: from.tokenizer }, args.validation, { windows });
+          const point: CurvePoint = {
+            share: subset.share,
+            questions: subset.records.length,
+            passages: subset.passages,
+            updates: result.outcome.state.trainer.update,
+            em: report.summary.em,
+            f1: report.summary.f1,
+          };
+          points.push(point);
+          send({ type: 'point', index, of, point });
+        } finally {
+          result.params.dispose();
+        }
+      }
+      return {
+        curveId: args.curveId,
+        status: points.length === subsets.length ? 'finished' : 'cancelled',
+        trainQuestions: args.train.length,
+        validationQuestions: args.validation.length,
+        points,
+      };
+    } finally {
+      this.curve = null;
+      end();
+    }
+  }
+
+  cancelCurve(args: { curveId: string }): { accepted: boolean } {
+    if (!this.curve || this.curve.curveId !== args.curveId) return { accepted: false };
+    this.curve.cancel = true;
+    return { accepted: true };
+  }
+
+  /** EM/F1 by the SQuAD 2.0 rules and a per-question view, for one of the readers. */
+  evaluate(args: { model: ModelChoice; records: QARecord[]; onProgress?: (done: number, total: number) => void } & WindowArgs): EvaluationResult {
+    const r = this.reader(args.model);
+    const { report, decoded } = evaluateRecords(r, args.records, { features: this.windows(args, r).features, onProgress: args.onProgress });
+    const byId = new Map(args.records.map((rec) => [rec.id, rec]));
+    const questions = report.questions.map((q): QuestionView => {
+      const rec = byId.get(q.id)!;
+      const best = decoded.decodings.get(q.id)?.best ?? null;
+      return {
+        id: q.id,
+        passageId: rec.passageId,
+        question: rec.question,
+        context: rec.context,
+        gold: rec.answers.map((a) => ({ start: a.start, end: a.start + a.text.length, text: a.text })),
+        unanswerable: rec.unanswerable,
+        prediction: q.prediction,
+        predictedSpan: q.prediction !== '' && best ? { start: best.charStart, end: best.charEnd } : null,
+        exact: q.exact,
+        f1: q.f1,
+        outcome: q.outcome,
+      };
+    });
+    return {
+      model: args.model,
+      reader: r.name,
+      summary: report.summary,
+      counts: report.counts,
+      tuned: report.tuned ? { threshold: report.tuned.threshold, summary: report.tuned.summary } : null,
+      questions,
+    };
+  }
+
+  /** The id → answer map that `score` reads, and id → (null score − best span score), for one of the readers. */
+  predict(args: { model: ModelChoice; records: QARecord[]; nullThreshold?: number; onProgress?: (done: number, total: number) => void } & WindowArgs): {
+    predictions: Record<string, string>;
+    scoreDiffs: Record<string, number>;
+  } {
+    const r = this.reader(args.model);
+    const decoded = predictRecords(r, args.records, {
+      features: this.windows(args, r).features,
+      decode: args.nullThreshold !== undefined ? { nullThreshold: args.nullThreshold } : {},
+      onProgress: args.onProgress,
+    });
+    return { predictions: decoded.predictions, scoreDiffs: decoded.scoreDiffs };
+  }
+
+  /**
+   * A question over passages:
+   *   1. retrieval  one passage is read whole; of several, BM25 picks `topPassages`
+   *   2. reading    the reader's n-best spans in each retrieved passage
+   *   3. ranking    `topAnswers` candidates per passage, combined with the retriever's
+   *                 score by min–max normalisation (src/retrieve/combine.ts); with one
+   *                 passage the reader's score alone ranks them
+   */
+  ask(args: {
+    model: ModelChoice;
+    question: string;
+    passages: Array<{ id: string; text: string }>;
+    topPassages: number;
+    topAnswers: number;
+    /** weight of the retriever's score in the combined score, default 0.5 */
+    retrieverWeight?: number;
+  } & WindowArgs): AskResult {
+    const r = this.reader(args.model);
+    const question = args.question.trim();
+    if (question === '') throw new Error('type a question first');
+    if (args.passages.length === 0) throw new Error('there are no passages to ask: add some first');
+    if (!(Number.isInteger(args.topPassages) && args.topPassages >= 1)) throw new RangeError(`topPassages must be a whole number above 0, not ${args.topPassages}`);
+    if (!(Number.isInteger(args.topAnswers) && args.topAnswers >= 1)) throw new RangeError(`topAnswers must be a whole number above 0, not ${args.topAnswers}`);
+    // 1. retrieval
+    const single = args.passages.length === 1;
+    const retrieved: Array<{ passageId: string; score: number | null }> = single
+      ? [{ passageId: args.passages[0]!.id, score: null }]
+      : new Bm25Index(args.passages).search(question, args.topPassages);
+    const text = new Map(args.passages.map((p) => [p.id, p.text]));
+    // 2. reading (record ids are positions: passage ids may be long)
+    const records: QARecord[] = retrieved.map((hit, i) => ({
+      id: `ask-${i}`,
+      passageId: hit.passageId,
+      context: text.get(hit.passageId)!,
+      question,
+      answers: [],
+      unanswerable: true,
+    }));
+    const decoded = predictRecords(r, records, { features: this.windows(args, r).features, decode: { nBest: Math.max(5, args.topAnswers) } });
+    // 3. ranking
+    const candidates: Array<Omit<AnswerView, 'combinedScore'>> = [];
+    let noAnswer = true;
+    records.forEach((rec, i) => {
+      const d = decoded.decodings.get(rec.id);
+      if (!d) return;
+      if (d.prediction !== '') noAnswer = false;
+      for (const c of d.nBest.slice(0, args.topAnswers)) {
+        const from = Math.max(0, c.charStart - 160);
+        const to = Math.min(rec.context.length, c.charEnd + 160);
+        candidates.push({
+          passageId: rec.passageId,
+          text: c.text,
+          start: c.charStart - from,
+          end: c.charEnd - from,
+          readerScore: c.score,
+          retrieverScore: retrieved[i]!.score,
+          noAnswerMargin: decoded.scoreDiffs[rec.id] ?? 0,
+          context: rec.context.slice(from, to),
+          contextStart: from,
+        });
+      }
+    });
+    const ranked = single
+      ? combineScores(candidates.map((c) => ({ ...c, retrieverScore: 0 })), { retrieverWeight: 0 }).map((c) => ({ ...c, retrieverScore: null }))
+      : combineScores(candidates.map((c) => ({ ...c, retrieverScore: c.retrieverScore ?? 0 })), { retrieverWeight: args.retrieverWeight ?? 0.5 });
+    return { answers: ranked.slice(0, args.topAnswers), retrieved, noAnswer };
+  }
+
+  // ---- handing on -----------------------------------------------------------------
+
+  /**
+   * A model directory's files for one of the readers: config, weights (fp32 or fp16),
+   * vocabulary, model card; int8 weights (with their accuracy cost on `int8Check`
+   * records when given, else their logit drift on probe inputs) and ONNX on request.
+   */
+  exportReader(args: {
+    model: ModelChoice;
+    fp16: boolean;
+    int8: boolean;
+    onnx: boolean;
+    card: ExportCardInput;
+    /** base model name for the card (default: the base's name) */
+    baseName?: string;
+    int8Check?: { records: QARecord[] } & WindowArgs;
+    date?: string;
+  }): ExportResult {
+    const b = this.base;
+    const r = this.reader(args.model);
+    const named = r.params.toNamed();
+    // a head the base checkpoint lacked was initialised only to build the engine: it does not travel
+    const freshMlm = b.missing.filter((name) => name.startsWith('cls.'));
+    for (const name of freshMlm) named.delete(name);
+    const quantized = args.int8 ? quantizeModel(named) : undefined;
+    const int8: NonNullable<Parameters<typeof exportModel>[0]['card']['int8']> | undefined = quantized
+      ? args.int8Check
+        ? { accuracy: int8AccuracyCost(r.config, named, quantized, args.int8Check.records, readerWindows(r, args.int8Check.records, this.windows(args.int8Check, r).features)) }
+        : { drift: measureInt8Drift(r.config, named, quantized) }
+      : undefined;
+    const card: Omit<ModelCardInfo, 'config' | 'files' | 'int8'> = {
+      baseModel: args.baseName ?? b.name,
+      date: args.date ?? new Date().toISOString(),
+      notes: [
+        `exported from Spanwright: ${r.name}`,
+        ...(r.config.questionMatch
+          ? ['token_type_ids: 0 for [CLS] question [SEP], 1 for context tokens and the last [SEP], 2 for context tokens of words the question also holds (config.json "spanwright_question_match")']
+          : []),
+        ...(freshMlm.length > 0 ? ['the export holds no MLM head (cls.predictions.*), as the base had none'] : []),
+        ...(args.card.notes ?? []),
+      ],
+    };
+    if (args.card.dataset) card.dataset = args.card.dataset;
+    if (args.card.settings) card.settings = args.card.settings;
+    const scores = args.model === 'tuned' ? args.card.metrics?.tuned : args.card.metrics?.base;
+    if (args.card.scores) card.metrics = args.card.scores;
+    else if (scores) card.metrics = { withoutThreshold: scores };
+    const base = args.card.baseScores;
+    if (base) card.notes!.push(`the base reader scored EM ${base.em?.toFixed(1)} / F1 ${base.f1?.toFixed(1)} on the same validation questions`);
+    const { files } = exportModel({ config: r.config, tensors: named, vocab: b.vocab, fp16: args.fp16, int8: quantized, onnx: args.onnx, card: { ...card, int8 } });
+    return { files, notes: card.notes ?? [] };
+  }
+
+  private disposeReaders(): void {
+    const held = new Set([this.baseReader?.params, this.startReader?.params, this.tunedReader?.params]);
+    for (const p of held) p?.dispose();
+    this.baseReader = this.startReader = this.tunedReader = null;
+  }
+
+  /** Lets every weight go. */
+  dispose(): void {
+    this.disposeReaders();
+  }
+}

@@ -1,0 +1,139 @@
+// defines: the general reading stage of the base recipe (`npm run build:base:reading`) —
+// the reader trained on practice questions (src/practice) written from the open corpus's
+// prose, through the same session use-case the workbench and the CLI run on a user's own
+// passages (ReaderSession.practice), with checkpoints on disk so a stopped stage resumes.
+//
+//   npm run build:base:reading -- [--from DIR] [--out DIR] [--work DIR] [--per-passage N]
+//                                 [--epochs N] [--lr X] [--seed N] [--max-len N] [--match on|off]
+//
+//   1. passages   State of the Union addresses and Moby-Dick chapters (corpus.ts) cut into
+//                 runs of consecutive sentences of 80–180 words; the held-out documents of
+//                 the masked-LM stage are left out
+//   2. questions  practice questions per document (its passages are each other's no-answer
+//                 contexts), `--per-passage` per passage
+//   3. train      windows of `--max-len` tokens, every window with an answer and a tenth of
+//                 the others; the question-match token type on unless `--match off`
+//   4. write      config.json, fp16 model.safetensors, vocab.txt, reading-stage.json
+//                 (numbers and settings); the card is rendered by card.ts from the facts
+import { mkdirSync, readFileSync, writeFileSync, existsSync, copyFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { FsCheckpointStore } from '../../src/cli/fs-store.js';
+import { readModelDir, startEngine } from '../../src/cli/model-dir.js';
+import { namedToSafetensors } from '../../src/io/safetensors.js';
+import { configToHf } from '../../src/model/config.js';
+import type { PracticePassage } from '../../src/practice/generate.js';
+import { splitSentences } from '../../src/practice/sentences.js';
+import { ReaderSession } from '../../src/session/reader-session.js';
+import { trainConfig } from '../../src/train/config.js';
+import type { RunMeta } from '../../src/train/finetune.js';
+import { heldOutIds, readCorpus } from './corpus.js';
+
+const known = ['--from', '--out', '--work', '--per-passage', '--epochs', '--lr', '--seed', '--max-len', '--match', '--minutes'];
+const args = new Map<string, string>();
+for (let i = 2; i < process.argv.length; i += 2) {
+  const flag = process.argv[i]!;
+  if (!known.includes(flag)) throw new Error(`unknown flag ${flag} (known: ${known.join(', ')})`);
+  if (process.argv[i + 1] === undefined) throw new Error(`${flag} needs a value`);
+  args.set(flag.slice(2), process.argv[i + 1]!);
+}
+const from = args.get('from') ?? 'tiny-models/base';
+const out = args.get('out') ?? 'runs/base-build/reading/out';
+const work = args.get('work') ?? 'runs/base-build/reading';
+const perPassage = Number(args.get('per-passage') ?? 12);
+const epochs = Number(args.get('epochs') ?? 1);
+const lr = Number(args.get('lr') ?? 1e-3);
+const seed = Number(args.get('seed') ?? 2026);
+const maxLength = Number(args.get('max-len') ?? 192);
+const match = (args.get('match') ?? 'on') === 'on';
+for (const [name, v] of [['per-passage', perPassage], ['epochs', epochs], ['lr', lr], ['seed', seed], ['max-len', maxLength]] as const) {
+  if (!Number.isFinite(v) || v <= 0) throw new Error(`--${name}: expected a positive number, got "${args.get(name)}"`);
+}
+const log = (line: string) => process.stdout.write(`${new Date().toISOString().slice(0, 19)}Z ${line}\n`);
+
+/** Runs of consecutive sentences of one document, 80–180 words, ids `<doc>#<n>`. */
+function corpusPassages(): PracticePassage[] {
+  const docs = readCorpus().filter((d) => d.source !== 'wordnet');
+  const held = heldOutIds(readCorpus());
+  const outList: PracticePassage[] = [];
+  for (const d of docs) {
+    if (held.has(d.id)) continue;
+    let start = -1;
+    let words = 0;
+    let n = 0;
+    const target = () => 80 + ((n * 37) % 100);
+    for (const s of splitSentences(d.text)) {
+      if (start < 0) start = s.start;
+      words += s.words.length;
+      if (words >= target()) {
+        outList.push({ id: `${d.id}#${n}`, text: d.text.slice(start, s.end), group: d.id });
+        n++;
+        start = -1;
+        words = 0;
+      }
+    }
+  }
+  return outList;
+}
+
+await startEngine();
+// 1. passages
+const passages = corpusPassages();
+log(`reading stage: ${passages.length} passages from ${new Set(passages.map((p) => p.group)).size} documents; from ${from}`);
+// 2–3. questions and training, through the session
+mkdirSync(work, { recursive: true });
+const store = new FsCheckpointStore<RunMeta>(join(work, 'checkpoints'));
+const session = new ReaderSession(store);
+session.loadBase({ name: from, files: await readModelDir(from) });
+const questions = { perPassage, seed };
+const datasetHash = `reading-stage:${seed}:${perPassage}:${passages.length}`;
+const last = await session.latestCheckpoint({ datasetHash, stage: 'practice' });
+if (last) log(`resuming from ${last.id} (update ${last.meta.step})`);
+const config = trainConfig({ maxLength, stride: Math.floor(maxLength / 2), maxQueryLength: 48, epochs, batchSize: 16, gradAccumulation: 1, learningRate: lr, seed, checkpointEvery: 500 });
+let lastLog = 0;
+const started = performance.now();
+const abort = new AbortController();
+process.once('SIGINT', () => {
+  log('stopping after this update; run the same command again to continue');
+  abort.abort();
+});
+const ended = await session.practice({
+  runId: 'reading-stage',
+  passages,
+  questions,
+  config,
+  questionMatch: match,
+  datasetHash,
+  resumeFrom: last?.id,
+  signal: abort.signal,
+  onEvent: (e) => {
+    if (e.type === 'start') log(`plan: ${e.plan.totalUpdates} updates over ${e.plan.features} windows, from update ${e.startUpdate}`);
+    if (e.type === 'progress' && (performance.now() - lastLog > 60_000 || e.update === e.totalUpdates)) {
+      lastLog = performance.now();
+      log(`update ${e.update}/${e.totalUpdates} loss ${e.loss.toFixed(3)} lr ${e.lr.toExponential(2)} ${Math.round(e.tokensPerSecond)} tok/s ETA ${Math.round(e.etaMs / 60000)} min`);
+    }
+    if (e.type === 'checkpoint') log(`checkpoint at update ${e.update} (${e.reason})`);
+  },
+});
+const minutes = (performance.now() - started) / 60000;
+if (ended.status === 'stopped') {
+  log(`stopped at update ${ended.update}; run again to continue`);
+  process.exit(130);
+}
+// 4. write
+const reader = session.reader('start');
+mkdirSync(out, { recursive: true });
+writeFileSync(join(out, 'config.json'), `${JSON.stringify({ ...configToHf(reader.config), architectures: ['BertForQuestionAnswering'] }, null, 2)}\n`);
+writeFileSync(join(out, 'model.safetensors'), namedToSafetensors(reader.params.toNamed(), { dtype: 'F16', metadata: { format: 'pt', 'spanwright.recipe': 'tiny-models/recipe/build-base.ts + span-pretrain.ts + reading-stage.ts' } }));
+for (const f of ['vocab.txt', 'pretraining.json', 'span-pretraining.json']) if (existsSync(join(from, f)) && join(from, f) !== join(out, f)) copyFileSync(join(from, f), join(out, f));
+const facts = {
+  method: 'practice questions (src/practice) written from State of the Union addresses and Moby-Dick chapters, 80–180-word passages, one document per no-answer group',
+  passages: passages.length,
+  questions: ended.questions,
+  updates: ended.totalUpdates,
+  minutes,
+  settings: { learningRate: lr, batchSize: config.batchSize, maxLength, stride: config.stride, epochs, perPassage, seed, questionMatch: match },
+  from,
+};
+writeFileSync(join(out, 'reading-stage.json'), `${JSON.stringify(facts, null, 2)}\n`);
+log(`wrote ${out} (${JSON.parse(readFileSync(join(out, 'config.json'), 'utf8')).spanwright_question_match ? 'question match on' : 'question match off'})`);
+session.dispose();
