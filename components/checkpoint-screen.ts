@@ -88,13 +88,14 @@ export class CheckpointScreen extends LitElement {
           ? html`<p class="muted" id="no-checkpoints">No checkpoints yet: a training run saves one at every evaluation and when it is paused.</p>`
           : html`<table id="checkpoint-table">
               <thead>
-                <tr><th>Compare</th><th>Checkpoint</th><th class="num">Update</th><th>Why</th><th class="num">EM</th><th class="num">F1</th><th>Saved</th><th class="num">Size</th><th></th></tr>
+                <tr><th>Compare</th><th>Checkpoint</th><th>Stage</th><th class="num">Update</th><th>Why</th><th class="num">EM</th><th class="num">F1</th><th>Saved</th><th class="num">Size</th><th></th></tr>
               </thead>
               <tbody>
                 ${this.checkpoints.map(
                   (c) => html`<tr class=${this.compare.has(c.id) ? 'chosen' : ''} data-id=${c.id}>
                     <td><input type="checkbox" aria-label="Compare ${c.id}" .checked=${this.compare.has(c.id)} @change=${() => this._onToggleCompare(c.id)} /></td>
                     <td><code>${c.id}</code></td>
+                    <td>${c.meta.stage === 'practice' ? 'practice' : 'fine-tuning'}</td>
                     <td class="num">${c.meta.step}</td>
                     <td>${c.meta.label ?? ''}</td>
                     <td class="num">${score(c.meta.metrics.validationEM)}</td>
@@ -142,8 +143,12 @@ export class CheckpointScreen extends LitElement {
     this.error = '';
     try {
       const r = await this.engine.call({ kind: 'restore-checkpoint', id });
-      this.message = `Restored ${id} (update ${r.step}) as the fine-tuned reader.`;
-      this.dispatchEvent(new CustomEvent('tuned-change', { detail: { name: `checkpoint ${id}` }, bubbles: true, composed: true }));
+      if (r.stage === 'practice') {
+        this.message = `Restored ${id} (update ${r.step}) as the reader the next fine-tuning run starts from.`;
+      } else {
+        this.message = `Restored ${id} (update ${r.step}) as the fine-tuned reader.`;
+        this.dispatchEvent(new CustomEvent('tuned-change', { detail: { name: `checkpoint ${id}` }, bubbles: true, composed: true }));
+      }
     } catch (err) {
       this.error = (err as Error).message;
     }

@@ -7,12 +7,14 @@
 //   dataset-change {dataset}   split-change {split}      base-change {base}
 //   settings-change {settings} run-start                 run-halt {mode: 'pause'|'stop'}
 //   run-continue               tuned-change {name}       evaluated {result}
+//   practice-start {settings}  practice-settings {settings}  practice-forget
 // On start it marks a run that was `running` when the page went away as `interrupted`,
 // so the training screen can offer to continue it from its last checkpoint.
 import { LitElement, css, html } from 'lit';
 import { customElement, state } from 'lit/decorators.js';
 import { hashDataset } from '../src/data/hash.js';
 import { splitByPassage, type Split } from '../src/data/split.js';
+import { practiceTrainSettings } from '../src/session/windows.js';
 import { DEFAULT_TRAIN_CONFIG, suggestedLearningRate, type TrainConfig } from '../src/train/config.js';
 import type { LoopEvent } from '../src/train/loop.js';
 import type { BaseInfo, EngineReady, EvaluationResult } from '../workers/protocol.js';
@@ -25,9 +27,11 @@ import {
   saveState,
   type Dataset,
   type RunRecord,
+  type PracticeState,
   type SplitSettings,
   type StoredBase,
 } from './workbench-db.js';
+import { DEFAULT_PRACTICE, type PracticeSettings } from './practice-panel.js';
 import './data-screen.js';
 import './reader-screen.js';
 import './training-screen.js';
@@ -132,6 +136,9 @@ export class SpanwrightApp extends LitElement {
   /** the fine-tuned reader the worker holds, by name; null when there is none */
   @state() private tunedName: string | null = null;
   @state() private evaluations: { base?: EvaluationResult; tuned?: EvaluationResult } = {};
+  /** the finished practice stage the worker's start reader comes from; null: the base */
+  @state() private practice: PracticeState | null = null;
+  @state() private practiceSettings: PracticeSettings = DEFAULT_PRACTICE;
 
   private readonly engine = new EngineClient();
   private readonly simd = simdSupported();
@@ -161,9 +168,27 @@ export class SpanwrightApp extends LitElement {
       await saveState('run', run);
     }
     this.run = run ?? null;
+    this.practiceSettings = { ...DEFAULT_PRACTICE, ...((await loadState('practiceSettings')) ?? {}) };
     const base = await loadState('base');
     if (base) await this.loadBase(base, false);
+    await this.restorePractice((await loadState('practice')) ?? null);
     this.setAttribute('data-engine', 'ready');
+  }
+
+  /** Makes the worker's start reader the finished practice stage again (after a reload). */
+  private async restorePractice(practice: PracticeState | null): Promise<void> {
+    if (!practice || !this.baseInfo || practice.baseName !== this.baseInfo.name) {
+      this.practice = null;
+      return;
+    }
+    try {
+      await this.engine.call({ kind: 'restore-checkpoint', id: practice.checkpointId });
+      this.practice = practice;
+    } catch {
+      // its checkpoint was deleted on the Checkpoints screen: fine-tuning starts from the base
+      this.practice = null;
+      await saveState('practice', null);
+    }
   }
 
   private get split(): Split {
@@ -182,6 +207,9 @@ export class SpanwrightApp extends LitElement {
       this.evaluations = {};
       if (save) {
         await saveState('base', base);
+        // a practice stage belongs to the base it was trained from
+        this.practice = null;
+        await saveState('practice', null);
         // a newly chosen reader starts from the learning rate suggested for its width
         this.settings = { ...this.settings, learningRate: suggestedLearningRate(this.baseInfo.config.hiddenSize) };
         await saveState('settings', this.settings);
@@ -265,7 +293,13 @@ export class SpanwrightApp extends LitElement {
           .run=${this.run}
           .baseInfo=${this.baseInfo}
           .split=${split}
+          .engine=${this.engine}
+          .practice=${this.practice}
+          .practiceSettings=${this.practiceSettings}
           @settings-change=${this._onSettingsChange}
+          @practice-settings=${this._onPracticeSettings}
+          @practice-start=${this._onPracticeStart}
+          @practice-forget=${this._onPracticeForget}
           @run-start=${this._onRunStart}
           @run-halt=${this._onRunHalt}
           @run-continue=${this._onRunContinue}
@@ -363,19 +397,108 @@ export class SpanwrightApp extends LitElement {
     await this.train(run, undefined);
   }
 
+  // --- the practice stage ----------------------------------------------------
+
+  private _onPracticeSettings(e: CustomEvent<{ settings: PracticeSettings }>): void {
+    this.practiceSettings = e.detail.settings;
+    void saveState('practiceSettings', this.practiceSettings);
+  }
+
+  /** The practice run's hash: the training questions it writes from and the question settings. */
+  private async practiceHash(settings: { perPassage: number; seed: number; questionMatch: boolean }): Promise<string> {
+    return `practice:${await hashDataset(this.split.train)}:${settings.perPassage}:${settings.seed}:${settings.questionMatch ? 'match' : 'plain'}`;
+  }
+
+  private async _onPracticeStart(e: CustomEvent<{ settings: PracticeSettings }>): Promise<void> {
+    if (!this.baseInfo) return;
+    const p = e.detail.settings;
+    const questions = { perPassage: p.perPassage, seed: this.settings.seed, questionMatch: p.questionMatch || this.baseInfo.config.questionMatch === true };
+    // the practice stage trains from the base: a stage run before it is dropped first
+    if (this.practice) await this._onPracticeForget();
+    const run: RunRecord = {
+      runId: `practice-${Date.now().toString(36)}`,
+      stage: 'practice',
+      practice: questions,
+      status: 'running',
+      config: practiceTrainSettings(this.settings, { epochs: p.epochs, maxLength: Math.min(p.maxLength, this.baseInfo.config.maxPositions) }),
+      datasetHash: await this.practiceHash(questions),
+      baseName: this.baseInfo.name,
+      startedAt: new Date().toISOString(),
+      update: 0,
+      totalUpdates: 0,
+      etaMs: 0,
+      lastCheckpoint: null,
+      series: emptySeries(),
+    };
+    await this.trainPractice(run, undefined);
+  }
+
+  private async trainPractice(run: RunRecord, resumeFrom: string | undefined): Promise<void> {
+    this.run = run;
+    this.haltMode = null;
+    await saveState('run', run);
+    const q = run.practice!;
+    try {
+      const ended = await this.engine.call({
+        kind: 'practice',
+        runId: run.runId,
+        passages: this.trainPassages(),
+        questions: { perPassage: q.perPassage, seed: q.seed },
+        questionMatch: q.questionMatch,
+        config: run.config,
+        datasetHash: run.datasetHash,
+        resumeFrom,
+      });
+      const status = ended.status === 'finished' ? 'finished' : this.haltMode === 'stop' ? 'stopped' : 'paused';
+      this.run = { ...this.run!, status, update: ended.update, etaMs: 0, lastCheckpoint: ended.checkpointId ? { id: ended.checkpointId, step: ended.update } : this.run!.lastCheckpoint };
+      if (ended.status === 'finished' && ended.checkpointId) {
+        this.practice = { checkpointId: ended.checkpointId, questions: ended.questions, updates: ended.update, finishedAt: new Date().toISOString(), baseName: run.baseName };
+        await saveState('practice', this.practice);
+      }
+    } catch (err) {
+      this.run = { ...this.run!, status: 'failed', error: (err as Error).message };
+    }
+    await saveState('run', this.run!);
+  }
+
+  private async _onPracticeForget(): Promise<void> {
+    await this.engine.call({ kind: 'reset-start' });
+    this.practice = null;
+    await saveState('practice', null);
+  }
+
+  /** The training questions' passages, each once: what the practice stage writes from. */
+  private trainPassages(): Array<{ id: string; text: string }> {
+    const seen = new Map<string, string>();
+    for (const r of this.split.train) if (!seen.has(r.passageId)) seen.set(r.passageId, r.context);
+    return [...seen].map(([id, text]) => ({ id, text }));
+  }
+
   private async _onRunContinue(): Promise<void> {
     const run = this.run;
     if (!run || !run.lastCheckpoint) return;
+    if (run.stage === 'practice') {
+      if ((await this.practiceHash(run.practice!)) !== run.datasetHash) {
+        this.run = { ...run, error: 'the training questions changed since this practice run started, so it cannot continue; start it again' };
+        return;
+      }
+      await this.trainPractice({ ...run, status: 'running', update: run.lastCheckpoint.step, series: this.seriesUpTo(run, run.lastCheckpoint.step), error: undefined }, run.lastCheckpoint.id);
+      return;
+    }
     const hash = await hashDataset(this.split.train);
     if (hash !== run.datasetHash) {
       this.run = { ...run, status: run.status, error: 'the training questions changed since this run started, so it cannot continue; start a new run' };
       return;
     }
-    // the updates after the checkpoint will be taken again
     const step = run.lastCheckpoint.step;
+    await this.train({ ...run, status: 'running', update: step, series: this.seriesUpTo(run, step), error: undefined }, run.lastCheckpoint.id);
+  }
+
+  /** The run's chart series up to `step`: the updates after a checkpoint will be taken again. */
+  private seriesUpTo(run: RunRecord, step: number): RunRecord['series'] {
     const s = run.series;
     const keep = (xs: number[], at: number[]) => xs.filter((_, i) => at[i]! <= step);
-    const series = {
+    return {
       update: keep(s.update, s.update),
       loss: keep(s.loss, s.update),
       lr: keep(s.lr, s.update),
@@ -384,7 +507,6 @@ export class SpanwrightApp extends LitElement {
       em: keep(s.em, s.evalUpdate),
       f1: keep(s.f1, s.evalUpdate),
     };
-    await this.train({ ...run, status: 'running', update: step, series, error: undefined }, run.lastCheckpoint.id);
   }
 
   private async train(run: RunRecord, resumeFrom: string | undefined): Promise<void> {
@@ -402,9 +524,8 @@ export class SpanwrightApp extends LitElement {
         datasetHash: run.datasetHash,
         resumeFrom,
       });
-      await this.noteCheckpoint();
       const status = ended.status === 'finished' ? 'finished' : this.haltMode === 'stop' ? 'stopped' : 'paused';
-      this.run = { ...this.run!, status, update: ended.update, etaMs: 0 };
+      this.run = { ...this.run!, status, update: ended.update, etaMs: 0, lastCheckpoint: ended.checkpointId ? { id: ended.checkpointId, step: ended.update } : this.run!.lastCheckpoint };
       this.tunedName = `run ${run.runId} at update ${ended.update}`;
       this.evaluations = { base: this.evaluations.base };
     } catch (err) {
@@ -448,20 +569,11 @@ export class SpanwrightApp extends LitElement {
       };
       this.run = { ...run, series };
     } else if (event.type === 'checkpoint') {
-      void this.noteCheckpoint();
+      if (event.id !== undefined) {
+        this.run = { ...this.run!, lastCheckpoint: { id: event.id, step: event.update } };
+        void saveState('run', this.run);
+      }
     }
-  }
-
-  /** Finds the newest checkpoint of the current run and records it as the place to continue from. */
-  private async noteCheckpoint(): Promise<void> {
-    const run = this.run;
-    if (!run) return;
-    const { checkpoints } = await this.engine.call({ kind: 'list-checkpoints' });
-    const mine = checkpoints.filter((c) => c.meta.datasetHash === run.datasetHash && (c.meta.savedAt ?? '') >= run.startedAt);
-    const newest = mine.reduce<(typeof mine)[number] | null>((a, c) => (a === null || c.meta.step >= a.meta.step ? c : a), null);
-    if (!newest || !this.run || this.run.runId !== run.runId) return;
-    this.run = { ...this.run, lastCheckpoint: { id: newest.id, step: newest.meta.step } };
-    await saveState('run', this.run);
   }
 }
 

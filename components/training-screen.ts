@@ -2,8 +2,11 @@
 // one line on what it does), start / pause / resume / stop, live charts of training loss,
 // validation EM and F1, learning rate and tokens per second, progress and ETA. A run the
 // page lost mid-way (reload, crash) shows as interrupted with "continue from update N".
-// The run itself belongs to the shell; this element only renders it and asks.
-// Events out: settings-change {settings}, run-start, run-halt {mode}, run-continue.
+// Above the run, the optional practice stage (<practice-panel>), whose run shows in the
+// same progress and charts. The runs themselves belong to the shell; this element only
+// renders them and asks.
+// Events out: settings-change {settings}, run-start, run-halt {mode}, run-continue, and
+// the practice panel's practice-start {settings}, practice-settings {settings}, practice-forget.
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
 import type { Split } from '../src/data/split.js';
@@ -11,8 +14,11 @@ import { DEFAULT_TRAIN_CONFIG, checkTrainConfig, suggestedLearningRate, type Tra
 import type { BaseInfo } from '../workers/protocol.js';
 import { formatDuration } from './reader-screen.js';
 import { screenStyles } from './shared-styles.js';
-import type { RunRecord } from './workbench-db.js';
+import type { EngineClient } from './engine-client.js';
+import { DEFAULT_PRACTICE, type PracticeSettings } from './practice-panel.js';
+import type { PracticeState, RunRecord } from './workbench-db.js';
 import './metric-chart.js';
+import './practice-panel.js';
 
 type NumericField = Exclude<{ [K in keyof TrainConfig]: TrainConfig[K] extends number ? K : never }[keyof TrainConfig], undefined>;
 
@@ -67,6 +73,10 @@ export class TrainingScreen extends LitElement {
   @property({ attribute: false }) run: RunRecord | null = null;
   @property({ attribute: false }) baseInfo: BaseInfo | null = null;
   @property({ attribute: false }) split: Split = { train: [], validation: [] };
+  @property({ attribute: false }) engine: EngineClient | null = null;
+  /** the finished practice stage fine-tuning starts from, if any */
+  @property({ attribute: false }) practice: PracticeState | null = null;
+  @property({ attribute: false }) practiceSettings: PracticeSettings = DEFAULT_PRACTICE;
 
   @state() private formError = '';
 
@@ -99,8 +109,21 @@ export class TrainingScreen extends LitElement {
           : ''}
       </section>
 
+      <practice-panel
+        .engine=${this.engine}
+        .baseInfo=${this.baseInfo}
+        .split=${this.split}
+        .settings=${this.practiceSettings}
+        .practice=${this.practice}
+        ?running=${running}
+      ></practice-panel>
+
       <section>
         <h3>Run</h3>
+        <p class="muted" id="run-start-from">
+          ${run?.stage === 'practice' && running ? 'Practising now' : 'Fine-tuning starts from'}:
+          ${this.practice ? `the practised reader (${this.practice.questions.toLocaleString()} practice questions)` : `the base reader${this.baseInfo ? ` ${this.baseInfo.name}` : ''}`}.
+        </p>
         ${this.renderNotices()}
         <div class="row">
           <button id="start-run" class="primary" @click=${this._onStart} ?disabled=${!canStart}>Start a new run</button>
@@ -143,7 +166,7 @@ export class TrainingScreen extends LitElement {
     const lastLoss = s.loss.at(-1);
     return html`<div id="run-status" data-status=${run.status} data-update=${run.update}>
       <p>
-        <strong>${run.status}</strong> — update <span id="run-update">${run.update}</span> of ${run.totalUpdates || '…'}
+        <strong>${run.stage === 'practice' ? 'practice ' : ''}${run.status}</strong> — update <span id="run-update">${run.update}</span> of ${run.totalUpdates || '…'}
         ${lastLoss !== undefined ? html`· loss ${lastLoss.toFixed(4)}` : ''}
         ${s.f1.length ? html`· validation F1 ${s.f1.at(-1)!.toFixed(2)}` : ''}
         ${run.status === 'running' ? html`· ETA <span id="eta">${formatDuration(run.etaMs)}</span>` : ''}

@@ -1,6 +1,7 @@
 // defines: the page's own IndexedDB database ("spanwright-workbench", via idb) and the
 // plain-data shapes it keeps: the dataset and its passages, the split, the base reader's
-// files, the training settings and the state of the last training run. Checkpoints live
+// files, the training settings, the state of the last training run and of the practice
+// stage the next run starts from. Checkpoints live
 // in the worker's database (src/io/idb-store.ts), not here.
 //
 // One object store `kv`, keyed by the names in WorkbenchState; each value is written
@@ -9,6 +10,7 @@ import { openDB, type DBSchema, type IDBPDatabase } from 'idb';
 import type { QARecord } from '../src/data/record.js';
 import type { TrainConfig } from '../src/train/config.js';
 import type { ModelFiles } from '../workers/protocol.js';
+import type { PracticeSettings } from './practice-panel.js';
 
 export interface Passage {
   id: string;
@@ -71,6 +73,21 @@ export interface RunRecord {
   lastCheckpoint: { id: string; step: number } | null;
   series: RunSeries;
   error?: string;
+  /** which stage the run is: the practice stage, or fine-tuning on labelled questions (absent: fine-tuning) */
+  stage?: 'practice' | 'fine-tune';
+  /** a practice run's question settings, to continue it with the same questions */
+  practice?: { perPassage: number; seed: number; questionMatch: boolean };
+}
+
+/** A finished practice stage: the start reader fine-tuning begins from, kept as a checkpoint. */
+export interface PracticeState {
+  checkpointId: string;
+  questions: number;
+  updates: number;
+  /** ISO time it finished */
+  finishedAt: string;
+  /** the base reader it was trained from */
+  baseName: string;
 }
 
 export interface WorkbenchState {
@@ -79,6 +96,8 @@ export interface WorkbenchState {
   base: StoredBase;
   settings: TrainConfig;
   run: RunRecord;
+  practice: PracticeState | null;
+  practiceSettings: PracticeSettings;
 }
 
 interface WorkbenchDb extends DBSchema {

@@ -23,6 +23,7 @@ export const SESSION_METHODS = {
   'time-steps': 'timeSteps',
   'preview-practice': 'previewPractice',
   practice: 'practice',
+  'reset-start': 'resetStart',
   train: 'fineTune',
   halt: 'halt',
   'list-checkpoints': 'listCheckpoints',

@@ -1,5 +1,5 @@
-// defines: lexicalAnswer, lexicalPredictions, contextSentences, LexicalOptions,
-// LexicalAnswer — a word-overlap BASELINE reader. It is a yardstick for measurements (a
+// defines: lexicalAnswer, lexicalPredictions, lexicalBaselineScores, contextSentences,
+// LexicalOptions, LexicalAnswer — a word-overlap BASELINE reader. It is a yardstick for measurements (a
 // trained reader should beat it; tests/external/factbook.test.ts checks that), not a
 // product feature: nothing in the workbench answers questions with it.
 //
@@ -24,6 +24,7 @@
 // Offsets are UTF-16 code units into the context, as everywhere (DEVELOPERS.md).
 
 import type { QARecord } from '../data/record.js';
+import { evaluate, findBestThresholds, goldFromRecords, type SquadScores } from './squad-metric.js';
 
 export interface LexicalOptions {
   /** answer "" when the best sentence covers less than this share of the question's weight */
@@ -177,4 +178,18 @@ export function lexicalPredictions(
     scoreDiffs[r.id] = minCoverage - a.coverage;
   }
   return { predictions, bestSpans, scoreDiffs };
+}
+
+/**
+ * The baseline's SQuAD 2.0 scores on `heldOut`, its no-answer cut (minCoverage) chosen on
+ * `tuneOn` (training questions) by the metric's best-threshold search, so the cut is never
+ * tuned on the questions it is scored on.
+ */
+export function lexicalBaselineScores(tuneOn: readonly QARecord[], heldOut: readonly QARecord[]): { scores: SquadScores; minCoverage: number } {
+  const neutral = DEFAULT_MIN_COVERAGE; // lexicalPredictions' score difference is minCoverage − coverage
+  const onTrain = lexicalPredictions(tuneOn, { minCoverage: neutral });
+  const search = findBestThresholds(goldFromRecords(tuneOn), onTrain.bestSpans, onTrain.scoreDiffs);
+  const minCoverage = Math.max(0, neutral - search.bestF1Threshold);
+  const { predictions } = lexicalPredictions(heldOut, { minCoverage });
+  return { scores: evaluate(goldFromRecords(heldOut), predictions), minCoverage };
 }

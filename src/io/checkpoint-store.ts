@@ -58,6 +58,8 @@ export interface PruneOptions {
   keepBest?: number;
   /** keep this many most recent checkpoints by step (none when absent) */
   keepLast?: number;
+  /** prune only among the checkpoints of this dataset hash; the others are left alone */
+  datasetHash?: string;
 }
 
 export interface StoreUsage {
@@ -187,9 +189,10 @@ function checkMeta(id: string, meta: CheckpointMeta): void {
 
 /**
  * The ids `prune` deletes: all but the `keepBest` highest validation F1 (a checkpoint
- * without one ranks lowest; ties go to the later step) and the `keepLast` latest steps.
+ * without one ranks lowest; ties go to the later step) and the `keepLast` latest steps —
+ * among the checkpoints of `datasetHash` when given, the others never deleted.
  */
-export function choosePrunable(summaries: readonly CheckpointSummary[], opts: PruneOptions): string[] {
+export function choosePrunable(all: readonly CheckpointSummary[], opts: PruneOptions): string[] {
   const count = (v: number | undefined, field: string): number => {
     if (v === undefined) return 0;
     if (!Number.isSafeInteger(v) || v < 0) throw new Error(`prune: ${field} must be a non-negative integer, got ${v}`);
@@ -200,6 +203,7 @@ export function choosePrunable(summaries: readonly CheckpointSummary[], opts: Pr
   if (opts.keepBest === undefined && opts.keepLast === undefined) {
     throw new Error('prune: give keepBest, keepLast or both (pruning with neither would delete every checkpoint)');
   }
+  const summaries = opts.datasetHash === undefined ? all : all.filter((s) => s.meta.datasetHash === opts.datasetHash);
   const byRecency = [...summaries].sort(compareRecency).reverse();
   const f1 = (s: CheckpointSummary): number => s.meta.metrics.validationF1 ?? -Infinity;
   const byF1 = [...summaries].sort((a, b) => f1(b) - f1(a) || compareRecency(b, a));

@@ -17,6 +17,8 @@
 import { mulberry32, shuffleInPlace } from '../data/random.js';
 import type { QARecord } from '../data/record.js';
 import { evaluateRecords, predictRecords, readerWindows } from '../eval/evaluate.js';
+import { lexicalBaselineScores } from '../eval/lexical-baseline.js';
+import { applyNoAnswerThreshold, evaluate, findBestThresholds, goldFromRecords, type SquadScores } from '../eval/squad-metric.js';
 import { loadCheckpointDir } from '../io/checkpoint-dir.js';
 import type { CheckpointStore, CheckpointSummary, StoreUsage } from '../io/checkpoint-store.js';
 import { exportModel } from '../io/export.js';
@@ -174,6 +176,13 @@ export class ReaderSession {
     if (choice === 'start') return this.startReader ?? b;
     if (!this.tunedReader) throw new Error('there is no fine-tuned reader yet: train one, or restore a checkpoint on the Checkpoints screen');
     return this.tunedReader;
+  }
+
+  /** Fine-tuning starts from the base reader again; the practised start reader goes. */
+  resetStart(): { start: string } {
+    if (this.startReader) this.startReader.params.dispose();
+    this.startReader = null;
+    return { start: this.base.name };
   }
 
   /** Whether a fine-tuned reader is held. */
@@ -437,7 +446,7 @@ export class ReaderSession {
   }
 
   /** Loads a checkpoint's weights as the fine-tuned reader (a practice checkpoint: as the start reader). */
-  async restoreCheckpoint(args: { id: string }): Promise<{ id: string; step: number }> {
+  async restoreCheckpoint(args: { id: string }): Promise<{ id: string; step: number; stage: 'practice' | 'fine-tune' }> {
     const b = this.base;
     const ckpt = await this.needStore().load(args.id);
     const config = ckpt.meta.runConfig?.model ?? b.config;
@@ -450,7 +459,7 @@ export class ReaderSession {
       this.tunedReader?.params.dispose();
       this.tunedReader = reader;
     }
-    return { id: args.id, step: ckpt.meta.step };
+    return { id: args.id, step: ckpt.meta.step, stage: ckpt.meta.stage ?? 'fine-tune' };
   }
 
   // ---- measuring ------------------------------------------------------------------
@@ -570,6 +579,26 @@ export class ReaderSession {
       tuned: report.tuned ? { threshold: report.tuned.threshold, summary: report.tuned.summary } : null,
       questions,
     };
+  }
+
+  /**
+   * SQuAD 2.0 scores on `records` with the no-answer threshold chosen on `tuneOn` (the
+   * training questions) by the metric's best-threshold search: the honest counterpart of
+   * the threshold tuned on the scored questions themselves.
+   */
+  scoreWithTrainedCut(args: { model: ModelChoice; tuneOn: QARecord[]; records: QARecord[] } & WindowArgs): { threshold: number; summary: SquadScores } {
+    const r = this.reader(args.model);
+    const features = this.windows(args, r).features;
+    const tune = predictRecords(r, args.tuneOn, { features });
+    const threshold = findBestThresholds(goldFromRecords(args.tuneOn), tune.bestSpans, tune.scoreDiffs).bestF1Threshold;
+    const held = predictRecords(r, args.records, { features });
+    return { threshold, summary: evaluate(goldFromRecords(args.records), applyNoAnswerThreshold(held.bestSpans, held.scoreDiffs, threshold)) };
+  }
+
+  /** The word-overlap baseline (src/eval/lexical-baseline.ts) on `records`, its no-answer cut chosen on `tuneOn`. */
+  wordOverlapBaseline(args: { tuneOn: QARecord[]; records: QARecord[] }): { minCoverage: number; summary: SquadScores } {
+    const { scores, minCoverage } = lexicalBaselineScores(args.tuneOn, args.records);
+    return { minCoverage, summary: scores };
   }
 
   /** The id → answer map that `score` reads, and id → (null score − best span score), for one of the readers. */

@@ -6,9 +6,11 @@
 // Rules, in order:
 //   1. max length: the asked value, or 384; never more than the reader's position table
 //      (max_position_embeddings), with a note when it is cut
-//   2. question tokens: the asked value, or 64 but at most a third of the window
+//   2. question tokens: the asked value, or 64 but at most a third of the window (also
+//      when an asked value no longer fits a window cut in step 1)
 //   3. stride: the asked value, or 128 but at most a third of the window's context room,
-//      so a short window (--max-len 128) gets a stride that fits
+//      so a short window (--max-len 128) gets a stride that fits (also when an asked
+//      stride no longer fits a window cut in step 1)
 //   4. the stride must be below the context room beside the longest question:
 //      max length − question tokens − 3 special tokens
 //   5. question match: from the reader's config (src/model/config.ts), never from the user
@@ -51,16 +53,20 @@ export function resolveWindows(asked: Partial<WindowSettings>, reader: Pick<Read
   whole('maxQueryLength', asked.maxQueryLength, 1);
   // 1.
   let maxLength = asked.maxLength ?? DEFAULT_WINDOWS.maxLength;
+  let cut = false;
   if (maxLength > reader.maxPositions) {
     if (asked.maxLength !== undefined) notes.push(`the reader has ${reader.maxPositions} positions; windows are ${reader.maxPositions} tokens, not ${maxLength}`);
     maxLength = reader.maxPositions;
+    cut = true;
   }
-  // 2.
-  const maxQueryLength = asked.maxQueryLength ?? Math.min(DEFAULT_WINDOWS.maxQueryLength, Math.floor(maxLength / 3));
+  // 2. (a window cut to the position table cuts the asked question length with it)
+  const third = Math.floor(maxLength / 3);
+  const maxQueryLength = asked.maxQueryLength === undefined ? Math.min(DEFAULT_WINDOWS.maxQueryLength, third) : cut ? Math.min(asked.maxQueryLength, third) : asked.maxQueryLength;
   const room = maxLength - maxQueryLength - 3;
   if (room < 1) throw new RangeError(`maxQueryLength ${maxQueryLength} leaves no room for context in a window of ${maxLength} tokens`);
-  // 3.
-  const stride = asked.stride ?? Math.min(DEFAULT_WINDOWS.stride, Math.floor(room / 3));
+  // 3. (likewise the stride)
+  const fitting = Math.min(DEFAULT_WINDOWS.stride, Math.floor(room / 3));
+  const stride = asked.stride === undefined ? fitting : cut && asked.stride >= room ? fitting : asked.stride;
   // 4.
   if (stride >= room) {
     throw new RangeError(
@@ -73,5 +79,30 @@ export function resolveWindows(asked: Partial<WindowSettings>, reader: Pick<Read
     // 5.
     features: { maxLen: maxLength, stride, maxQueryTokens: maxQueryLength, questionMatch: reader.questionMatch },
     notes,
+  };
+}
+
+/**
+ * The training settings of a practice stage: `base` (the run's other settings) with its
+ * own passes and window length, 16 windows per update, half the context room shared by
+ * neighbouring windows, no evaluation (practice has no validation questions) and a
+ * checkpoint every 200 updates, so a stopped stage loses little.
+ */
+export function practiceTrainSettings<T extends WindowSettings & { epochs: number; batchSize: number; gradAccumulation: number; evalEvery: number; checkpointEvery: number }>(
+  base: T,
+  stage: { epochs: number; maxLength: number },
+): T {
+  const maxQueryLength = Math.min(48, Math.floor(stage.maxLength / 3));
+  const room = stage.maxLength - maxQueryLength - 3;
+  return {
+    ...base,
+    epochs: stage.epochs,
+    maxLength: stage.maxLength,
+    maxQueryLength,
+    stride: Math.max(0, Math.floor(room / 2)),
+    batchSize: 16,
+    gradAccumulation: 1,
+    evalEvery: 0,
+    checkpointEvery: 200,
   };
 }

@@ -7,7 +7,8 @@
 //   3. resume       weights, moments and the data position from a checkpoint, if asked
 //   4. loop         trainLoop with `evaluate` = SQuAD 2.0 EM/F1 on the validation
 //                   records (src/eval/evaluate.ts) and `saveCheckpoint` = the store
-//   5. prune        keep the best checkpoint by validation F1 and the last two
+//   5. prune        keep the best checkpoint by validation F1 and the last two, among
+//                   this dataset's checkpoints (a practice stage's stay)
 
 import { mulberry32 } from '../data/random.js';
 import type { QARecord } from '../data/record.js';
@@ -167,7 +168,8 @@ export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
         const saved = await store.save(ckpt);
         req.onCheckpoint?.(saved.id);
         // 5. prune
-        await store.prune({ keepBest: 1, keepLast: 2 });
+        await store.prune({ keepBest: 1, keepLast: 2, datasetHash: req.datasetHash });
+        return saved.id;
       }
     : undefined;
   try {

@@ -88,12 +88,14 @@ export type LoopEvent =
       etaMs: number;
     }
   | { type: 'evaluated'; update: number; metrics: Metrics }
-  | { type: 'checkpoint'; update: number; reason: CheckpointRequest['reason'] };
+  /** `id`: the store's id of the checkpoint, when the save callback gave one */
+  | { type: 'checkpoint'; update: number; reason: CheckpointRequest['reason']; id?: string };
 
 export interface LoopHooks {
   /** called when an evaluation is due, with the updates done so far */
   evaluate?: (update: number) => Promise<Metrics> | Metrics;
-  saveCheckpoint?: (request: CheckpointRequest) => Promise<void> | void;
+  /** saves; may return the checkpoint's id, which the 'checkpoint' event then carries */
+  saveCheckpoint?: (request: CheckpointRequest) => Promise<string | void> | string | void;
   onEvent?: (event: LoopEvent) => void;
   /** polled after every update */
   shouldStop?: () => boolean;
@@ -128,8 +130,8 @@ export async function trainLoop(trainer: Trainer, task: TrainTask, hooks: LoopHo
   const state = (): RunState => ({ trainer: trainer.state(), order: { ...order }, totalUpdates: plan.totalUpdates, features: plan.features });
   const save = async (reason: CheckpointRequest['reason'], metrics: Metrics | null) => {
     if (hooks.saveCheckpoint === undefined) return;
-    await hooks.saveCheckpoint({ reason, state: state(), metrics, weights: () => trainer.params.toNamed(), optimizer: () => trainer.optimizerState() });
-    emit({ type: 'checkpoint', update: trainer.updatesDone, reason });
+    const id = await hooks.saveCheckpoint({ reason, state: state(), metrics, weights: () => trainer.params.toNamed(), optimizer: () => trainer.optimizerState() });
+    emit(typeof id === 'string' ? { type: 'checkpoint', update: trainer.updatesDone, reason, id } : { type: 'checkpoint', update: trainer.updatesDone, reason });
   };
   const evaluate = async (update: number): Promise<Metrics | null> => {
     if (hooks.evaluate === undefined) return null;

@@ -177,6 +177,41 @@ describe('the browser workbench', () => {
     await shot('base-reader', true);
   });
 
+  it('writes practice questions from the training passages, shows a sample, and practises before fine-tuning', async () => {
+    await screen('training');
+    await expect(page.locator('#run-start-from').textContent()).resolves.toMatch(/starts from:\s+the base reader/);
+    const fill = async (id: string, value: number) => {
+      await page.locator(`#${id}`).fill(String(value));
+      await page.locator(`#${id}`).dispatchEvent('change');
+    };
+    // small settings: a short run that still writes questions of every kind
+    await fill('practice-per-passage', 2);
+    await fill('practice-max-len', 48);
+    await page.locator('#practice-preview').click();
+    await page.locator('#practice-sample tbody tr').first().waitFor({ timeout: 60_000 });
+    const rows = await page.locator('#practice-sample tbody tr').evaluateAll((trs) => trs.map((tr) => [...tr.querySelectorAll('td')].map((td) => td.textContent?.trim() ?? '')));
+    expect(rows.length).toBeGreaterThan(5);
+    // every question is a question, and an answered one has its answer marked in the passage beside it
+    for (const [question, answer] of rows) {
+      expect(question).toMatch(/\?$/);
+      expect(answer!.length).toBeGreaterThan(0);
+    }
+    const marked = await page.locator('#practice-sample marked-passage').evaluateAll((els) => els.map((el) => el.shadowRoot?.querySelector('mark')?.textContent ?? null));
+    const answers = rows.map((r) => r[1]);
+    marked.forEach((m, i) => {
+      if (answers[i] !== 'no answer') expect(m).toBe(answers[i]);
+    });
+    await page.locator('#practice-start').click();
+    await page.locator('#run-status[data-status="running"]').waitFor({ timeout: 60_000 });
+    await page.locator('#practice-done, #run-error').first().waitFor({ timeout: 180_000 }).catch(async (err) => {
+      await shot('practice-timeout');
+      throw err;
+    });
+    if ((await page.locator('#run-error').count()) > 0) throw new Error(`the practice run failed: ${await page.locator('#run-error').textContent()}`);
+    await expect(page.locator('#run-status').getAttribute('data-status')).resolves.toBe('finished');
+    await expect(page.locator('#run-start-from').textContent()).resolves.toMatch(/the practised reader/);
+  });
+
   it('trains, survives a reload mid-run, continues from the checkpoint and pauses', async () => {
     await screen('training');
     for (const [name, value] of [['maxLength', 32], ['stride', 4], ['maxQueryLength', 12], ['batchSize', 4], ['gradAccumulation', 1], ['epochs', 1], ['evalEvery', 3]] as const) {
@@ -196,6 +231,8 @@ describe('the browser workbench', () => {
     await page.reload();
     await waitForEngine();
     await screen('training');
+    // the practice stage is restored from its checkpoint as the reader fine-tuning starts from
+    await expect(page.locator('#practice-done').count()).resolves.toBe(1);
     const resume = page.locator('#continue-run');
     await resume.waitFor();
     const label = (await resume.textContent()) ?? '';
@@ -331,12 +368,16 @@ describe('the browser workbench', () => {
     const session = await ort.InferenceSession.create(new Uint8Array(readFileSync(await onnxDownload.path())), { logSeverityLevel: 3 });
     const ids = [2, 17, 33, 5, 9, 3, 41, 12, 60, 3, 2, 8, 8, 50, 3, 19, 0, 0, 0, 0]; // [2, 10], the second padded after 6
     const mask = ids.map((_, i) => (i < 16 ? 1 : 0));
-    const types = ids.map((_, i) => (i % 10 >= 5 ? 1 : 0));
+    // the exported config.json: the practice stage turned the question-match token type on,
+    // so some context tokens carry type 2, which the ONNX graph must read like the engine
+    const [configDownload] = await Promise.all([page.waitForEvent('download'), page.locator('a[data-file="config.json"]').click()]);
+    const config = configFromHf(JSON.parse(readFileSync(await configDownload.path(), 'utf8')));
+    expect(config.questionMatch).toBe(true);
+    const types = ids.map((_, i) => (i % 10 >= 5 ? (i % 10 === 6 || i % 10 === 8 ? 2 : 1) : 0));
     const feed = (v: number[]) => new ort.Tensor('int64', BigInt64Array.from(v.map(BigInt)), [2, 10]);
     const got = await session.run({ input_ids: feed(ids), attention_mask: feed(mask), token_type_ids: feed(types) });
     await session.release();
     await tf.setBackend('cpu');
-    const config = configFromHf(JSON.parse(readFileSync(join(FIXTURE, 'config.json'), 'utf8')));
     const { params } = ReaderParams.fromNamed(config, exported);
     const want = tf.tidy(() => {
       const int = (v: number[]) => tf.tensor2d(v, [2, 10], 'int32');

@@ -10,7 +10,6 @@ import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { QARecord } from '../../src/data/record.js';
 import { evaluateRecords, predictRecords } from '../../src/eval/evaluate.js';
-import { lexicalPredictions } from '../../src/eval/lexical-baseline.js';
 import { applyNoAnswerThreshold, evaluate, findBestThresholds, goldFromRecords, type SquadScores } from '../../src/eval/squad-metric.js';
 import { loadCheckpointDir } from '../../src/io/checkpoint-dir.js';
 import type { ReaderConfig } from '../../src/model/config.js';
@@ -106,15 +105,4 @@ export async function fineTuneReader(
   };
 }
 
-/**
- * The lexical baseline (src/eval/lexical-baseline.ts) on `heldOut`, its no-answer cut
- * (minCoverage) chosen on `train` by the metric's best-threshold search.
- */
-export function lexicalBaselineScores(train: readonly QARecord[], heldOut: readonly QARecord[]): { scores: SquadScores; minCoverage: number } {
-  const neutral = 0.5; // lexicalPredictions' score difference is minCoverage − coverage
-  const onTrain = lexicalPredictions(train, { minCoverage: neutral });
-  const search = findBestThresholds(goldFromRecords(train), onTrain.bestSpans, onTrain.scoreDiffs);
-  const minCoverage = Math.max(0, neutral - search.bestF1Threshold);
-  const { predictions } = lexicalPredictions(heldOut, { minCoverage });
-  return { scores: evaluate(goldFromRecords(heldOut), predictions), minCoverage };
-}
+export { lexicalBaselineScores } from '../../src/eval/lexical-baseline.js';

@@ -68,6 +68,18 @@ describe('SHA-256', () => {
     expect(choosePrunable(summaries, { keepBest: 1 })).toEqual(['s0', 's2']);
     expect(() => choosePrunable(summaries, { keepLast: -1 })).toThrow(/keepLast must be a non-negative integer/);
   });
+
+  it('prunes only among one dataset hash when asked, leaving the others', async () => {
+    const summaries = await Promise.all(
+      [1, 2, 3, 4].map(async (step, i) => {
+        const ckpt = sampleCheckpoint(step, undefined);
+        ckpt.meta.datasetHash = i < 2 ? 'practice' : 'labelled';
+        return (await encodeCheckpoint(`s${i}`, ckpt)).summary;
+      }),
+    );
+    expect(choosePrunable(summaries, { keepLast: 1, datasetHash: 'labelled' })).toEqual(['s2']);
+    expect(choosePrunable(summaries, { keepLast: 1 })).toEqual(['s0', 's1', 's2']);
+  });
 });
 
 describe('IndexedDB store: quota', () => {

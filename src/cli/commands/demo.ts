@@ -1,7 +1,8 @@
 // defines: the `demo` command (`npm run demo`) — the whole job on the shipped base reader
-// and the invented demo handbook: measure the base on the validation questions,
-// fine-tune on the training questions, measure again, and write the model directory with
-// int8 and ONNX exports under runs/.
+// and the invented demo handbook: measure the base on the validation questions, train on
+// practice questions written from the training passages (src/practice), fine-tune on the
+// training questions, measure again beside the word-overlap baseline, and write the model
+// directory with int8 and ONNX exports under runs/.
 import { access } from 'node:fs/promises';
 import { join } from 'node:path';
 import type { Command } from 'commander';
@@ -9,7 +10,7 @@ import { UserError, printJson, runCommand } from '../common.js';
 import { CAUTION } from '../../io/model-card.js';
 import { readerWarnings } from '../../eval/reader-warnings.js';
 import { scoresObject, scoresTable } from '../scores.js';
-import { DEFAULT_BASE, configFromOptions, trainReader, type TrainOptions } from './train.js';
+import { DEFAULT_BASE, PRACTICE_DEFAULTS, configFromOptions, practiceFromOptions, trainReader, type TrainOptions } from './train.js';
 
 const DEMO = 'tiny-models/demo';
 
@@ -21,14 +22,15 @@ function stamp(d = new Date()): string {
 export function register(program: Command): void {
   program
     .command('demo')
-    .description('the whole job on the shipped base and the demo handbook: before/after scores and exports under runs/')
+    .description('the whole job on the shipped base and the demo handbook: practice questions from the training passages, fine-tuning, before/after scores beside a word-overlap baseline, exports under runs/')
     .option('--base <dir>', 'the base model directory', DEFAULT_BASE)
     .option('--out <dir>', 'where to write (default runs/demo-<date>-<time>)')
     .option('--epochs <n>', 'passes over the training windows (default 2)', '2')
     .option('--lr <x>', 'peak learning rate (default: the one suggested for the base width, as train)')
     .option('--seed <n>', 'seed for data order and dropout')
-    .option('--json', 'print {before, after, out} as one JSON object on the last line')
-    .action((o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json'> & { out?: string }) =>
+    .option('--practice-epochs <n>', `passes over the practice questions (default ${PRACTICE_DEFAULTS.epochs}); 0 skips the practice stage`)
+    .option('--json', 'print {before, afterPractice, after, afterTrainedCut, baseline, out} as one JSON object on the last line')
+    .action((o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json' | 'practiceEpochs'> & { out?: string }) =>
       runCommand(async () => {
         const train = join(DEMO, 'train.jsonl');
         const validation = join(DEMO, 'validation.jsonl');
@@ -40,22 +42,43 @@ export function register(program: Command): void {
           }
         }
         const out = o.out ?? join('runs', `demo-${stamp()}`);
-        const config = configFromOptions({ train, base: o.base, out, epochs: o.epochs, lr: o.lr, seed: o.seed });
+        const options: TrainOptions = { train, base: o.base, out, epochs: o.epochs, lr: o.lr, seed: o.seed };
+        const config = configFromOptions(options);
+        // the practice stage reads the training split's passages only, never the validation passages
+        const practiceOptions: TrainOptions = { ...options, practiceFrom: o.practiceEpochs === '0' ? undefined : 'train', practiceEpochs: o.practiceEpochs };
         const log = (line: string) => process.stderr.write(`${line}\n`);
-        log(`demo: fine-tuning ${o.base} on ${train}, measuring on ${validation}, writing ${out}`);
-        const run = await trainReader({ train, eval: validation, base: o.base, out, measureBase: true, int8: true, onnx: true }, config, log);
+        log(`demo: ${practiceOptions.practiceFrom ? 'practice questions from the training passages, then ' : ''}fine-tuning ${o.base} on ${train}, measuring on ${validation}, writing ${out}`);
+        const run = await trainReader(
+          { train, eval: validation, base: o.base, out, measureBase: true, measureCut: true, int8: true, onnx: true, practice: (records) => practiceFromOptions(practiceOptions, records, config) },
+          config,
+          log,
+        );
         const before = run.before!;
         const after = run.after!;
-        if (o.json) return printJson({ before: scoresObject(before), after: scoresObject(after), out });
+        const cut = run.afterTrainedCut!;
+        const baseline = run.baseline!;
+        if (o.json) {
+          return printJson({
+            before: scoresObject(before),
+            afterPractice: run.practice?.afterPractice ? scoresObject(run.practice.afterPractice) : null,
+            after: scoresObject(after),
+            afterTrainedCut: { threshold: cut.threshold, ...scoresObject({ summary: cut.summary }) },
+            baseline: scoresObject({ summary: baseline.summary }),
+            out,
+          });
+        }
         const rows = [
+          { label: 'word-overlap baseline', scores: baseline.summary },
           { label: 'base', scores: before.summary },
+          ...(run.practice?.afterPractice ? [{ label: 'after practice', scores: run.practice.afterPractice.summary }] : []),
           { label: 'fine-tuned', scores: after.summary },
+          { label: `fine-tuned, cut ${cut.threshold.toFixed(2)} from training`, scores: cut.summary },
         ];
-        if (after.tuned) rows.push({ label: `fine-tuned, threshold ${after.tuned.threshold.toFixed(2)}`, scores: after.tuned.summary });
-        process.stdout.write(`\nvalidation (${validation})\n${scoresTable(rows)}\n`);
-        const warnings = readerWarnings(after.tuned?.summary ?? after.summary, before.tuned?.summary ?? before.summary);
-        if (warnings.length > 0) warnings.push(`The base's card (${join(o.base, 'MODEL_CARD.md')}) says how it was measured.`);
+        process.stdout.write(`\nvalidation (${validation}); no-answer cuts are chosen on the training questions\n${scoresTable(rows)}\n`);
+        const warnings = readerWarnings(cut.summary, before.summary, baseline.summary);
+        if (warnings.length > 0) warnings.push(`(The warnings compare the row "fine-tuned, cut … from training" with the base and the baseline. The base's card, ${join(o.base, 'MODEL_CARD.md')}, says how it was measured.)`);
         process.stdout.write(`${warnings.map((w) => `${w}\n`).join('')}\n`);
+        if (run.practice) process.stdout.write(`${run.practice.questions} practice questions from the ${new Set(run.train.map((r) => r.passageId)).size} training passages, ${run.practice.updates} updates, ${run.practice.seconds.toFixed(0)} s\n`);
         process.stdout.write(`${run.train.length} training questions, ${run.config.epochs} epochs, ${run.seconds.toFixed(0)} s in all\n`);
         process.stdout.write(`model directory: ${out}/\n`);
         for (const f of run.files) process.stdout.write(`  ${f.name.padEnd(24)} ${f.bytes.toLocaleString('en-US').padStart(12)} bytes\n`);

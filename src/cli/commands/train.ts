@@ -21,6 +21,8 @@ import { DEFAULT_TRAIN_CONFIG, suggestedLearningRate, trainConfig, type TrainCon
 import { configFromHf } from '../../model/config.js';
 import type { PracticeOptions, PracticePassage } from '../../practice/generate.js';
 import type { EvaluationResult } from '../../session/types.js';
+import { practiceTrainSettings } from '../../session/windows.js';
+import type { SquadScores } from '../../eval/squad-metric.js';
 import type { RunMeta } from '../../train/finetune.js';
 
 export const DEFAULT_BASE = 'tiny-models/base';
@@ -40,6 +42,12 @@ export interface TrainOptions {
   seed?: string;
   resume?: boolean;
   json?: boolean;
+  /** practice stage: passages (a JSONL of {id, text}, a folder of .txt, or "train") */
+  practiceFrom?: string;
+  practiceEpochs?: string;
+  practicePerPassage?: string;
+  practiceMaxLen?: string;
+  questionMatch?: boolean;
 }
 
 function int(name: string, v: string | undefined): number | undefined {
@@ -102,12 +110,54 @@ export function configFromOptions(o: TrainOptions): TrainConfig {
   }
 }
 
+/** Practice-stage defaults: measured on the demo handbook (DEVELOPERS.md, "Facts"). */
+export const PRACTICE_DEFAULTS = {
+  /** one pass: the questions are many and cheap, and a second pass gave no more */
+  epochs: 1,
+  /** questions per passage (src/practice/generate.ts) */
+  perPassage: 40,
+  /** windows of 256 tokens: passages of a few hundred words in two or three windows */
+  maxLength: 256,
+} as const;
+
+/**
+ * The practice stage a command's options ask for, or undefined: passages from a file or
+ * folder (`readPassages`, ask.ts), or the training questions' own passages for "train".
+ */
+export async function practiceFromOptions(o: TrainOptions, train: QARecord[], config: TrainConfig): Promise<PracticeStep | undefined> {
+  if (o.practiceFrom === undefined) return undefined;
+  const { readPassages } = await import('./ask.js');
+  const { passagesOf } = await import('../../session/reader-session.js');
+  const fromTrain = o.practiceFrom === 'train';
+  const passages = fromTrain ? passagesOf(train) : await readPassages(o.practiceFrom);
+  const maxLength = int('practice-max-len', o.practiceMaxLen) ?? PRACTICE_DEFAULTS.maxLength;
+  let stage: TrainConfig;
+  try {
+    stage = trainConfig(practiceTrainSettings(config, { epochs: int('practice-epochs', o.practiceEpochs) ?? PRACTICE_DEFAULTS.epochs, maxLength }));
+  } catch (err) {
+    throw new UserError((err as Error).message);
+  }
+  const perPassage = int('practice-per-passage', o.practicePerPassage) ?? PRACTICE_DEFAULTS.perPassage;
+  return {
+    passages,
+    source: fromTrain ? "the training questions' passages" : o.practiceFrom,
+    config: stage,
+    questions: { perPassage, seed: config.seed },
+    questionMatch: o.questionMatch === true,
+    measure: true,
+  };
+}
+
 export interface TrainRun {
   config: TrainConfig;
   train: QARecord[];
   evalRecords: QARecord[] | null;
   before: EvaluationResult | null;
   after: EvaluationResult | null;
+  /** the fine-tuned reader with its no-answer cut chosen on the training questions (measureCut) */
+  afterTrainedCut: { threshold: number; summary: SquadScores } | null;
+  /** the word-overlap baseline, its cut chosen on the training questions (measureBase) */
+  baseline: { minCoverage: number; summary: SquadScores } | null;
   /** the practice stage, when it ran */
   practice: { questions: number; updates: number; seconds: number; afterPractice: EvaluationResult | null } | null;
   out: string;
@@ -129,7 +179,20 @@ export interface PracticeStep {
 
 /** Steps 1–4 on one ReaderSession (src/session); `log` takes human-readable lines (stderr). */
 export async function trainReader(
-  o: { train: string; eval?: string; base: string; out: string; resume?: boolean; measureBase?: boolean; int8?: boolean; onnx?: boolean; practice?: PracticeStep },
+  o: {
+    train: string;
+    eval?: string;
+    base: string;
+    out: string;
+    resume?: boolean;
+    measureBase?: boolean;
+    /** also score with the no-answer cut chosen on the training questions (one more pass over them) */
+    measureCut?: boolean;
+    int8?: boolean;
+    onnx?: boolean;
+    /** the practice stage for these training questions, if any */
+    practice?: (train: QARecord[]) => Promise<PracticeStep | undefined>;
+  },
   config: TrainConfig,
   log: (line: string) => void,
 ): Promise<TrainRun> {
@@ -173,8 +236,9 @@ export async function trainReader(
 
     // 2a. the practice stage, from the user's passages
     let practice: TrainRun['practice'] = null;
-    if (o.practice) {
-      const p = o.practice;
+    const step = await o.practice?.(train);
+    if (step) {
+      const p = step;
       const t0 = performance.now();
       const preview = session.previewPractice({ passages: p.passages, questions: p.questions, sample: 0 });
       log(`practice: ${preview.questions} questions (${preview.unanswerable} without an answer) written from ${preview.passages} passages of ${p.source}`);
@@ -197,7 +261,7 @@ export async function trainReader(
     if (o.resume) {
       const last = await session.latestCheckpoint({ datasetHash });
       if (last === null) {
-        if (!o.practice) throw new UserError(`${join(o.out, 'checkpoints')}: no checkpoint of this training data to resume from`);
+        if (!step) throw new UserError(`${join(o.out, 'checkpoints')}: no checkpoint of this training data to resume from`);
       } else {
         resumeFrom = last.id;
         log(`resuming from checkpoint ${last.id} (update ${last.meta.step})`);
@@ -214,6 +278,8 @@ export async function trainReader(
 
     // 3. measure
     const after = evalRecords ? evaluate('evaluating the trained reader', 'tuned') : null;
+    const afterTrainedCut = evalRecords && o.measureCut ? session.scoreWithTrainedCut({ model: 'tuned', tuneOn: train, records: evalRecords, ...windows }) : null;
+    const baseline = evalRecords && o.measureBase ? session.wordOverlapBaseline({ tuneOn: train, records: evalRecords }) : null;
 
     // 4. write
     const { files: out } = session.exportReader({
@@ -229,7 +295,7 @@ export async function trainReader(
         scores: after ? { withoutThreshold: after.summary, withThreshold: after.tuned ? { ...after.tuned.summary, threshold: after.tuned.threshold } : undefined } : undefined,
         baseScores: before?.summary,
         notes: [
-          ...(practice ? [`first trained on ${practice.questions} practice questions written from ${o.practice!.source} (${practice.updates} updates)`] : []),
+          ...(practice ? [`first trained on ${practice.questions} practice questions written from ${step!.source} (${practice.updates} updates)`] : []),
           `fine-tuned for ${ended.totalUpdates} updates (${config.epochs} epochs, windows of ${config.maxLength} tokens)`,
         ],
       },
@@ -241,6 +307,8 @@ export async function trainReader(
       evalRecords,
       before,
       after,
+      afterTrainedCut,
+      baseline,
       practice,
       out: o.out,
       files: out.map((f) => ({ name: f.name, bytes: f.bytes.length })),
@@ -269,6 +337,11 @@ export function register(program: Command): void {
     .option('--stride <n>', `context tokens shared by neighbouring windows of a long passage (default ${d.stride})`)
     .option('--max-query <n>', `question tokens kept (default ${d.maxQueryLength}, or a third of --max-len)`)
     .option('--seed <n>', `seed for data order and dropout (default ${d.seed})`)
+    .option('--practice-from <path>', 'first train on practice questions written from these passages: a JSONL of {id, text}, a folder of .txt files, or "train" for the training questions\' passages')
+    .option('--practice-epochs <n>', `passes over the practice questions (default ${PRACTICE_DEFAULTS.epochs})`)
+    .option('--practice-per-passage <n>', `practice questions per passage (default ${PRACTICE_DEFAULTS.perPassage})`)
+    .option('--practice-max-len <n>', `tokens per practice window (default ${PRACTICE_DEFAULTS.maxLength})`)
+    .option('--question-match', 'mark context words found in the question with token type 2 (on already when the base\'s config.json says so)')
     .option('--resume', 'continue from the last checkpoint in <out>/checkpoints')
     .option('--json', 'print the evaluation as one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, tuned}')
     .addHelpText(
@@ -285,12 +358,13 @@ Example:
       runCommand(async () => {
         const config = configFromOptions(o);
         const log = (line: string) => process.stderr.write(`${line}\n`);
-        const run = await trainReader({ train: o.train, eval: o.eval, base: o.base, out: o.out, resume: o.resume }, config, log);
+        const run = await trainReader({ train: o.train, eval: o.eval, base: o.base, out: o.out, resume: o.resume, practice: (train) => practiceFromOptions(o, train, config) }, config, log);
         if (o.json) {
           printJson(run.after ? scoresObject(run.after) : { em: null, f1: null, total: 0 });
           return;
         }
-        if (run.after) process.stdout.write(`${scoresTable([{ label: 'trained', scores: run.after.summary }])}\n`);
+        const rows = [...(run.practice?.afterPractice ? [{ label: 'after practice', scores: run.practice.afterPractice.summary }] : []), ...(run.after ? [{ label: 'trained', scores: run.after.summary }] : [])];
+        if (rows.length > 0) process.stdout.write(`${scoresTable(rows)}\n`);
         if (run.after?.tuned) process.stdout.write(`with the tuned no-answer threshold ${run.after.tuned.threshold.toFixed(2)}: EM ${run.after.tuned.summary.em?.toFixed(1)} F1 ${run.after.tuned.summary.f1?.toFixed(1)}\n`);
         if (run.after) for (const w of readerWarnings(run.after.tuned?.summary ?? run.after.summary)) process.stdout.write(`${w}\n`);
         process.stdout.write(`model directory: ${run.out} (${run.files.map((f) => f.name).join(', ')}) in ${run.seconds.toFixed(0)} s\n`);
