@@ -89,7 +89,7 @@ export class PracticePanel extends LitElement {
   }
 
   override render() {
-    const baseHasMatch = this.baseInfo?.config.questionMatch === true;
+    const baseHasMatch = this.baseInfo?.config.questionMatch !== undefined;
     const passages = this.passages.length;
     return html`<section id="practice">
       <h3>Practice first (optional)</h3>
@@ -102,8 +102,8 @@ export class PracticePanel extends LitElement {
         <label>Questions per passage <input id="practice-per-passage" type="number" min="1" step="1" .value=${String(this.settings.perPassage)} @change=${this._onChange} ?disabled=${this.running} /></label>
         <label>Passes <input id="practice-epochs" type="number" min="1" step="1" .value=${String(this.settings.epochs)} @change=${this._onChange} ?disabled=${this.running} /></label>
         <label>Window tokens <input id="practice-max-len" type="number" min="32" step="1" .value=${String(this.settings.maxLength)} @change=${this._onChange} ?disabled=${this.running} /></label>
-        <label title="Passage words that also occur in the question get their own token type">
-          <span><input id="practice-match" type="checkbox" .checked=${baseHasMatch || this.settings.questionMatch} ?disabled=${baseHasMatch || this.running} @change=${this._onChange} /> mark question words in the passage</span>
+        <label title="Passage words that also occur in the question, and the sentence that shares most of them, get their own token types">
+          <span><input id="practice-match" type="checkbox" .checked=${baseHasMatch || this.settings.questionMatch} ?disabled=${baseHasMatch || this.running} @change=${this._onChange} /> mark question words and the best-matching sentence</span>
         </label>
       </div>
       <div class="row">

@@ -412,7 +412,7 @@ export class SpanwrightApp extends LitElement {
   private async _onPracticeStart(e: CustomEvent<{ settings: PracticeSettings }>): Promise<void> {
     if (!this.baseInfo) return;
     const p = e.detail.settings;
-    const questions = { perPassage: p.perPassage, seed: this.settings.seed, questionMatch: p.questionMatch || this.baseInfo.config.questionMatch === true };
+    const questions = { perPassage: p.perPassage, seed: this.settings.seed, questionMatch: p.questionMatch || this.baseInfo.config.questionMatch !== undefined };
     // the practice stage trains from the base: a stage run before it is dropped first
     if (this.practice) await this._onPracticeForget();
     const run: RunRecord = {
@@ -444,7 +444,7 @@ export class SpanwrightApp extends LitElement {
         runId: run.runId,
         passages: this.trainPassages(),
         questions: { perPassage: q.perPassage, seed: q.seed },
-        questionMatch: q.questionMatch,
+        questionMatch: q.questionMatch ? (this.baseInfo?.config.questionMatch ?? 'words+sentence') : undefined,
         config: run.config,
         datasetHash: run.datasetHash,
         resumeFrom,

@@ -12,6 +12,12 @@ export type Activation =
   /** x·σ(1.702x), the sigmoid approximation from the same paper; XNNPACK-fast on wasm */
   | 'gelu_sigmoid';
 
+/** The word-match features a reader reads (ReaderConfig.questionMatch). */
+export type QuestionMatch = 'words' | 'words+sentence';
+
+/** Token-type rows each level needs: question, context, and the match types. */
+export const MATCH_TYPES: Record<QuestionMatch, number> = { words: 3, 'words+sentence': 5 };
+
 export interface ReaderConfig {
   /** rows of the word-embedding table; take it from the tokenizer's vocabulary */
   vocabSize: number;
@@ -37,14 +43,17 @@ export interface ReaderConfig {
   /** σ of the truncated-normal initialisation (cut at ±2σ) */
   initStd: number;
   /**
-   * Context words that also occur in the question get token type 2 instead of 1 (needs
-   * typeVocabSize ≥ 3): the exact-match feature of DrQA (Chen et al. 2017, "Reading
-   * Wikipedia to Answer Open-Domain Questions"), carried in BERT's own token-type input so
-   * the architecture, the checkpoint naming and the ONNX graph stay BERT's.
-   * config.json: "spanwright_question_match". src/text/features.ts computes it. Absent
-   * (as in configs saved before it existed) means off.
+   * Word-match features carried in BERT's own token-type input, so the architecture, the
+   * checkpoint naming and the ONNX graph stay BERT's (src/text/features.ts computes them):
+   *   'words'           context words that also occur in the question get token type 2
+   *                     instead of 1 (typeVocabSize ≥ 3): the exact-match feature of DrQA
+   *                     (Chen et al. 2017, "Reading Wikipedia to Answer Open-Domain Questions")
+   *   'words+sentence'  also, the tokens of the sentence that matches the question best get
+   *                     3 (not matched) or 4 (matched) (typeVocabSize ≥ 5)
+   * config.json: "spanwright_question_match". Absent (as in every checkpoint from
+   * elsewhere, and configs saved before it existed) means off: plain BERT inputs.
    */
-  questionMatch?: boolean;
+  questionMatch?: QuestionMatch;
 }
 
 /** BERT-base's values (Devlin et al. 2019, and its published `config.json`). */
@@ -109,9 +118,10 @@ export function validateConfig(config: ReaderConfig, source = 'config'): void {
   if (config.activation !== 'gelu' && config.activation !== 'gelu_sigmoid') {
     problems.push(`activation must be "gelu" or "gelu_sigmoid", got ${JSON.stringify(config.activation)}`);
   }
-  if (config.questionMatch !== undefined && typeof config.questionMatch !== 'boolean') problems.push(`questionMatch must be true or false, got ${JSON.stringify(config.questionMatch)}`);
-  else if (config.questionMatch && config.typeVocabSize < 3) {
-    problems.push(`questionMatch needs typeVocabSize of at least 3 (type 2 marks context words found in the question), got ${config.typeVocabSize}`);
+  if (config.questionMatch !== undefined && !(config.questionMatch in MATCH_TYPES)) {
+    problems.push(`questionMatch must be "words" or "words+sentence", got ${JSON.stringify(config.questionMatch)}`);
+  } else if (config.questionMatch && config.typeVocabSize < MATCH_TYPES[config.questionMatch]) {
+    problems.push(`questionMatch "${config.questionMatch}" needs typeVocabSize of at least ${MATCH_TYPES[config.questionMatch]}, got ${config.typeVocabSize}`);
   }
   if (Number.isInteger(config.hiddenSize) && Number.isInteger(config.numHeads) && config.numHeads > 0 && config.hiddenSize % config.numHeads !== 0) {
     problems.push(`hiddenSize (${config.hiddenSize}) must be a multiple of numHeads (${config.numHeads})`);
@@ -155,7 +165,9 @@ export function configFromHf(json: unknown, file = 'config.json'): ReaderConfig 
     activation = found;
   }
   const match = o.spanwright_question_match;
-  if (match !== undefined && typeof match !== 'boolean') throw new Error(`${file}: "spanwright_question_match" must be true or false, got ${JSON.stringify(match)}`);
+  if (match !== undefined && match !== null && !(typeof match === 'string' && match in MATCH_TYPES)) {
+    throw new Error(`${file}: "spanwright_question_match" must be "words" or "words+sentence", got ${JSON.stringify(match)}`);
+  }
   const config: ReaderConfig = {
     vocabSize: required('vocab_size'),
     hiddenSize: required('hidden_size'),
@@ -169,7 +181,7 @@ export function configFromHf(json: unknown, file = 'config.json'): ReaderConfig 
     layerNormEps: optional('layer_norm_eps', DEFAULT_CONFIG.layerNormEps),
     activation,
     initStd: optional('initializer_range', DEFAULT_CONFIG.initStd),
-    ...(match === true ? { questionMatch: true } : {}),
+    ...(typeof match === 'string' ? { questionMatch: match as QuestionMatch } : {}),
   };
   validateConfig(config, file);
   return config;
@@ -194,7 +206,7 @@ export function configToHf(config: ReaderConfig): Record<string, unknown> {
     initializer_range: config.initStd,
     position_embedding_type: 'absolute',
     // written only when on, so a plain BERT config stays plain
-    ...(config.questionMatch ? { spanwright_question_match: true } : {}),
+    ...(config.questionMatch ? { spanwright_question_match: config.questionMatch } : {}),
   };
 }
 

@@ -25,7 +25,7 @@ import { exportModel } from '../io/export.js';
 import { quantizeModel } from '../io/int8.js';
 import { int8AccuracyCost, measureInt8Drift } from '../io/int8-check.js';
 import type { ModelCardInfo } from '../io/model-card.js';
-import { paramCount, type ReaderConfig } from '../model/config.js';
+import { paramCount, type QuestionMatch, type ReaderConfig } from '../model/config.js';
 import { ReaderParams } from '../model/params.js';
 import { withQuestionMatch } from '../model/question-match.js';
 import { makePracticeQuestions, type PracticeOptions, type PracticePassage } from '../practice/generate.js';
@@ -97,8 +97,8 @@ export interface PracticeArgs extends RunHooks {
   passages: PracticePassage[];
   questions?: Partial<PracticeOptions>;
   config: TrainConfig;
-  /** turn on the question-match token type for the start reader if the base lacks it */
-  questionMatch?: boolean;
+  /** turn on these word-match token types (src/model/config.ts) for the start reader if it lacks them */
+  questionMatch?: QuestionMatch;
 }
 
 /** Window settings as flat optional fields, the way the page and the CLI pass them. */
@@ -147,6 +147,13 @@ export function passagesOf(records: readonly QARecord[]): PracticePassage[] {
   const seen = new Map<string, string>();
   for (const r of records) if (!seen.has(r.passageId)) seen.set(r.passageId, r.context);
   return [...seen].map(([id, text]) => ({ id, text }));
+}
+
+/** What a model card says about word-match token types, for whoever feeds the exported model. */
+function matchNote(level: QuestionMatch): string {
+  const words = 'token_type_ids: 0 for [CLS] question [SEP]; for context tokens and the last [SEP] 1, or 2 for a word the question also holds';
+  const sentence = '; 3 and 4 likewise inside the sentence that holds the largest rarity-weighted share of the question\'s words';
+  return `${words}${level === 'words+sentence' ? sentence : ''} (config.json "spanwright_question_match": "${level}"; src/text/features.ts computes them)`;
 }
 
 export class ReaderSession {
@@ -322,8 +329,8 @@ export class ReaderSession {
     try {
       made = makePracticeQuestions(args.passages, args.questions).records;
       if (made.length === 0) throw new Error('the passages gave no practice question: they need sentences with names, numbers, dates or phrases to ask about');
-      if (args.questionMatch && !start.config.questionMatch) {
-        const m = withQuestionMatch(start.config, start.params.toNamed());
+      if (args.questionMatch && start.config.questionMatch !== args.questionMatch) {
+        const m = withQuestionMatch(start.config, start.params.toNamed(), args.questionMatch);
         from = { ...start, config: m.config, params: ReaderParams.fromNamed(m.config, m.named, { source: start.name }).params };
       }
     } catch (err) {
@@ -718,9 +725,7 @@ export class ReaderSession {
       date: args.date ?? new Date().toISOString(),
       notes: [
         `exported from Spanwright: ${r.name}`,
-        ...(r.config.questionMatch
-          ? ['token_type_ids: 0 for [CLS] question [SEP], 1 for context tokens and the last [SEP], 2 for context tokens of words the question also holds (config.json "spanwright_question_match")']
-          : []),
+        ...(r.config.questionMatch ? [matchNote(r.config.questionMatch)] : []),
         ...(freshMlm.length > 0 ? ['the export holds no MLM head (cls.predictions.*), as the base had none'] : []),
         ...(args.card.notes ?? []),
       ],

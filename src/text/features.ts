@@ -13,6 +13,7 @@
 // Letters used below: n context tokens; q question tokens (at most maxQueryTokens);
 // room = maxLen − q − 3 context tokens fit beside the question and the three special tokens.
 import type { QARecord } from '../data/record.js';
+import type { QuestionMatch } from '../model/config.js';
 import type { FlatEncoding, WordPieceTokenizer } from './wordpiece.js';
 
 export interface FeatureOptions {
@@ -23,13 +24,21 @@ export interface FeatureOptions {
   /** longer questions keep their first maxQueryTokens tokens; 64 as in BERT's SQuAD runs */
   maxQueryTokens: number;
   /**
-   * Context tokens of a word that the question also holds get token type 2 (the reader's
-   * `questionMatch`, src/model/config.ts). A word is a run of tokens with no character
-   * between them and letters or digits on both sides of every join; two words match when
-   * their token ids are the same, so matching follows the tokenizer's own normalisation
-   * (lower case and no accents for an uncased vocabulary).
+   * Word-match token types (the reader's `questionMatch`, src/model/config.ts):
+   *   'words'           context tokens of a word the question also holds get type 2. A
+   *                     word is a run of tokens with no character between them and letters
+   *                     or digits on both sides of every join; two words match when their
+   *                     token ids are the same, so matching follows the tokenizer's own
+   *                     normalisation (lower case and no accents for an uncased vocabulary).
+   *   'words+sentence'  also, the context tokens of the sentence the question matches best
+   *                     get type 3 (not matched) or 4 (matched). A sentence's match is the
+   *                     share of the question's distinct words it holds, each weighted by
+   *                     its rarity among the passage's sentences, ln((S + 1) / (df + 0.5)) —
+   *                     the sentence coverage of sliding-window word-overlap readers, as
+   *                     src/eval/lexical-baseline.ts computes it, but over token-id words
+   *                     and with no stopword list.
    */
-  questionMatch?: boolean;
+  questionMatch?: QuestionMatch;
 }
 
 export const DEFAULT_FEATURE_OPTIONS: Readonly<FeatureOptions> = { maxLen: 384, stride: 128, maxQueryTokens: 64 };
@@ -143,7 +152,9 @@ export class FeatureBuilder {
       qIds = qIds.subarray(0, maxQueryTokens);
     }
     // which context tokens belong to a word the (kept) question holds
-    const matched = this.options.questionMatch ? matchedTokens(ctx, record.context, wordKeys(qEnc, record.question, qIds.length)) : null;
+    const asked = this.options.questionMatch ? wordKeys(qEnc, record.question, qIds.length) : null;
+    const matched = asked ? matchedTokens(ctx, record.context, asked) : null;
+    const inBest = asked && this.options.questionMatch === 'words+sentence' ? bestSentenceTokens(ctx, record.context, asked) : null;
     const q = qIds.length;
     const room = maxLen - q - 3;
 
@@ -190,7 +201,7 @@ export class FeatureBuilder {
       const end = base + (to - from); // position of the final [SEP]
       inputIds[end] = tok.sepId;
       tokenTypeIds.fill(1, base, end + 1);
-      if (matched) for (let k = from; k < to; k++) if (matched[k]) tokenTypeIds[base + k - from] = 2;
+      if (matched) for (let k = from; k < to; k++) tokenTypeIds[base + k - from] = 1 + matched[k]! + (inBest ? 2 * inBest[k]! : 0);
       attentionMask.fill(1, 0, end + 1);
       for (let k = from; k < to; k++) {
         offsets[2 * (base + k - from)] = ctx.starts[k]!;
@@ -210,7 +221,10 @@ export class FeatureBuilder {
   }
 }
 
-/** Word ranges [first, last) of an encoding: tokens joined with no gap between letters or digits. */
+/**
+ * Word ranges [first, last) of an encoding: tokens joined with no gap between letters or
+ * digits. Punctuation is no word: a "?" or "," would match everywhere and say nothing.
+ */
 function wordRanges(enc: FlatEncoding, text: string, count = enc.ids.length): Array<[number, number]> {
   const out: Array<[number, number]> = [];
   const alnum = (i: number) => i >= 0 && i < text.length && /[\p{L}\p{N}]/u.test(text[i]!);
@@ -218,7 +232,7 @@ function wordRanges(enc: FlatEncoding, text: string, count = enc.ids.length): Ar
   for (let k = 1; k <= count; k++) {
     const joins = k < count && enc.starts[k] === enc.ends[k - 1] && alnum(enc.starts[k]! - 1) && alnum(enc.starts[k]!);
     if (!joins) {
-      out.push([first, k]);
+      if (/[\p{L}\p{N}]/u.test(text.slice(enc.starts[first]!, enc.ends[k - 1]!))) out.push([first, k]);
       first = k;
     }
   }
@@ -239,6 +253,43 @@ function matchedTokens(ctx: FlatEncoding, text: string, keys: Set<string>): Uint
   const out = new Uint8Array(ctx.ids.length);
   if (keys.size === 0) return out;
   for (const range of wordRanges(ctx, text)) if (keys.has(keyOf(ctx.ids, range))) out.fill(1, range[0], range[1]);
+  return out;
+}
+
+/**
+ * Per context token: 1 when it lies in the sentence (or the sentences, on a tie) whose
+ * rarity-weighted share of the question's words is highest; all 0 when no sentence holds
+ * any question word. Sentences end at ".", "!" or "?" before white space, and at line breaks.
+ */
+function bestSentenceTokens(ctx: FlatEncoding, text: string, asked: Set<string>): Uint8Array {
+  const n = ctx.ids.length;
+  const out = new Uint8Array(n);
+  if (asked.size === 0 || n === 0) return out;
+  // sentence index of each token, by where the token starts
+  const ends: number[] = [];
+  for (const m of text.matchAll(/[.!?](?=\s)|\n/g)) ends.push(m.index + 1);
+  const sentenceOf = new Int32Array(n);
+  let sIdx = 0;
+  for (let k = 0; k < n; k++) {
+    while (sIdx < ends.length && ctx.starts[k]! >= ends[sIdx]!) sIdx++;
+    sentenceOf[k] = sIdx;
+  }
+  const S = sIdx + 1;
+  // the question words each sentence holds
+  const holds: Array<Set<string>> = Array.from({ length: S }, () => new Set());
+  for (const range of wordRanges(ctx, text)) {
+    const key = keyOf(ctx.ids, range);
+    if (asked.has(key)) holds[sentenceOf[range[0]]!]!.add(key);
+  }
+  const df = new Map<string, number>();
+  for (const h of holds) for (const key of h) df.set(key, (df.get(key) ?? 0) + 1);
+  const weight = (key: string) => Math.log((S + 1) / ((df.get(key) ?? 0) + 0.5));
+  let total = 0;
+  for (const key of asked) total += weight(key);
+  const coverage = holds.map((h) => [...h].reduce((a, key) => a + weight(key), 0) / total);
+  const best = Math.max(...coverage);
+  if (!(best > 0)) return out;
+  for (let k = 0; k < n; k++) if (coverage[sentenceOf[k]!] === best) out[k] = 1;
   return out;
 }
 

@@ -368,12 +368,12 @@ describe('the browser workbench', () => {
     const session = await ort.InferenceSession.create(new Uint8Array(readFileSync(await onnxDownload.path())), { logSeverityLevel: 3 });
     const ids = [2, 17, 33, 5, 9, 3, 41, 12, 60, 3, 2, 8, 8, 50, 3, 19, 0, 0, 0, 0]; // [2, 10], the second padded after 6
     const mask = ids.map((_, i) => (i < 16 ? 1 : 0));
-    // the exported config.json: the practice stage turned the question-match token type on,
-    // so some context tokens carry type 2, which the ONNX graph must read like the engine
+    // the exported config.json: the practice stage turned the word-match token types on,
+    // so context tokens carry types 2–4, which the ONNX graph must read like the engine
     const [configDownload] = await Promise.all([page.waitForEvent('download'), page.locator('a[data-file="config.json"]').click()]);
     const config = configFromHf(JSON.parse(readFileSync(await configDownload.path(), 'utf8')));
-    expect(config.questionMatch).toBe(true);
-    const types = ids.map((_, i) => (i % 10 >= 5 ? (i % 10 === 6 || i % 10 === 8 ? 2 : 1) : 0));
+    expect(config.questionMatch).toBe('words+sentence');
+    const types = ids.map((_, i) => (i % 10 >= 5 ? [1, 2, 3, 4, 1][(i % 10) - 5]! : 0));
     const feed = (v: number[]) => new ort.Tensor('int64', BigInt64Array.from(v.map(BigInt)), [2, 10]);
     const got = await session.run({ input_ids: feed(ids), attention_mask: feed(mask), token_type_ids: feed(types) });
     await session.release();

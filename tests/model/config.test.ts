@@ -49,6 +49,16 @@ describe('HF-style config.json', () => {
     expect(configToHf(presetConfig('tiny', 10, { activation: 'gelu_sigmoid' })).hidden_act).toBe('quick_gelu');
   });
 
+  it('carries the word-match level as "spanwright_question_match", only when on, and checks the token types it needs', () => {
+    const on = presetConfig('tiny', 100, { typeVocabSize: 5, questionMatch: 'words+sentence' });
+    const hf = configToHf(on);
+    expect(hf.spanwright_question_match).toBe('words+sentence');
+    expect(configFromHf(JSON.parse(JSON.stringify(hf)))).toEqual(on);
+    expect('spanwright_question_match' in configToHf(presetConfig('tiny', 100))).toBe(false);
+    expect(() => presetConfig('tiny', 100, { typeVocabSize: 3, questionMatch: 'words+sentence' })).toThrow(/needs typeVocabSize of at least 5/);
+    expect(() => configFromHf({ ...configToHf(presetConfig('tiny', 100)), spanwright_question_match: true }, 'c.json')).toThrow(/c\.json: "spanwright_question_match" must be "words" or "words\+sentence"/);
+  });
+
   it('fills optional keys with BERT defaults and rejects missing sizes and unknown activations, naming file and key', () => {
     const minimal = { vocab_size: 100, hidden_size: 64, num_hidden_layers: 1, num_attention_heads: 2, intermediate_size: 128 };
     expect(configFromHf(minimal)).toMatchObject({ maxPositions: 512, typeVocabSize: 2, layerNormEps: 1e-12, activation: 'gelu' });

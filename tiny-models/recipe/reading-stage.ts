@@ -101,7 +101,7 @@ const ended = await session.practice({
   passages,
   questions,
   config,
-  questionMatch: match,
+  questionMatch: match ? 'words+sentence' : undefined,
   datasetHash,
   resumeFrom: last?.id,
   signal: abort.signal,

@@ -18,7 +18,7 @@ import { scoresObject, scoresTable } from '../scores.js';
 import { hashDataset } from '../../data/hash.js';
 import type { QARecord } from '../../data/record.js';
 import { DEFAULT_TRAIN_CONFIG, suggestedLearningRate, trainConfig, type TrainConfig } from '../../train/config.js';
-import { configFromHf } from '../../model/config.js';
+import { configFromHf, type QuestionMatch } from '../../model/config.js';
 import type { PracticeOptions, PracticePassage } from '../../practice/generate.js';
 import type { EvaluationResult } from '../../session/types.js';
 import { practiceTrainSettings } from '../../session/windows.js';
@@ -47,7 +47,7 @@ export interface TrainOptions {
   practiceEpochs?: string;
   practicePerPassage?: string;
   practiceMaxLen?: string;
-  questionMatch?: boolean;
+  questionMatch?: string | boolean;
 }
 
 function int(name: string, v: string | undefined): number | undefined {
@@ -110,6 +110,14 @@ export function configFromOptions(o: TrainOptions): TrainConfig {
   }
 }
 
+/** The --question-match level: absent → none; given without a level → "words+sentence". */
+function matchLevel(v: string | boolean | undefined): QuestionMatch | undefined {
+  if (v === undefined || v === false) return undefined;
+  if (v === true || v === 'words+sentence') return 'words+sentence';
+  if (v === 'words') return 'words';
+  throw new UserError(`--question-match must be "words" or "words+sentence", not "${v}"`);
+}
+
 /** Practice-stage defaults: measured on the demo handbook (DEVELOPERS.md, "Facts"). */
 export const PRACTICE_DEFAULTS = {
   /** one pass: the questions are many and cheap, and a second pass gave no more */
@@ -143,7 +151,7 @@ export async function practiceFromOptions(o: TrainOptions, train: QARecord[], co
     source: fromTrain ? "the training questions' passages" : o.practiceFrom,
     config: stage,
     questions: { perPassage, seed: config.seed },
-    questionMatch: o.questionMatch === true,
+    questionMatch: matchLevel(o.questionMatch),
     measure: true,
   };
 }
@@ -172,7 +180,7 @@ export interface PracticeStep {
   source: string;
   config: TrainConfig;
   questions?: Partial<PracticeOptions>;
-  questionMatch: boolean;
+  questionMatch?: QuestionMatch;
   /** also score the reader after the practice stage alone */
   measure?: boolean;
 }
@@ -341,7 +349,7 @@ export function register(program: Command): void {
     .option('--practice-epochs <n>', `passes over the practice questions (default ${PRACTICE_DEFAULTS.epochs})`)
     .option('--practice-per-passage <n>', `practice questions per passage (default ${PRACTICE_DEFAULTS.perPassage})`)
     .option('--practice-max-len <n>', `tokens per practice window (default ${PRACTICE_DEFAULTS.maxLength})`)
-    .option('--question-match', 'mark context words found in the question with token type 2 (on already when the base\'s config.json says so)')
+    .option('--question-match [level]', 'word-match token types for the practice stage: "words" (passage words found in the question) or "words+sentence" (also the best-matching sentence, the default level); on already when the base\'s config.json says so')
     .option('--resume', 'continue from the last checkpoint in <out>/checkpoints')
     .option('--json', 'print the evaluation as one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, tuned}')
     .addHelpText(
