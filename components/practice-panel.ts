@@ -23,12 +23,14 @@ export interface PracticeSettings {
   epochs: number;
   /** tokens per practice window */
   maxLength: number;
-  /** mark passage words found in the question (turned on for a base that lacks it) */
+  /** mark passage words found in the question and the best-matching sentence (turned on for a base that lacks them) */
   questionMatch: boolean;
+  /** minutes of masked-LM on the same passages before the questions; 0: none */
+  domainMinutes: number;
 }
 
 /** The same defaults as the command line's (src/cli/commands/train.ts, PRACTICE_DEFAULTS). */
-export const DEFAULT_PRACTICE: PracticeSettings = { perPassage: 40, epochs: 1, maxLength: 256, questionMatch: true };
+export const DEFAULT_PRACTICE: PracticeSettings = { perPassage: 40, epochs: 1, maxLength: 256, questionMatch: true, domainMinutes: 0 };
 
 const KIND_LABEL: Record<string, string> = {
   cloze: 'from a sentence',
@@ -96,12 +98,16 @@ export class PracticePanel extends LitElement {
       <p class="muted">
         Before your own questions, the reader can practise on questions Spanwright writes from your training passages: a sentence
         turned into a question about one of its names, numbers, dates or phrases, and the same question asked where its answer is
-        missing. A small reader gets far more to learn from. The validation passages are never used.
+        missing. A small reader gets far more to learn from. Optionally the reader first reads the same passages with masked-LM
+        training (words hidden and guessed back) for a few minutes. The validation passages are never used.
       </p>
       <div class="fields">
         <label>Questions per passage <input id="practice-per-passage" type="number" min="1" step="1" .value=${String(this.settings.perPassage)} @change=${this._onChange} ?disabled=${this.running} /></label>
         <label>Passes <input id="practice-epochs" type="number" min="1" step="1" .value=${String(this.settings.epochs)} @change=${this._onChange} ?disabled=${this.running} /></label>
         <label>Window tokens <input id="practice-max-len" type="number" min="32" step="1" .value=${String(this.settings.maxLength)} @change=${this._onChange} ?disabled=${this.running} /></label>
+        <label title="Masked-language-model training on the same passages before the questions: the reader reads your domain's words first">
+          Masked-LM minutes first <input id="practice-domain-minutes" type="number" min="0" step="any" .value=${String(this.settings.domainMinutes)} @change=${this._onChange} ?disabled=${this.running} />
+        </label>
         <label title="Passage words that also occur in the question, and the sentence that shares most of them, get their own token types">
           <span><input id="practice-match" type="checkbox" .checked=${baseHasMatch || this.settings.questionMatch} ?disabled=${baseHasMatch || this.running} @change=${this._onChange} /> mark question words and the best-matching sentence</span>
         </label>
@@ -155,12 +161,17 @@ export class PracticePanel extends LitElement {
       epochs: value('practice-epochs'),
       maxLength: value('practice-max-len'),
       questionMatch: (this.renderRoot.querySelector('#practice-match') as HTMLInputElement).checked,
+      domainMinutes: value('practice-domain-minutes'),
     };
   }
 
   private _onChange(): void {
     const next = this._read();
     const bad = (['perPassage', 'epochs', 'maxLength'] as const).find((k) => !Number.isInteger(next[k]) || next[k] < 1);
+    if (!(next.domainMinutes >= 0)) {
+      this.error = 'Masked-LM minutes must be 0 or more.';
+      return;
+    }
     if (bad) {
       this.error = `${bad === 'perPassage' ? 'Questions per passage' : bad === 'epochs' ? 'Passes' : 'Window tokens'} must be a whole number above 0.`;
       return;

@@ -14,7 +14,7 @@ import { LitElement, css, html } from 'lit';
 import { customElement, state } from 'lit/decorators.js';
 import { hashDataset } from '../src/data/hash.js';
 import { splitByPassage, type Split } from '../src/data/split.js';
-import { practiceTrainSettings } from '../src/session/windows.js';
+import { domainTrainSettings, practiceTrainSettings } from '../src/session/windows.js';
 import { DEFAULT_TRAIN_CONFIG, suggestedLearningRate, type TrainConfig } from '../src/train/config.js';
 import type { LoopEvent } from '../src/train/loop.js';
 import type { BaseInfo, EngineReady, EvaluationResult } from '../workers/protocol.js';
@@ -412,12 +412,12 @@ export class SpanwrightApp extends LitElement {
   private async _onPracticeStart(e: CustomEvent<{ settings: PracticeSettings }>): Promise<void> {
     if (!this.baseInfo) return;
     const p = e.detail.settings;
-    const questions = { perPassage: p.perPassage, seed: this.settings.seed, questionMatch: p.questionMatch || this.baseInfo.config.questionMatch !== undefined };
+    const questions = { perPassage: p.perPassage, seed: this.settings.seed, questionMatch: p.questionMatch || this.baseInfo.config.questionMatch !== undefined, domainMinutes: p.domainMinutes };
     // the practice stage trains from the base: a stage run before it is dropped first
     if (this.practice) await this._onPracticeForget();
     const run: RunRecord = {
       runId: `practice-${Date.now().toString(36)}`,
-      stage: 'practice',
+      stage: p.domainMinutes > 0 ? 'domain' : 'practice',
       practice: questions,
       status: 'running',
       config: practiceTrainSettings(this.settings, { epochs: p.epochs, maxLength: Math.min(p.maxLength, this.baseInfo.config.maxPositions) }),
@@ -439,6 +439,31 @@ export class SpanwrightApp extends LitElement {
     await saveState('run', run);
     const q = run.practice!;
     try {
+      // 1. masked-LM on the passages, when asked and not done yet
+      if (run.stage === 'domain') {
+        const domain = await this.engine.call({
+          kind: 'domain-pretrain',
+          runId: run.runId,
+          passages: this.trainPassages(),
+          config: domainTrainSettings(this.settings),
+          minutes: q.domainMinutes ?? 0,
+          datasetHash: `${run.datasetHash}:domain`,
+          resumeFrom,
+        });
+        if (domain.status !== 'finished' || !domain.checkpointId) {
+          const status = this.haltMode === 'stop' ? 'stopped' : 'paused';
+          this.run = { ...this.run!, status, update: domain.update, etaMs: 0, lastCheckpoint: domain.checkpointId ? { id: domain.checkpointId, step: domain.update } : this.run!.lastCheckpoint };
+          await saveState('run', this.run!);
+          return;
+        }
+        this.run = { ...this.run!, stage: 'practice', practice: { ...q, domainDone: { checkpointId: domain.checkpointId } }, update: 0, totalUpdates: 0, lastCheckpoint: null, series: emptySeries() };
+        await saveState('run', this.run);
+        resumeFrom = undefined;
+      } else if (resumeFrom === undefined && q.domainDone) {
+        // a reload between the two steps lost the worker's start reader: the masked-LM stage's checkpoint has it
+        await this.engine.call({ kind: 'restore-checkpoint', id: q.domainDone.checkpointId });
+      }
+      // 2. the practice questions
       const ended = await this.engine.call({
         kind: 'practice',
         runId: run.runId,
@@ -477,7 +502,7 @@ export class SpanwrightApp extends LitElement {
   private async _onRunContinue(): Promise<void> {
     const run = this.run;
     if (!run || !run.lastCheckpoint) return;
-    if (run.stage === 'practice') {
+    if (run.stage === 'practice' || run.stage === 'domain') {
       if ((await this.practiceHash(run.practice!)) !== run.datasetHash) {
         this.run = { ...run, error: 'the training questions changed since this practice run started, so it cannot continue; start it again' };
         return;

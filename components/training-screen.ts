@@ -166,7 +166,7 @@ export class TrainingScreen extends LitElement {
     const lastLoss = s.loss.at(-1);
     return html`<div id="run-status" data-status=${run.status} data-update=${run.update}>
       <p>
-        <strong>${run.stage === 'practice' ? 'practice ' : ''}${run.status}</strong> — update <span id="run-update">${run.update}</span> of ${run.totalUpdates || '…'}
+        <strong>${run.stage === 'practice' ? 'practice ' : run.stage === 'domain' ? 'masked-LM ' : ''}${run.status}</strong> — update <span id="run-update">${run.update}</span> of ${run.totalUpdates || '…'}
         ${lastLoss !== undefined ? html`· loss ${lastLoss.toFixed(4)}` : ''}
         ${s.f1.length ? html`· validation F1 ${s.f1.at(-1)!.toFixed(2)}` : ''}
         ${run.status === 'running' ? html`· ETA <span id="eta">${formatDuration(run.etaMs)}</span>` : ''}

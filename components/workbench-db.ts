@@ -74,9 +74,9 @@ export interface RunRecord {
   series: RunSeries;
   error?: string;
   /** which stage the run is: the practice stage, or fine-tuning on labelled questions (absent: fine-tuning) */
-  stage?: 'practice' | 'fine-tune';
+  stage?: 'domain' | 'practice' | 'fine-tune';
   /** a practice run's question settings, to continue it with the same questions */
-  practice?: { perPassage: number; seed: number; questionMatch: boolean };
+  practice?: { perPassage: number; seed: number; questionMatch: boolean; domainMinutes?: number; domainDone?: { checkpointId: string } };
 }
 
 /** A finished practice stage: the start reader fine-tuning begins from, kept as a checkpoint. */

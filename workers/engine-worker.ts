@@ -39,7 +39,7 @@ async function init(wasmBase: string): Promise<EngineReady> {
 /** The request's argument with the callbacks its use-case reports through. */
 function withCallbacks(request: Exclude<EngineRequest, { kind: 'init' }>): object {
   const { kind: _kind, ...args } = request;
-  if (request.kind === 'train' || request.kind === 'practice') {
+  if (request.kind === 'train' || request.kind === 'practice' || request.kind === 'domain-pretrain') {
     const runId = request.runId;
     return { ...args, onEvent: (event: import('../src/train/loop.js').LoopEvent) => post({ type: 'run-event', runId, event }) };
   }

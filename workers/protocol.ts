@@ -23,6 +23,7 @@ export const SESSION_METHODS = {
   'time-steps': 'timeSteps',
   'preview-practice': 'previewPractice',
   practice: 'practice',
+  'domain-pretrain': 'domainPretrain',
   'reset-start': 'resetStart',
   train: 'fineTune',
   halt: 'halt',

@@ -34,7 +34,7 @@ import { combineScores } from '../retrieve/combine.js';
 import { FeatureBuilder } from '../text/features.js';
 import type { WordPieceTokenizer } from '../text/wordpiece.js';
 import type { TrainConfig } from '../train/config.js';
-import { fineTune, weightsOf, type RunMeta } from '../train/finetune.js';
+import { fineTune, weightsOf, type RunMeta, type RunStage } from '../train/finetune.js';
 import type { LoopEvent } from '../train/loop.js';
 import type {
   AnswerView,
@@ -183,6 +183,23 @@ export class ReaderSession {
     if (choice === 'start') return this.startReader ?? b;
     if (!this.tunedReader) throw new Error('there is no fine-tuned reader yet: train one, or restore a checkpoint on the Checkpoints screen');
     return this.tunedReader;
+  }
+
+  /**
+   * Word-match token types (src/model/config.ts, questionMatch) for the start reader, so
+   * the stages after this read them: its token-type table grows, the new rows copies of
+   * the ones they refine (src/model/question-match.ts). A reader that has them already
+   * is left alone.
+   */
+  setQuestionMatch(args: { level: QuestionMatch }): { start: string; questionMatch: QuestionMatch } {
+    const start = this.reader('start');
+    if (start.config.questionMatch !== args.level) {
+      const m = withQuestionMatch(start.config, start.params.toNamed(), args.level);
+      const params = ReaderParams.fromNamed(m.config, m.named, { source: start.name }).params;
+      if (this.startReader) this.startReader.params.dispose();
+      this.startReader = { name: `${start.name} + word-match types`, config: m.config, params, tokenizer: start.tokenizer };
+    }
+    return { start: this.reader('start').name, questionMatch: args.level };
   }
 
   /** Fine-tuning starts from the base reader again; the practised start reader goes. */
@@ -363,6 +380,65 @@ export class ReaderSession {
     }
   }
 
+  /**
+   * Masked-LM on the user's own passages (domain- and task-adaptive pretraining,
+   * Gururangan et al. 2020, "Don't Stop Pretraining"): the start reader's encoder trained
+   * with BERT's masking on the passages packed into full rows, for a time budget — a few
+   * timed updates give the step time, and the run takes as many whole passes as fit
+   * (at least one). The result is the new start reader; its span head is untouched.
+   */
+  async domainPretrain(args: RunHooks & { runId: string; passages: PracticePassage[]; config: TrainConfig; minutes: number; resumeFrom?: string; datasetHash?: string }): Promise<TrainEnded & { passes: number; rows: number }> {
+    if (this.curve?.cancel) await this.curve.ended;
+    if (!(args.minutes > 0)) throw new RangeError(`domainPretrain: minutes must be above 0, got ${args.minutes}`);
+    const from = this.reader('start');
+    if (!from.params.variables.has('cls.predictions.bias')) throw new Error(`${from.name} has no MLM head, so it cannot be trained with masked-LM`);
+    const texts = args.passages.map((p) => p.text);
+    const datasetHash = args.datasetHash ?? `domain:${texts.length}:${texts.reduce((a, t) => a + t.length, 0)}`;
+    const run = this.beginRun(args.runId);
+    let passes = args.config.epochs;
+    let rows = 0;
+    try {
+      if (args.resumeFrom !== undefined) {
+        // a continued run keeps the passes its first session chose
+        const saved = (await this.needStore().list()).find((c) => c.id === args.resumeFrom);
+        if (!saved) throw new Error(`no checkpoint ${args.resumeFrom} to continue from`);
+        passes = saved.meta.runConfig.train.epochs;
+      } else {
+        // the step time, from three updates of one pass (weights not kept)
+        const stepMs: number[] = [];
+        const probe = await fineTune({
+          base: from,
+          tokenizer: from.tokenizer,
+          train: [],
+          maskedLm: { texts },
+          config: { ...args.config, epochs: 1 },
+          datasetHash: 'timing',
+          hooks: { onEvent: (e) => e.type === 'progress' && stepMs.push(e.stepMs), shouldStop: () => stepMs.length >= 3 },
+        });
+        probe.params.dispose();
+        const per = stepMs.slice(1).reduce((a, x) => a + x, 0) / Math.max(1, stepMs.length - 1);
+        passes = Math.max(1, Math.floor((args.minutes * 60_000) / (per * probe.plan.updatesPerEpoch)));
+      }
+    } catch (err) {
+      this.running = null;
+      throw err;
+    }
+    const ended = await this.train(
+      run,
+      from,
+      { runId: args.runId, train: [], validation: [], config: { ...args.config, epochs: passes }, datasetHash, resumeFrom: args.resumeFrom, onEvent: (e) => {
+        if (e.type === 'start') rows = e.plan.features;
+        args.onEvent?.(e);
+      }, shouldStop: args.shouldStop, signal: args.signal },
+      'domain',
+      undefined,
+      { texts },
+    );
+    if (this.startReader) this.startReader.params.dispose();
+    this.startReader = { name: `${from.name} + masked-LM on ${texts.length} passages (run ${args.runId})`, config: from.config, params: ended.params, tokenizer: from.tokenizer };
+    return { ...ended.result, passes, rows };
+  }
+
   /** Fine-tunes the start reader on labelled questions (or continues a run from a checkpoint). */
   async fineTune(args: FineTuneArgs): Promise<TrainEnded> {
     // leaving the Evaluation screen cancels its curve: a run started right after waits for the update in hand
@@ -380,8 +456,9 @@ export class ReaderSession {
     run: { runId: string; halt: boolean },
     from: SessionReader,
     args: FineTuneArgs,
-    stage: 'practice' | 'fine-tune',
+    stage: RunStage,
     noAnswerWindowShare?: number,
+    maskedLm?: { texts: readonly string[] },
   ): Promise<{ result: TrainEnded; params: ReaderParams }> {
     let totalUpdates = 0;
     let checkpointId: string | null = null;
@@ -398,6 +475,7 @@ export class ReaderSession {
         stage,
         resumeFrom: args.resumeFrom,
         noAnswerWindowShare,
+        maskedLm,
         evalBatchSize: args.evalBatchSize,
         onCheckpoint: (id) => (checkpointId = id),
         hooks: {
@@ -447,19 +525,19 @@ export class ReaderSession {
   }
 
   /** The newest checkpoint of a dataset and stage, or null. */
-  async latestCheckpoint(args: { datasetHash: string; stage?: 'practice' | 'fine-tune' }): Promise<CheckpointSummary<RunMeta> | null> {
+  async latestCheckpoint(args: { datasetHash: string; stage?: RunStage }): Promise<CheckpointSummary<RunMeta> | null> {
     const saved = (await this.needStore().list()).filter((c) => c.meta.datasetHash === args.datasetHash && (c.meta.stage ?? 'fine-tune') === (args.stage ?? 'fine-tune'));
     return saved[saved.length - 1] ?? null;
   }
 
   /** Loads a checkpoint's weights as the fine-tuned reader (a practice checkpoint: as the start reader). */
-  async restoreCheckpoint(args: { id: string }): Promise<{ id: string; step: number; stage: 'practice' | 'fine-tune' }> {
+  async restoreCheckpoint(args: { id: string }): Promise<{ id: string; step: number; stage: RunStage }> {
     const b = this.base;
     const ckpt = await this.needStore().load(args.id);
     const config = ckpt.meta.runConfig?.model ?? b.config;
     const { params } = ReaderParams.fromNamed(config, weightsOf(ckpt.tensors), { source: `checkpoint ${args.id}` });
     const reader = { name: `checkpoint ${args.id}`, config, params, tokenizer: b.tokenizer };
-    if (ckpt.meta.stage === 'practice') {
+    if (ckpt.meta.stage === 'practice' || ckpt.meta.stage === 'domain') {
       this.startReader?.params.dispose();
       this.startReader = reader;
     } else {

@@ -106,3 +106,15 @@ export function practiceTrainSettings<T extends WindowSettings & { epochs: numbe
     checkpointEvery: 200,
   };
 }
+
+/**
+ * The training settings of a masked-LM stage on the user's passages: `base` with rows of
+ * 128 tokens (the length most of the shipped base's pretraining used), 16 rows per update,
+ * a tenth of the fine-tuning peak rate (continued pretraining keeps its rate low;
+ * Gururangan et al. 2020 — their exact rate from memory, not used), BERT's 15% masking,
+ * one pass (ReaderSession.domainPretrain sets the passes from its time budget), and a
+ * checkpoint every 100 updates.
+ */
+export function domainTrainSettings<T extends WindowSettings & { epochs: number; batchSize: number; gradAccumulation: number; evalEvery: number; checkpointEvery: number; learningRate: number }>(base: T): T {
+  return { ...base, maxLength: 128, stride: 32, maxQueryLength: 16, batchSize: 16, gradAccumulation: 1, learningRate: base.learningRate / 10, evalEvery: 0, checkpointEvery: 100, epochs: 1 };
+}

@@ -1,8 +1,10 @@
-// defines: fineTune, FineTuneRequest, RunMeta — one fine-tuning run from labelled
-// records to a trained reader, with evaluation and checkpoints, shared by the CLI and
-// the Web Worker. The loop itself is loop.ts; this file wires its callbacks:
+// defines: fineTune, FineTuneRequest, RunMeta, RunStage, weightsOf — one training run of a
+// reader, with evaluation and checkpoints, shared by every stage the session runs
+// (fine-tuning on labelled questions, the practice stage, masked-LM on the user's
+// passages). The loop itself is loop.ts; this file wires its callbacks:
 //
-//   1. windows      records → features (src/text/features.ts), once
+//   1. windows      records → features (src/text/features.ts), once; for masked-LM,
+//                   passages → packed rows (src/train/mlm-data.ts)
 //   2. plan         updates, warmup, tokens per update (schedule.ts), logged via 'start'
 //   3. resume       weights, moments and the data position from a checkpoint, if asked
 //   4. loop         trainLoop with `evaluate` = SQuAD 2.0 EM/F1 on the validation
@@ -18,6 +20,7 @@ import type { NamedTensors } from '../io/tensors.js';
 import type { ReaderConfig } from '../model/config.js';
 import { ReaderParams } from '../model/params.js';
 import { FeatureBuilder, type FeatureTokenizer } from '../text/features.js';
+import { packDocuments, packedExample } from './mlm-data.js';
 import type { AdamWState } from './adamw.js';
 import type { TrainConfig } from './config.js';
 import { trainLoop, type LoopHooks, type LoopOutcome, type Metrics, type RunState } from './loop.js';
@@ -30,9 +33,12 @@ export interface RunMeta extends CheckpointMeta {
   /** AdamW's per-parameter step counts (the moments are tensors) */
   optimizerSteps: Record<string, number>;
   runConfig: { train: TrainConfig; model: ReaderConfig; base: string };
-  /** which stage saved it: fine-tuning on labelled questions (absent in older checkpoints) or the practice stage */
-  stage?: 'fine-tune' | 'practice';
+  /** which stage saved it: fine-tuning on labelled questions (absent in older checkpoints), the practice stage, or masked-LM on the user's passages */
+  stage?: RunStage;
 }
+
+/** The stages a run can be (RunMeta.stage). */
+export type RunStage = 'fine-tune' | 'practice' | 'domain';
 
 export interface FineTuneRequest {
   /** the starting weights; fineTune trains a copy and leaves these untouched */
@@ -57,7 +63,14 @@ export interface FineTuneRequest {
    */
   noAnswerWindowShare?: number;
   /** which stage this run is, for its checkpoints' meta (default 'fine-tune') */
-  stage?: 'fine-tune' | 'practice';
+  stage?: RunStage;
+  /**
+   * Train the encoder with masked-LM on these texts instead (domain- and task-adaptive
+   * pretraining, Gururangan et al. 2020): packed into full `[CLS] … [SEP]` rows of
+   * `config.maxLength` tokens (src/train/mlm-data.ts), BERT's 15% masking with
+   * `config.mlmProbability`. `train` and `validation` are then not used.
+   */
+  maskedLm?: { texts: readonly string[] };
   /** told the id of every checkpoint saved */
   onCheckpoint?: (id: string) => void;
 }
@@ -79,6 +92,7 @@ export function weightsOf(tensors: NamedTensors): NamedTensors {
 
 export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
   const { config } = req;
+  if (req.maskedLm) return maskedLmRun(req, req.maskedLm.texts);
   // 1. windows
   const builder = new FeatureBuilder(req.tokenizer, {
     maxLen: config.maxLength,
@@ -100,28 +114,7 @@ export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
 
   // 2. plan
   const plan = planTraining(config, features.length);
-
-  // 3. the weights to train, and the run state to continue from
-  let resume: RunState | undefined;
-  let optimizer: AdamWState | undefined;
-  let params: ReaderParams;
-  if (req.resumeFrom !== undefined) {
-    if (!req.store) throw new Error('resuming needs a checkpoint store');
-    const ckpt = await req.store.load(req.resumeFrom);
-    if (ckpt.meta.datasetHash !== req.datasetHash) {
-      throw new Error(`checkpoint "${req.resumeFrom}" was trained on other data (dataset hash ${ckpt.meta.datasetHash}, now ${req.datasetHash})`);
-    }
-    params = ReaderParams.fromNamed(req.base.config, weightsOf(ckpt.tensors), { source: `checkpoint ${req.resumeFrom}` }).params;
-    resume = ckpt.meta.run;
-    optimizer = {
-      steps: ckpt.meta.optimizerSteps,
-      tensors: new Map([...ckpt.tensors].filter(([name]) => name.startsWith('adam.'))),
-    };
-  } else {
-    params = ReaderParams.fromNamed(req.base.config, req.base.params.toNamed(), { seed: config.seed, source: req.base.name }).params;
-  }
-  const trainer = new Trainer(params, req.base.config, config, plan);
-  if (resume && optimizer) trainer.restore(resume.trainer, optimizer);
+  const { params, trainer, resume } = await startRun(req, plan);
 
   // 4. loop
   let lastMetrics: Metrics | null = null;
@@ -146,8 +139,83 @@ export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
         return m;
       }
     : undefined;
+  try {
+    const outcome = await trainLoop(trainer, { kind: 'span', features }, { ...req.hooks, evaluate, saveCheckpoint: checkpointSaver(req) }, resume);
+    return { outcome, params, plan, windows: features.length, metrics: lastMetrics };
+  } catch (err) {
+    params.dispose();
+    throw err;
+  } finally {
+    trainer.dispose();
+  }
+}
+
+/** The masked-LM run of `fineTune` (req.maskedLm): packed rows instead of windows, no evaluation. */
+async function maskedLmRun(req: FineTuneRequest, texts: readonly string[]): Promise<FineTuneResult> {
+  const { config } = req;
+  const tok = req.tokenizer as FeatureTokenizer & { maskId?: number };
+  if (tok.maskId === undefined) throw new Error('masked-LM training needs a tokenizer with a [MASK] token');
+  // 1. rows: every text's tokens, [SEP] between texts, cut into full rows
+  const encoded = texts.map((t) => tok.encodeFlat(t).ids);
+  const starts = new Int32Array(encoded.length + 1);
+  encoded.forEach((ids, d) => (starts[d + 1] = starts[d]! + ids.length));
+  const ids = new Int32Array(starts[encoded.length]!);
+  encoded.forEach((e, d) => ids.set(e, starts[d]!));
+  if (ids.length === 0) throw new Error('masked-LM training needs passages with some text');
+  const packed = packDocuments({ ids, starts }, config.maxLength, tok);
+  const sequences = Array.from({ length: packed.count }, (_, r) => packedExample(packed, r));
+  // 2. plan, 3. weights
+  const plan = planTraining(config, sequences.length);
+  const { params, trainer, resume } = await startRun(req, plan);
+  const masking = { maskId: tok.maskId!, vocabSize: req.base.config.vocabSize, specialIds: [tok.clsId, tok.sepId, tok.padId] };
+  try {
+    const outcome = await trainLoop(trainer, { kind: 'mlm', sequences, masking }, { ...req.hooks, saveCheckpoint: checkpointSaver(req) }, resume);
+    return { outcome, params, plan, windows: sequences.length, metrics: null };
+  } catch (err) {
+    params.dispose();
+    throw err;
+  } finally {
+    trainer.dispose();
+  }
+}
+
+/** Step 3: the weights to train (a copy of the base, or a checkpoint's), the trainer, and the run state to continue from. */
+async function startRun(req: FineTuneRequest, plan: TrainPlan): Promise<{ params: ReaderParams; trainer: Trainer; resume: RunState | undefined }> {
+  const { config } = req;
+  let resume: RunState | undefined;
+  let optimizer: AdamWState | undefined;
+  let params: ReaderParams;
+  if (req.resumeFrom !== undefined) {
+    if (!req.store) throw new Error('resuming needs a checkpoint store');
+    const ckpt = await req.store.load(req.resumeFrom);
+    if (ckpt.meta.datasetHash !== req.datasetHash) {
+      throw new Error(`checkpoint "${req.resumeFrom}" was trained on other data (dataset hash ${ckpt.meta.datasetHash}, now ${req.datasetHash})`);
+    }
+    params = ReaderParams.fromNamed(req.base.config, weightsOf(ckpt.tensors), { source: `checkpoint ${req.resumeFrom}` }).params;
+    resume = ckpt.meta.run;
+    optimizer = {
+      steps: ckpt.meta.optimizerSteps,
+      tensors: new Map([...ckpt.tensors].filter(([name]) => name.startsWith('adam.'))),
+    };
+  } else {
+    params = ReaderParams.fromNamed(req.base.config, req.base.params.toNamed(), { seed: config.seed, source: req.base.name }).params;
+  }
+  const trainer = new Trainer(params, req.base.config, config, plan);
+  try {
+    if (resume && optimizer) trainer.restore(resume.trainer, optimizer);
+  } catch (err) {
+    trainer.dispose();
+    params.dispose();
+    throw err;
+  }
+  return { params, trainer, resume };
+}
+
+/** The loop's checkpoint callback for the request's store (none without one), then step 5, pruning. */
+function checkpointSaver(req: FineTuneRequest): LoopHooks['saveCheckpoint'] {
+  const { config } = req;
   const store = req.store;
-  const saveCheckpoint = store
+  return store
     ? async (request: Parameters<NonNullable<LoopHooks['saveCheckpoint']>>[0]) => {
         const opt = request.optimizer();
         const tensors: NamedTensors = new Map([...request.weights(), ...opt.tensors]);
@@ -172,13 +240,4 @@ export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
         return saved.id;
       }
     : undefined;
-  try {
-    const outcome = await trainLoop(trainer, { kind: 'span', features }, { ...req.hooks, evaluate, saveCheckpoint }, resume);
-    return { outcome, params, plan, windows: features.length, metrics: lastMetrics };
-  } catch (err) {
-    params.dispose();
-    throw err;
-  } finally {
-    trainer.dispose();
-  }
 }

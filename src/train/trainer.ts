@@ -24,7 +24,8 @@
 import * as tf from '@tensorflow/tfjs';
 import type { NamedTensors } from '../io/tensors.js';
 import { parameterShapes, type ReaderConfig } from '../model/config.js';
-import { mlmLogits, spanLogits, type ReaderInputs } from '../model/encoder.js';
+import { mlmLogitsAt, spanLogits, type ReaderInputs } from '../model/encoder.js';
+import { maskedPositions } from './mlm-data.js';
 import type { ReaderParams } from '../model/params.js';
 import { AdamW, type AdamWState } from './adamw.js';
 import type { MlmBatch, SpanBatch } from './batches.js';
@@ -148,11 +149,18 @@ export class Trainer {
     });
   }
 
-  /** One masked-language-model update (pretraining / domain adaptation of the encoder). */
+  /**
+   * One masked-language-model update (pretraining / domain adaptation of the encoder),
+   * the head scoring only the masked positions (mlmLogitsAt); the loss is the same mean
+   * over them as mlmLoss over every position with −100 elsewhere.
+   */
   mlmStep(microBatches: readonly MlmBatch[], lr = this.learningRate()): StepResult {
     return this.applyUpdate(microBatches, lr, (batch, seed) => {
-      const logits = mlmLogits(this.params, this.modelConfig, readerInputs(batch), { training: true, dropoutSeed: seed });
-      return mlmLoss(logits, tf.tensor2d(batch.labels, [batch.size, batch.seqLen], 'int32'));
+      const positions = maskedPositions(batch);
+      const labels = new Int32Array(positions.length);
+      positions.forEach((at, k) => (labels[k] = batch.labels[at]!));
+      const logits = mlmLogitsAt(this.params, this.modelConfig, readerInputs(batch), tf.tensor1d(positions, 'int32'), { training: true, dropoutSeed: seed }); // [M, V]
+      return mlmLoss(tf.expandDims(logits, 0) as tf.Tensor3D, tf.tensor2d(labels, [1, positions.length], 'int32'));
     });
   }
 

@@ -187,6 +187,8 @@ describe('the browser workbench', () => {
     // small settings: a short run that still writes questions of every kind
     await fill('practice-per-passage', 2);
     await fill('practice-max-len', 48);
+    // a few seconds of masked-LM on the passages first: the two steps run as one stage
+    await fill('practice-domain-minutes', 0.05);
     await page.locator('#practice-preview').click();
     await page.locator('#practice-sample tbody tr').first().waitFor({ timeout: 60_000 });
     const rows = await page.locator('#practice-sample tbody tr').evaluateAll((trs) => trs.map((tr) => [...tr.querySelectorAll('td')].map((td) => td.textContent?.trim() ?? '')));
@@ -203,6 +205,8 @@ describe('the browser workbench', () => {
     });
     await page.locator('#practice-start').click();
     await page.locator('#run-status[data-status="running"]').waitFor({ timeout: 60_000 });
+    await page.locator('#run-status', { hasText: 'masked-LM running' }).waitFor({ timeout: 60_000 });
+    await page.locator('#run-status', { hasText: 'practice running' }).waitFor({ timeout: 120_000 });
     await page.locator('#practice-done, #run-error').first().waitFor({ timeout: 180_000 }).catch(async (err) => {
       await shot('practice-timeout');
       throw err;

@@ -4,7 +4,7 @@
 import * as tf from '@tensorflow/tfjs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { presetConfig, type ReaderConfig } from '../../src/model/config.js';
-import { mlmLogits, spanLogits, type ReaderInputs } from '../../src/model/encoder.js';
+import { mlmLogits, mlmLogitsAt, spanLogits, type ReaderInputs } from '../../src/model/encoder.js';
 import { ReaderParams } from '../../src/model/params.js';
 import { mlmLoss, spanLoss } from '../../src/train/losses.js';
 import { useBackend } from '../helpers/backend.js';
@@ -107,6 +107,18 @@ describe('architecture properties', () => {
     } finally {
       tf.dispose(Object.values(longer));
     }
+  });
+
+  it('the MLM head at chosen positions gives the rows of the full head (mlmLogits is checked against PyTorch)', () => {
+    const positions = [1, 5, 6, 13, 15];
+    const [full, picked] = tf.tidy(() => [
+      mlmLogits(params, config, inputs, { training: false }).reshape([24, config.vocabSize]).arraySync() as number[][],
+      mlmLogitsAt(params, config, inputs, tf.tensor1d(positions, 'int32'), { training: false }).arraySync() as number[][],
+    ]);
+    positions.forEach((at, k) => {
+      const worst = Math.max(...picked[k]!.map((v, j) => Math.abs(v - full[at]![j]!)));
+      expect(worst, `position ${at}`).toBeLessThan(1e-5);
+    });
   });
 
   it('the sigmoid GELU is a different function from the exact one, close to it (Hendrycks & Gimpel 2016)', () => {

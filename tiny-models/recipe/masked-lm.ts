@@ -1,22 +1,15 @@
 // defines: MaskedLmTrainer — masked-language-model updates that score only the masked
 // positions, and their held-out evaluation (loss and accuracy).
 //
-// Why not Trainer.mlmStep: `mlmLogits` (src/model/encoder.ts) decodes every position,
-// a [B·T, H] × [H, V] product plus a log-softmax over [B·T, V]. With V ≈ 12 000 and
-// H = 128 that product costs 2·H·V ≈ 3 MFLOP per token, about three times the whole
-// two-layer encoder; BERT's own pretraining code gathers the masked positions first
-// (Devlin et al. 2019, `gather_indexes` in its reference implementation, from memory).
-// Here the head runs on the M ≈ 0.15·B·T chosen positions only. The core has no such
-// entry point yet, so this file holds the smallest piece: the MLM head over gathered
-// rows (the same three steps as `mlmLogits`: dense, activation, LayerNorm, then the
-// decoder tied to the word embeddings) and an update built from the core's parts
-// (ReaderParams.variableGrads, globalNorm / clipScale, AdamW).
+// The head scores only the masked positions (the core's mlmLogitsAt, src/model/encoder.ts,
+// which says why); the update is built from the core's parts (ReaderParams.variableGrads,
+// globalNorm / clipScale, AdamW) with the recipe's time-budget schedule around it.
 //
 // Letters: B rows, T tokens per row, H hidden, V vocabulary, M masked positions.
 
 import * as tf from '@tensorflow/tfjs';
 import { parameterShapes, type ReaderConfig } from '../../src/model/config.js';
-import { hiddenStates, type ReaderInputs } from '../../src/model/encoder.js';
+import { mlmLogitsAt, type ReaderInputs } from '../../src/model/encoder.js';
 import type { ReaderParams } from '../../src/model/params.js';
 import { AdamW, type AdamWState } from '../../src/train/adamw.js';
 import type { MlmBatch } from '../../src/train/batches.js';
@@ -126,28 +119,14 @@ export class MaskedLmTrainer {
     return mlmLoss(tf.expandDims(logits, 0) as tf.Tensor3D, labels);
   }
 
-  /** As mlmLogits, but only at `positions` (flat b·T + t indices). [M, V] */
+  /** The core's head at `positions` (flat b·T + t indices). [M, V] */
   private logitsAt(batch: MlmBatch, positions: Int32Array, training: boolean, dropoutSeed: number): tf.Tensor2D {
-    const { hiddenSize: H, layerNormEps } = this.config;
-    const p = (name: string) => this.params.get(name);
     const inputs: ReaderInputs = {
       inputIds: tf.tensor2d(batch.inputIds, [batch.size, batch.seqLen], 'int32'),
       tokenTypeIds: tf.tensor2d(batch.tokenTypeIds, [batch.size, batch.seqLen], 'int32'),
       attentionMask: tf.tensor2d(batch.attentionMask, [batch.size, batch.seqLen], 'int32'),
     };
-    const hidden = tf.reshape(hiddenStates(this.params, this.config, inputs, { training, dropoutSeed }), [batch.size * batch.seqLen, H]); // [B·T, H]
-    const picked = tf.gather(hidden, tf.tensor1d(positions, 'int32')) as tf.Tensor2D; // [M, H]
-    // 1. transform: dense (weights kept [in, out]), activation, LayerNorm — as mlmLogits
-    const dense = tf.add(tf.matMul(picked, p('cls.predictions.transform.dense.weight')), p('cls.predictions.transform.dense.bias')); // [M, H]
-    const act = this.config.activation === 'gelu_sigmoid' ? tf.mul(dense, tf.sigmoid(tf.mul(dense, 1.702))) : tf.mul(tf.mul(dense, 0.5), tf.add(1, tf.erf(tf.mul(dense, Math.SQRT1_2))));
-    const mean = tf.mean(act, -1, true); // [M, 1]
-    const centred = tf.sub(act, mean); // [M, H]
-    const variance = tf.mean(tf.square(centred), -1, true); // [M, 1]
-    const normed = tf.mul(centred, tf.rsqrt(tf.add(variance, layerNormEps))); // [M, H]
-    const transformed = tf.add(tf.mul(normed, p('cls.predictions.transform.LayerNorm.weight')), p('cls.predictions.transform.LayerNorm.bias')); // [M, H]
-    // 2. decoder tied to the word embeddings; an explicit transpose, then a plain product
-    const decoder = tf.transpose(p('bert.embeddings.word_embeddings.weight')); // [H, V]
-    return tf.add(tf.matMul(transformed, decoder), p('cls.predictions.bias')) as tf.Tensor2D; // [M, V]
+    return mlmLogitsAt(this.params, this.config, inputs, tf.tensor1d(positions, 'int32'), { training, dropoutSeed });
   }
 }
 

@@ -29,8 +29,9 @@ export function register(program: Command): void {
     .option('--lr <x>', 'peak learning rate (default: the one suggested for the base width, as train)')
     .option('--seed <n>', 'seed for data order and dropout')
     .option('--practice-epochs <n>', `passes over the practice questions (default ${PRACTICE_DEFAULTS.epochs}); 0 skips the practice stage`)
+    .option('--domain-minutes <n>', 'first train the encoder with masked-LM on the training passages for about this many minutes (default 0)')
     .option('--json', 'print {before, afterPractice, after, afterTrainedCut, baseline, out} as one JSON object on the last line')
-    .action((o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json' | 'practiceEpochs'> & { out?: string }) =>
+    .action((o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json' | 'practiceEpochs' | 'domainMinutes'> & { out?: string }) =>
       runCommand(async () => {
         const train = join(DEMO, 'train.jsonl');
         const validation = join(DEMO, 'validation.jsonl');
@@ -45,7 +46,7 @@ export function register(program: Command): void {
         const options: TrainOptions = { train, base: o.base, out, epochs: o.epochs, lr: o.lr, seed: o.seed };
         const config = configFromOptions(options);
         // the practice stage reads the training split's passages only, never the validation passages
-        const practiceOptions: TrainOptions = { ...options, practiceFrom: o.practiceEpochs === '0' ? undefined : 'train', practiceEpochs: o.practiceEpochs };
+        const practiceOptions: TrainOptions = { ...options, practiceFrom: o.practiceEpochs === '0' ? undefined : 'train', practiceEpochs: o.practiceEpochs, domainMinutes: o.domainMinutes };
         const log = (line: string) => process.stderr.write(`${line}\n`);
         log(`demo: ${practiceOptions.practiceFrom ? 'practice questions from the training passages, then ' : ''}fine-tuning ${o.base} on ${train}, measuring on ${validation}, writing ${out}`);
         const run = await trainReader(
@@ -78,6 +79,7 @@ export function register(program: Command): void {
         const warnings = readerWarnings(cut.summary, before.summary, baseline.summary);
         if (warnings.length > 0) warnings.push(`(The warnings compare the row "fine-tuned, cut … from training" with the base and the baseline. The base's card, ${join(o.base, 'MODEL_CARD.md')}, says how it was measured.)`);
         process.stdout.write(`${warnings.map((w) => `${w}\n`).join('')}\n`);
+        if (run.domain) process.stdout.write(`masked-LM on the ${new Set(run.train.map((r) => r.passageId)).size} training passages: ${run.domain.passes} passes, ${run.domain.updates} updates, ${run.domain.seconds.toFixed(0)} s\n`);
         if (run.practice) process.stdout.write(`${run.practice.questions} practice questions from the ${new Set(run.train.map((r) => r.passageId)).size} training passages, ${run.practice.updates} updates, ${run.practice.seconds.toFixed(0)} s\n`);
         process.stdout.write(`${run.train.length} training questions, ${run.config.epochs} epochs, ${run.seconds.toFixed(0)} s in all\n`);
         process.stdout.write(`model directory: ${out}/\n`);

@@ -21,7 +21,7 @@ import { DEFAULT_TRAIN_CONFIG, suggestedLearningRate, trainConfig, type TrainCon
 import { configFromHf, type QuestionMatch } from '../../model/config.js';
 import type { PracticeOptions, PracticePassage } from '../../practice/generate.js';
 import type { EvaluationResult } from '../../session/types.js';
-import { practiceTrainSettings } from '../../session/windows.js';
+import { domainTrainSettings, practiceTrainSettings } from '../../session/windows.js';
 import type { SquadScores } from '../../eval/squad-metric.js';
 import type { RunMeta } from '../../train/finetune.js';
 
@@ -48,6 +48,8 @@ export interface TrainOptions {
   practicePerPassage?: string;
   practiceMaxLen?: string;
   questionMatch?: string | boolean;
+  /** masked-LM on the same passages first, for about this many minutes */
+  domainMinutes?: string;
 }
 
 function int(name: string, v: string | undefined): number | undefined {
@@ -133,11 +135,14 @@ export const PRACTICE_DEFAULTS = {
  * folder (`readPassages`, ask.ts), or the training questions' own passages for "train".
  */
 export async function practiceFromOptions(o: TrainOptions, train: QARecord[], config: TrainConfig): Promise<PracticeStep | undefined> {
-  if (o.practiceFrom === undefined) return undefined;
+  const minutes = o.domainMinutes === undefined ? 0 : Number(o.domainMinutes);
+  if (!(minutes >= 0)) throw new UserError(`--domain-minutes must be a number of minutes, not "${o.domainMinutes}"`);
+  if (o.practiceFrom === undefined && minutes === 0) return undefined;
   const { readPassages } = await import('./ask.js');
   const { passagesOf } = await import('../../session/reader-session.js');
-  const fromTrain = o.practiceFrom === 'train';
-  const passages = fromTrain ? passagesOf(train) : await readPassages(o.practiceFrom);
+  const from = o.practiceFrom ?? 'train';
+  const fromTrain = from === 'train';
+  const passages = fromTrain ? passagesOf(train) : await readPassages(from);
   const maxLength = int('practice-max-len', o.practiceMaxLen) ?? PRACTICE_DEFAULTS.maxLength;
   let stage: TrainConfig;
   try {
@@ -148,12 +153,19 @@ export async function practiceFromOptions(o: TrainOptions, train: QARecord[], co
   const perPassage = int('practice-per-passage', o.practicePerPassage) ?? PRACTICE_DEFAULTS.perPassage;
   return {
     passages,
-    source: fromTrain ? "the training questions' passages" : o.practiceFrom,
+    source: fromTrain ? "the training questions' passages" : from,
+    practice: o.practiceFrom !== undefined,
     config: stage,
     questions: { perPassage, seed: config.seed },
     questionMatch: matchLevel(o.questionMatch),
+    domain: minutes > 0 ? { minutes, config: domainSettings(config) } : undefined,
     measure: true,
   };
+}
+
+/** The domain stage's settings (src/session/windows.ts), checked. */
+function domainSettings(config: TrainConfig): TrainConfig {
+  return trainConfig(domainTrainSettings(config));
 }
 
 export interface TrainRun {
@@ -168,16 +180,22 @@ export interface TrainRun {
   baseline: { minCoverage: number; summary: SquadScores } | null;
   /** the practice stage, when it ran */
   practice: { questions: number; updates: number; seconds: number; afterPractice: EvaluationResult | null } | null;
+  /** the masked-LM stage on the passages, when it ran */
+  domain: { passes: number; rows: number; updates: number; seconds: number } | null;
   out: string;
   files: Array<{ name: string; bytes: number }>;
   seconds: number;
 }
 
-/** The practice stage of a training run: where its passages come from and how long it trains. */
+/** The stages before fine-tuning: where their passages come from and how long each trains. */
 export interface PracticeStep {
   passages: PracticePassage[];
   /** a name for the passages in messages ("the training questions' passages", a file) */
   source: string;
+  /** masked-LM on the passages first, for a time budget */
+  domain?: { minutes: number; config: TrainConfig };
+  /** the practice stage itself runs (false: only the domain stage) */
+  practice: boolean;
   config: TrainConfig;
   questions?: Partial<PracticeOptions>;
   questionMatch?: QuestionMatch;
@@ -244,8 +262,24 @@ export async function trainReader(
 
     // 2a. the practice stage, from the user's passages
     let practice: TrainRun['practice'] = null;
+    let domain: TrainRun['domain'] = null;
     const step = await o.practice?.(train);
-    if (step) {
+    if (step?.domain) {
+      const t0 = performance.now();
+      const hash = `domain:${step.passages.length}:${step.passages.reduce((a, p) => a + p.text.length, 0)}`;
+      const resumeFrom = o.resume ? (await session.latestCheckpoint({ datasetHash: hash, stage: 'domain' }))?.id : undefined;
+      log(`domain stage: masked-LM on ${step.passages.length} passages of ${step.source} for about ${step.domain.minutes} min`);
+      const progress = trainingProgress('masked-LM');
+      let ended;
+      try {
+        ended = await session.domainPretrain({ runId: 'domain', passages: step.passages, config: step.domain.config, minutes: step.domain.minutes, datasetHash: hash, resumeFrom, onEvent: progress.onEvent, signal: abort.signal });
+      } finally {
+        progress.stop();
+      }
+      if (ended.status === 'stopped') throw new UserError(`stopped in the masked-LM stage at update ${ended.update}; continue with the same command and --resume`, 130);
+      domain = { passes: ended.passes, rows: ended.rows, updates: ended.totalUpdates, seconds: (performance.now() - t0) / 1000 };
+    }
+    if (step?.practice) {
       const p = step;
       const t0 = performance.now();
       const preview = session.previewPractice({ passages: p.passages, questions: p.questions, sample: 0 });
@@ -303,7 +337,8 @@ export async function trainReader(
         scores: after ? { withoutThreshold: after.summary, withThreshold: after.tuned ? { ...after.tuned.summary, threshold: after.tuned.threshold } : undefined } : undefined,
         baseScores: before?.summary,
         notes: [
-          ...(practice ? [`first trained on ${practice.questions} practice questions written from ${step!.source} (${practice.updates} updates)`] : []),
+          ...(domain ? [`first trained with masked-LM on ${step!.source} (${domain.passes} passes over ${domain.rows} rows of 128 tokens, ${domain.updates} updates)`] : []),
+          ...(practice ? [`${domain ? 'then' : 'first'} trained on ${practice.questions} practice questions written from ${step!.source} (${practice.updates} updates)`] : []),
           `fine-tuned for ${ended.totalUpdates} updates (${config.epochs} epochs, windows of ${config.maxLength} tokens)`,
         ],
       },
@@ -318,6 +353,7 @@ export async function trainReader(
       afterTrainedCut,
       baseline,
       practice,
+      domain,
       out: o.out,
       files: out.map((f) => ({ name: f.name, bytes: f.bytes.length })),
       seconds: (performance.now() - started) / 1000,
@@ -349,6 +385,7 @@ export function register(program: Command): void {
     .option('--practice-epochs <n>', `passes over the practice questions (default ${PRACTICE_DEFAULTS.epochs})`)
     .option('--practice-per-passage <n>', `practice questions per passage (default ${PRACTICE_DEFAULTS.perPassage})`)
     .option('--practice-max-len <n>', `tokens per practice window (default ${PRACTICE_DEFAULTS.maxLength})`)
+    .option('--domain-minutes <n>', 'first train the encoder with masked-LM on the same passages (--practice-from, or the training passages) for about this many minutes (default 0: not at all)')
     .option('--question-match [level]', 'word-match token types for the practice stage: "words" (passage words found in the question) or "words+sentence" (also the best-matching sentence, the default level); on already when the base\'s config.json says so')
     .option('--resume', 'continue from the last checkpoint in <out>/checkpoints')
     .option('--json', 'print the evaluation as one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, tuned}')
