@@ -95,7 +95,7 @@ export class CheckpointScreen extends LitElement {
                   (c) => html`<tr class=${this.compare.has(c.id) ? 'chosen' : ''} data-id=${c.id}>
                     <td><input type="checkbox" aria-label="Compare ${c.id}" .checked=${this.compare.has(c.id)} @change=${() => this._onToggleCompare(c.id)} /></td>
                     <td><code>${c.id}</code></td>
-                    <td>${c.meta.stage === 'practice' ? 'practice' : 'fine-tuning'}</td>
+                    <td class="stage">${c.meta.stage === 'practice' ? 'practice' : c.meta.stage === 'domain' ? 'masked-LM' : 'fine-tuning'}</td>
                     <td class="num">${c.meta.step}</td>
                     <td>${c.meta.label ?? ''}</td>
                     <td class="num">${score(c.meta.metrics.validationEM)}</td>

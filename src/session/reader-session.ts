@@ -393,9 +393,11 @@ export class ReaderSession {
     const from = this.reader('start');
     if (!from.params.variables.has('cls.predictions.bias')) throw new Error(`${from.name} has no MLM head, so it cannot be trained with masked-LM`);
     const texts = args.passages.map((p) => p.text);
+    // rows no longer than the reader's position table
+    const config = this.trainSettings(args.config, from);
     const datasetHash = args.datasetHash ?? `domain:${texts.length}:${texts.reduce((a, t) => a + t.length, 0)}`;
     const run = this.beginRun(args.runId);
-    let passes = args.config.epochs;
+    let passes = config.epochs;
     let rows = 0;
     try {
       if (args.resumeFrom !== undefined) {
@@ -411,7 +413,7 @@ export class ReaderSession {
           tokenizer: from.tokenizer,
           train: [],
           maskedLm: { texts },
-          config: { ...args.config, epochs: 1 },
+          config: { ...config, epochs: 1 },
           datasetHash: 'timing',
           hooks: { onEvent: (e) => e.type === 'progress' && stepMs.push(e.stepMs), shouldStop: () => stepMs.length >= 3 },
         });
@@ -426,7 +428,7 @@ export class ReaderSession {
     const ended = await this.train(
       run,
       from,
-      { runId: args.runId, train: [], validation: [], config: { ...args.config, epochs: passes }, datasetHash, resumeFrom: args.resumeFrom, onEvent: (e) => {
+      { runId: args.runId, train: [], validation: [], config: { ...config, epochs: passes }, datasetHash, resumeFrom: args.resumeFrom, onEvent: (e) => {
         if (e.type === 'start') rows = e.plan.features;
         args.onEvent?.(e);
       }, shouldStop: args.shouldStop, signal: args.signal },
