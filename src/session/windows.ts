@@ -8,7 +8,7 @@
 //      (max_position_embeddings), with a note when it is cut
 //   2. question tokens: the asked value, or 64 but at most a third of the window (also
 //      when an asked value no longer fits a window cut in step 1)
-//   3. stride: the asked value, or 128 but at most a third of the window's context room,
+//   3. stride: the asked value, or 128 but at most half the window's context room,
 //      so a short window (--max-len 128) gets a stride that fits (also when an asked
 //      stride no longer fits a window cut in step 1)
 //   4. the stride must be below the context room beside the longest question:
@@ -65,7 +65,7 @@ export function resolveWindows(asked: Partial<WindowSettings>, reader: Pick<Read
   const room = maxLength - maxQueryLength - 3;
   if (room < 1) throw new RangeError(`maxQueryLength ${maxQueryLength} leaves no room for context in a window of ${maxLength} tokens`);
   // 3. (likewise the stride)
-  const fitting = Math.min(DEFAULT_WINDOWS.stride, Math.floor(room / 3));
+  const fitting = Math.min(DEFAULT_WINDOWS.stride, Math.floor(room / 2));
   const stride = asked.stride === undefined ? fitting : cut && asked.stride >= room ? fitting : asked.stride;
   // 4.
   if (stride >= room) {

@@ -28,10 +28,10 @@ import { fileURLToPath } from 'node:url';
 import { parseDataset } from '../../src/data/load.js';
 import type { QARecord } from '../../src/data/record.js';
 import type { SquadScores } from '../../src/eval/squad-metric.js';
-import { ReaderSession, passagesOf } from '../../src/session/reader-session.js';
-import { domainTrainSettings, practiceTrainSettings, type WindowSettings } from '../../src/session/windows.js';
-import { suggestedLearningRate, trainConfig, type TrainConfig } from '../../src/train/config.js';
+import type { WindowSettings } from '../../src/session/windows.js';
+import type { TrainConfig } from '../../src/train/config.js';
 import { buildFactbookQa } from '../external/factbook-qa.js';
+import { measureStages } from '../external/reader-measure.js';
 import { useBackend } from '../helpers/backend.js';
 
 const here = dirname(fileURLToPath(import.meta.url));
@@ -80,15 +80,6 @@ export function sets(): SetSpec[] {
   ];
 }
 
-function modelFiles(dir: string) {
-  const path = (f: string) => join(root, dir, f);
-  return {
-    configJson: readFileSync(path('config.json'), 'utf8'),
-    safetensors: new Uint8Array(readFileSync(path('model.safetensors'))),
-    vocab: { file: 'vocab.txt' as const, text: readFileSync(path('vocab.txt'), 'utf8') },
-  };
-}
-
 export interface RunScore {
   f1: number;
   answerableF1: number;
@@ -96,31 +87,16 @@ export interface RunScore {
   minutes: number;
 }
 
-/** One row, one set, one seed: the stages through a fresh session, then the trained-cut score. */
+/** One row, one set, one seed, through the session (tests/external/reader-measure.ts, measureStages). */
 export async function runOnce(row: AblationRow, set: SetSpec, seed: number, log: (line: string) => void): Promise<RunScore> {
-  const started = performance.now();
-  const session = new ReaderSession();
-  try {
-    const info = session.loadBase({ name: row.base, files: modelFiles(row.base) });
-    const config = trainConfig({ ...set.windows, ...set.fineTune, learningRate: suggestedLearningRate(info.config.hiddenSize), seed });
-    const passages = passagesOf(set.train);
-    if (row.match) session.setQuestionMatch({ level: 'words+sentence' });
-    if (row.domainMinutes > 0) {
-      const domain = trainConfig(domainTrainSettings(config));
-      await session.domainPretrain({ runId: 'domain', passages, config: domain, minutes: row.domainMinutes });
-    }
-    if (row.practice) {
-      const practice = trainConfig(practiceTrainSettings(config, { epochs: 1, maxLength: set.practiceMaxLength }));
-      await session.practice({ runId: 'practice', passages, questions: { perPassage: 40, seed }, config: practice });
-    }
-    await session.fineTune({ runId: 'fine-tune', train: set.train, validation: [], config, datasetHash: 'ablation' });
-    const { summary } = session.scoreWithTrainedCut({ model: 'tuned', tuneOn: set.train.slice(0, 400), records: set.heldOut, ...set.windows });
-    const score = { f1: summary.f1 ?? 0, answerableF1: summary.answerable.f1 ?? 0, unanswerableF1: summary.unanswerable.f1 ?? 0, minutes: (performance.now() - started) / 60000 };
-    log(`${row.name} ${set.name} seed ${seed}: F1 ${score.f1.toFixed(1)} (answerable ${score.answerableF1.toFixed(1)}, unanswerable ${score.unanswerableF1.toFixed(1)}), ${score.minutes.toFixed(1)} min`);
-    return score;
-  } finally {
-    session.dispose();
-  }
+  const r = await measureStages(
+    { baseDir: join(root, row.base), match: row.match, practice: row.practice, domainMinutes: row.domainMinutes },
+    { train: set.train, heldOut: set.heldOut },
+    { windows: set.windows, fineTune: set.fineTune, practiceMaxLength: set.practiceMaxLength, seed },
+  );
+  const score = { f1: r.scores.f1 ?? 0, answerableF1: r.scores.answerable.f1 ?? 0, unanswerableF1: r.scores.unanswerable.f1 ?? 0, minutes: r.minutes };
+  log(`${row.name} ${set.name} seed ${seed}: F1 ${score.f1.toFixed(1)} (answerable ${score.answerableF1.toFixed(1)}, unanswerable ${score.unanswerableF1.toFixed(1)}), ${score.minutes.toFixed(1)} min`);
+  return score;
 }
 
 const mean = (xs: number[]) => xs.reduce((a, x) => a + x, 0) / xs.length;

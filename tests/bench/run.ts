@@ -1,8 +1,10 @@
 // defines: `npm run bench` — every benchmark in one run.
 //   1. the tokenizer bench (tests/bench/tokenize.ts, another stage's), when present,
 //      in its own process so the two do not share a heap
-//   2. with --quality only (it trains for 10–15 minutes): the learning curves
-//      (quality.ts), with --json printed as one `{"quality": …}` line
+//   2. with --quality only (it trains for hours: 6 rows × 2 sets × 3 seeds): the
+//      ablation table of the reader's stages (ablation.ts; --seeds, --rows, --sets narrow
+//      it), with --json one `{"ablation": …}` line; with --curves, the learning curves of
+//      the shipped base (quality.ts, 10–15 minutes), with --json one `{"quality": …}` line
 //   3. the engine bench (engine.ts), last, so with --json its JSON object is the
 //      LAST line of the output
 // Arguments are passed to all (e.g. --json, --skip-cpu).
@@ -26,6 +28,10 @@ if (existsSync(tokenizeBench)) {
 }
 
 if (args.includes('--quality')) {
+  const { main: ablationMain } = await import('./ablation.js');
+  await ablationMain(args);
+}
+if (args.includes('--curves')) {
   const { main: qualityMain } = await import('./quality.js');
   await qualityMain(args);
 }

@@ -1,4 +1,5 @@
-// defines: BASE_DIR, loadBaseReader, scoreReader, scoreReaderTuned, fineTuneReader, lexicalBaselineScores —
+// defines: BASE_DIR, loadBaseReader, scoreReader, scoreReaderTuned, fineTuneReader, lexicalBaselineScores,
+// StageChoice, measureStages —
 // the measuring steps that the outside check (factbook.test.ts) and the quality bench
 // (tests/bench/quality.ts) share: load the shipped base reader from disk, score a reader
 // on records with the project's SQuAD 2.0 evaluation, fine-tune a copy briefly, and score
@@ -106,3 +107,68 @@ export async function fineTuneReader(
 }
 
 export { lexicalBaselineScores } from '../../src/eval/lexical-baseline.js';
+
+/** Which stages a measured run takes before fine-tuning (tests/bench/ablation.ts names them). */
+export interface StageChoice {
+  /** model folder */
+  baseDir: string;
+  /** word-match token types on (for a base that lacks them) */
+  match: boolean;
+  /** practice questions from the training questions' passages first */
+  practice: boolean;
+  /** masked-LM on those passages first, for about this many minutes; 0: none */
+  domainMinutes: number;
+}
+
+export interface StageScores {
+  /** SQuAD 2.0 scores on the held-out questions, no-answer cut chosen on `tuneOn` */
+  scores: SquadScores;
+  threshold: number;
+  updates: { domain: number; practice: number; fineTune: number };
+  minutes: number;
+}
+
+/**
+ * The main job through the session use-cases, as `npm run demo` runs it: load the base,
+ * the chosen stages on the training questions' passages, fine-tuning on the training
+ * questions, then the held-out questions scored with the no-answer cut chosen on (400 of)
+ * the training questions.
+ */
+export async function measureStages(
+  choice: StageChoice,
+  data: { train: readonly QARecord[]; heldOut: readonly QARecord[] },
+  settings: { windows: WindowSettings; fineTune: Partial<TrainConfig>; practiceMaxLength: number; seed: number },
+): Promise<StageScores> {
+  const { ReaderSession, passagesOf } = await import('../../src/session/reader-session.js');
+  const { domainTrainSettings, practiceTrainSettings } = await import('../../src/session/windows.js');
+  const { suggestedLearningRate } = await import('../../src/train/config.js');
+  const started = performance.now();
+  const session = new ReaderSession();
+  const file = (f: string) => join(choice.baseDir, f);
+  try {
+    const info = session.loadBase({
+      name: choice.baseDir,
+      files: {
+        configJson: readFileSync(file('config.json'), 'utf8'),
+        safetensors: new Uint8Array(readFileSync(file('model.safetensors'))),
+        vocab: { file: 'vocab.txt', text: readFileSync(file('vocab.txt'), 'utf8') },
+      },
+    });
+    const config = trainConfig({ ...settings.windows, learningRate: suggestedLearningRate(info.config.hiddenSize), ...settings.fineTune, seed: settings.seed });
+    const passages = passagesOf([...data.train]);
+    const updates = { domain: 0, practice: 0, fineTune: 0 };
+    if (choice.match) session.setQuestionMatch({ level: 'words+sentence' });
+    if (choice.domainMinutes > 0) {
+      updates.domain = (await session.domainPretrain({ runId: 'domain', passages, config: trainConfig(domainTrainSettings(config)), minutes: choice.domainMinutes })).totalUpdates;
+    }
+    if (choice.practice) {
+      const practice = trainConfig(practiceTrainSettings(config, { epochs: 1, maxLength: settings.practiceMaxLength }));
+      updates.practice = (await session.practice({ runId: 'practice', passages, questions: { perPassage: 40, seed: settings.seed }, config: practice })).totalUpdates;
+    }
+    updates.fineTune = (await session.fineTune({ runId: 'fine-tune', train: [...data.train], validation: [], config, datasetHash: 'not-stored' })).totalUpdates;
+    const { summary, threshold } = session.scoreWithTrainedCut({ model: 'tuned', tuneOn: data.train.slice(0, 400), records: [...data.heldOut], ...settings.windows });
+    return { scores: summary, threshold, updates, minutes: (performance.now() - started) / 60000 };
+  } finally {
+    session.dispose();
+  }
+}

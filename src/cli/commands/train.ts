@@ -21,7 +21,7 @@ import { DEFAULT_TRAIN_CONFIG, suggestedLearningRate, trainConfig, type TrainCon
 import { configFromHf, type QuestionMatch } from '../../model/config.js';
 import type { PracticeOptions, PracticePassage } from '../../practice/generate.js';
 import type { EvaluationResult } from '../../session/types.js';
-import { domainTrainSettings, practiceTrainSettings } from '../../session/windows.js';
+import { domainTrainSettings, practiceTrainSettings, resolveWindows } from '../../session/windows.js';
 import type { SquadScores } from '../../eval/squad-metric.js';
 import type { RunMeta } from '../../train/finetune.js';
 
@@ -98,8 +98,16 @@ export function configFromOptions(o: TrainOptions): TrainConfig {
   set('maxQueryLength', int('max-query', o.maxQuery));
   set('seed', int('seed', o.seed));
   // a short window keeps at most a third of itself for the question, unless told otherwise
-  if (overrides.maxLength !== undefined && overrides.maxQueryLength === undefined) {
-    overrides.maxQueryLength = Math.min(DEFAULT_TRAIN_CONFIG.maxQueryLength, Math.floor(overrides.maxLength / 3));
+  if (overrides.maxLength !== undefined) {
+    // the question length and stride a window of this length gets by the one rule (src/session/windows.ts)
+    let fitted;
+    try {
+      fitted = resolveWindows({ maxLength: overrides.maxLength, stride: overrides.stride, maxQueryLength: overrides.maxQueryLength }, { maxPositions: Number.MAX_SAFE_INTEGER });
+    } catch (err) {
+      throw new UserError(`--${(err as Error).message.replace(/^maxLength/, 'max-len').replace(/^stride/, 'stride').replace(/^maxQueryLength/, 'max-query')}`);
+    }
+    overrides.maxQueryLength ??= fitted.settings.maxQueryLength;
+    overrides.stride ??= fitted.settings.stride;
   }
   const c = { ...DEFAULT_TRAIN_CONFIG, ...overrides };
   if (c.stride >= c.maxLength - c.maxQueryLength - 3) {
