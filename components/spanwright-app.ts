@@ -15,7 +15,7 @@ import { customElement, state } from 'lit/decorators.js';
 import { hashDataset } from '../src/data/hash.js';
 import { splitByPassage, type Split } from '../src/data/split.js';
 import { domainTrainSettings, practiceTrainSettings } from '../src/session/windows.js';
-import { DEFAULT_TRAIN_CONFIG, suggestedLearningRate, type TrainConfig } from '../src/train/config.js';
+import { suggestedLearningRate, type TrainConfig } from '../src/train/config.js';
 import type { LoopEvent } from '../src/train/loop.js';
 import type { BaseInfo, EngineReady, EvaluationResult } from '../workers/protocol.js';
 import { EngineClient } from './engine-client.js';
@@ -34,7 +34,7 @@ import {
 import { DEFAULT_PRACTICE, type PracticeSettings } from './practice-panel.js';
 import './data-screen.js';
 import './reader-screen.js';
-import './training-screen.js';
+import { START_SETTINGS } from './training-screen.js';
 import './checkpoint-screen.js';
 import './evaluation-screen.js';
 import './ask-screen.js';
@@ -52,8 +52,6 @@ const SCREENS: ReadonlyArray<{ name: ScreenName; label: string }> = [
   { name: 'export', label: 'Export' },
 ];
 
-/** The tutorial-sized defaults: BERT's settings (src/train/config.ts) with a shorter window for a CPU. */
-const START_SETTINGS: TrainConfig = { ...DEFAULT_TRAIN_CONFIG, maxLength: 256, stride: 64, evalEvery: 0 };
 
 /** The smallest valid module using a SIMD instruction (v128 result, i8x16.splat), written from the WebAssembly spec. */
 const SIMD_PROBE = new Uint8Array([

@@ -38,6 +38,9 @@ const FIELDS: ReadonlyArray<{ key: NumericField; label: string; step: string; he
   { key: 'evalEvery', label: 'Evaluation interval', step: '1', help: 'Score validation (and save a checkpoint) every this many updates; 0 = once per epoch.' },
 ];
 
+/** The workbench's defaults: BERT's settings (src/train/config.ts) with a shorter window for a CPU. */
+export const START_SETTINGS: TrainConfig = { ...DEFAULT_TRAIN_CONFIG, maxLength: 256, stride: 64, evalEvery: 0 };
+
 @customElement('training-screen')
 export class TrainingScreen extends LitElement {
   static override styles = [
@@ -83,7 +86,7 @@ export class TrainingScreen extends LitElement {
   /** A setting's default; the learning rate's depends on the loaded reader's width. */
   private _defaultOf(key: keyof TrainConfig): string {
     if (key === 'learningRate' && this.baseInfo !== null) return `${suggestedLearningRate(this.baseInfo.config.hiddenSize)} for this reader's width`;
-    return String(DEFAULT_TRAIN_CONFIG[key]);
+    return String(START_SETTINGS[key]);
   }
 
   override render() {

@@ -46,10 +46,21 @@ export interface SpanStageFacts {
   heldOut: { questions: number; em: number | null; f1: number | null; answerableF1: number | null; unanswerableF1: number | null };
 }
 
+/** The third stage (reading-stage.ts), when it ran: practice questions from the open corpus, with word-match token types. */
+export interface ReadingStageFacts {
+  method: string;
+  passages: number;
+  questions: number;
+  updates: number;
+  minutes: number;
+  settings: { learningRate: number; batchSize: number; maxLength: number; stride: number; epochs: number; perPassage: number; seed: number; questionMatch: boolean };
+  heldOut?: { questions: number; unanswerable: number; em: number | null; f1: number | null; answerableF1: number | null; unanswerableF1: number | null };
+}
+
 const f = (x: number, digits = 2) => (Number.isFinite(x) ? x.toFixed(digits) : 'n/a');
 const millions = (x: number) => `${(x / 1e6).toFixed(2)} M`;
 
-export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null): string {
+export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null, reading: ReadingStageFacts | null = null): string {
   const { config: m, settings: s } = c;
   const out: string[] = [];
   out.push(`# Spanwright base reader (${c.preset}, uncased)`, '');
@@ -60,8 +71,11 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null)
       (span === null
         ? '. It is the starting point that Spanwright fine-tunes into an extractive question-answering reader; ' +
           'it has **no trained span head** (`qa_outputs` is left out, so loading it says the head is initialised afresh), and it answers nothing until fine-tuned.'
-        : ', then given a span head trained on extractive questions made mechanically from WordNet (see "Span stage"). ' +
-          'It is the starting point that Spanwright fine-tunes into a reader for your domain; out of the box it answers only dictionary-style questions, and poorly.'),
+        : reading === null
+          ? ', then given a span head trained on extractive questions made mechanically from WordNet (see "Span stage"). ' +
+            'It is the starting point that Spanwright fine-tunes into a reader for your domain; out of the box it answers only dictionary-style questions, and poorly.'
+          : ', then given a span head trained on extractive questions made mechanically from WordNet (see "Span stage"), then taught to read with word-match ' +
+            'token types on practice questions written from open prose (see "Reading stage"). It is the starting point that Spanwright fine-tunes into a reader for your domain.'),
     '',
   );
 
@@ -72,6 +86,7 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null)
   out.push('| `vocab.txt` | the uncased WordPiece vocabulary, one token per line, id = line number − 1 |');
   out.push('| `pretraining.json` | the numbers of this card as data, with the run settings |');
   if (span !== null) out.push('| `span-pretraining.json` | the span stage\'s numbers and settings |');
+  if (reading !== null) out.push('| `reading-stage.json` | the reading stage\'s numbers and settings |');
   out.push('');
 
   out.push('## Size', '');
@@ -167,6 +182,37 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null)
     );
   }
 
+  if (reading !== null) {
+    const s = reading.settings;
+    const h = reading.heldOut;
+    const pc = (x: number | null | undefined) => (x === null || x === undefined ? 'n/a' : f(x, 1));
+    out.push('## Reading stage', '');
+    out.push(
+      `Then the reader was trained once through ${reading.questions.toLocaleString('en-US')} practice questions — ${reading.method} — written by Spanwright's own ` +
+        'generator (`src/practice/`, the one the workbench and `train --practice-from` run on a user\'s passages): a sentence turned into a question about one of its ' +
+        'names, numbers, dates or phrases (cloze-to-question rules in the manner of Lewis et al. 2019), a span that recurs in the passage asked about from one ' +
+        'occurrence with that sentence taken out (recurring-span selection, Ram et al. 2021), and a quarter of them asked again of a context without the answer. ' +
+        (s.questionMatch
+          ? 'The reader reads word-match token types (`"spanwright_question_match": "words+sentence"` in config.json): passage words the question also holds, ' +
+            'and the sentence holding the largest rarity-weighted share of the question\'s words (DrQA\'s exact-match feature, Chen et al. 2017, and a sentence ' +
+            'coverage in the manner of word-overlap readers), carried in BERT\'s own `token_type_ids`, so the architecture and the ONNX graph stay BERT\'s. '
+          : ''),
+      '',
+    );
+    out.push(
+      `- ${reading.passages.toLocaleString('en-US')} passages, ${s.perPassage} questions each at most, ${reading.updates.toLocaleString('en-US')} updates of ${s.batchSize} windows of ` +
+        `${s.maxLength} tokens (every window holding an answer, a tenth of the others), peak learning rate ${s.learningRate} with 10% warmup and linear decay, ` +
+        `${f(reading.minutes, 1)} minutes on 2 shared cores, the project's own training loop through the session (ReaderSession.practice).`,
+    );
+    if (h) {
+      out.push(
+        `- Held-out practice questions (${h.questions.toLocaleString('en-US')}, ${h.unanswerable} without an answer, written the same way from the corpus documents the ` +
+          `masked-LM stage held out), SQuAD 2.0 rules: EM ${pc(h.em)}, F1 ${pc(h.f1)} (answerable F1 ${pc(h.answerableF1)}, unanswerable ${pc(h.unanswerableF1)}).`,
+      );
+    }
+    out.push('');
+  }
+
   out.push('## Why this size', '');
   if (c.sizes !== null) {
     out.push(
@@ -214,6 +260,7 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null)
         ? ''
         : `This folder took two runs: a first one as above (${f(c.initFrom.trainingMinutes, 1)} minutes of training at peak learning rate ${c.initFrom.learningRate}, written with \`--finish\`), then \`--init FIRST_DIR --minutes ${s.minutes} --lr ${s.learningRate} --work OTHER_WORK_DIR\` from its folder. `) +
       (span === null ? '' : 'The span stage: `npm run build:base:span -- --from DIR --out DIR`. ') +
+      (reading === null ? '' : `The reading stage: \`npm run build:base:reading -- --from DIR --out DIR --max-len ${reading.settings.maxLength} --per-passage ${reading.settings.perPassage}\` (it resumes from its checkpoints under \`runs/base-build/reading/\`). `) +
       'The recipe is in `tiny-models/recipe/`.',
     '',
   );

@@ -15,6 +15,9 @@
 //                 the others; the question-match token type on unless `--match off`
 //   4. write      config.json, fp16 model.safetensors, vocab.txt, reading-stage.json
 //                 (numbers and settings); the card is rendered by card.ts from the facts
+//   5. measure    held-out practice questions written the same way from the corpus
+//                 documents the masked-LM stage held out (`--measure DIR` does only this,
+//                 for a folder written before), SQuAD 2.0 rules, into reading-stage.json
 import { mkdirSync, readFileSync, writeFileSync, existsSync, copyFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { FsCheckpointStore } from '../../src/cli/fs-store.js';
@@ -26,9 +29,10 @@ import { splitSentences } from '../../src/practice/sentences.js';
 import { ReaderSession } from '../../src/session/reader-session.js';
 import { trainConfig } from '../../src/train/config.js';
 import type { RunMeta } from '../../src/train/finetune.js';
+import { renderBaseCard, type CardFacts, type ReadingStageFacts, type SpanStageFacts } from './card.js';
 import { heldOutIds, readCorpus } from './corpus.js';
 
-const known = ['--from', '--out', '--work', '--per-passage', '--epochs', '--lr', '--seed', '--max-len', '--match', '--minutes'];
+const known = ['--from', '--out', '--work', '--per-passage', '--epochs', '--lr', '--seed', '--max-len', '--match', '--measure'];
 const args = new Map<string, string>();
 for (let i = 2; i < process.argv.length; i += 2) {
   const flag = process.argv[i]!;
@@ -50,13 +54,16 @@ for (const [name, v] of [['per-passage', perPassage], ['epochs', epochs], ['lr',
 }
 const log = (line: string) => process.stdout.write(`${new Date().toISOString().slice(0, 19)}Z ${line}\n`);
 
-/** Runs of consecutive sentences of one document, 80–180 words, ids `<doc>#<n>`. */
-function corpusPassages(): PracticePassage[] {
+/** What the questions were written from, for the card. */
+const METHOD = "from State of the Union addresses and Moby-Dick chapters cut into passages of 80–180 words, each document's passages one another's no-answer contexts";
+
+/** Runs of consecutive sentences of one document, 80–180 words, ids `<doc>#<n>`: of the training documents, or of the held-out ones. */
+function corpusPassages(heldOut = false): PracticePassage[] {
   const docs = readCorpus().filter((d) => d.source !== 'wordnet');
   const held = heldOutIds(readCorpus());
   const outList: PracticePassage[] = [];
   for (const d of docs) {
-    if (held.has(d.id)) continue;
+    if (held.has(d.id) !== heldOut) continue;
     let start = -1;
     let words = 0;
     let n = 0;
@@ -75,7 +82,38 @@ function corpusPassages(): PracticePassage[] {
   return outList;
 }
 
+/** Step 5: the reader in `dir` on held-out practice questions (3 per held-out passage, seed 99), windows of `maxLength`. */
+async function measure(dir: string): Promise<{ questions: number; unanswerable: number; em: number | null; f1: number | null; answerableF1: number | null; unanswerableF1: number | null }> {
+  const { makePracticeQuestions } = await import('../../src/practice/generate.js');
+  const records = makePracticeQuestions(corpusPassages(true), { perPassage: 3, seed: 99 }).records;
+  const s = new ReaderSession();
+  s.loadBase({ name: dir, files: await readModelDir(dir) });
+  const r = s.evaluate({ model: 'base', records, maxLength, stride: Math.floor(maxLength / 4), maxQueryLength: 48 }).summary;
+  s.dispose();
+  return { questions: records.length, unanswerable: records.filter((q) => q.unanswerable).length, em: r.em, f1: r.f1, answerableF1: r.answerable.f1, unanswerableF1: r.unanswerable.f1 };
+}
+
+/** MODEL_CARD.md of `dir` from its pretraining.json, span-pretraining.json and reading-stage.json (card.ts). */
+function writeCard(dir: string): void {
+  const read = (f: string) => JSON.parse(readFileSync(join(dir, f), 'utf8')) as Record<string, unknown>;
+  const prior = read('pretraining.json') as { card?: Omit<CardFacts, 'weightsBytes'> };
+  if (prior.card === undefined) throw new Error(`${dir}/pretraining.json has no "card" facts`);
+  const span = existsSync(join(dir, 'span-pretraining.json')) ? (read('span-pretraining.json') as unknown as SpanStageFacts) : null;
+  const reading = read('reading-stage.json') as unknown as ReadingStageFacts;
+  const weightsBytes = readFileSync(join(dir, 'model.safetensors')).length;
+  writeFileSync(join(dir, 'MODEL_CARD.md'), renderBaseCard({ ...prior.card, weightsBytes }, span, reading));
+}
+
 await startEngine();
+if (args.has('measure')) {
+  const dir = args.get('measure')!;
+  const facts = JSON.parse(readFileSync(join(dir, 'reading-stage.json'), 'utf8')) as Record<string, unknown>;
+  const heldOut = await measure(dir);
+  writeFileSync(join(dir, 'reading-stage.json'), `${JSON.stringify({ ...facts, method: METHOD, heldOut }, null, 2)}\n`);
+  writeCard(dir);
+  log(`held-out practice questions (${heldOut.questions}): F1 ${heldOut.f1?.toFixed(1)} (answerable ${heldOut.answerableF1?.toFixed(1)}, unanswerable ${heldOut.unanswerableF1?.toFixed(1)})`);
+  process.exit(0);
+}
 // 1. passages
 const passages = corpusPassages();
 log(`reading stage: ${passages.length} passages from ${new Set(passages.map((p) => p.group)).size} documents; from ${from}`);
@@ -126,7 +164,7 @@ writeFileSync(join(out, 'config.json'), `${JSON.stringify({ ...configToHf(reader
 writeFileSync(join(out, 'model.safetensors'), namedToSafetensors(reader.params.toNamed(), { dtype: 'F16', metadata: { format: 'pt', 'spanwright.recipe': 'tiny-models/recipe/build-base.ts + span-pretrain.ts + reading-stage.ts' } }));
 for (const f of ['vocab.txt', 'pretraining.json', 'span-pretraining.json']) if (existsSync(join(from, f)) && join(from, f) !== join(out, f)) copyFileSync(join(from, f), join(out, f));
 const facts = {
-  method: 'practice questions (src/practice) written from State of the Union addresses and Moby-Dick chapters, 80–180-word passages, one document per no-answer group',
+  method: METHOD,
   passages: passages.length,
   questions: ended.questions,
   updates: ended.totalUpdates,
@@ -135,5 +173,10 @@ const facts = {
   from,
 };
 writeFileSync(join(out, 'reading-stage.json'), `${JSON.stringify(facts, null, 2)}\n`);
-log(`wrote ${out} (${JSON.parse(readFileSync(join(out, 'config.json'), 'utf8')).spanwright_question_match ? 'question match on' : 'question match off'})`);
+// 5. measure
 session.dispose();
+const heldOut = await measure(out);
+writeFileSync(join(out, 'reading-stage.json'), `${JSON.stringify({ ...facts, heldOut }, null, 2)}\n`);
+writeCard(out);
+log(`held-out practice questions (${heldOut.questions}): F1 ${heldOut.f1?.toFixed(1)} (answerable ${heldOut.answerableF1?.toFixed(1)}, unanswerable ${heldOut.unanswerableF1?.toFixed(1)})`);
+log(`wrote ${out} (word-match types: ${JSON.parse(readFileSync(join(out, 'config.json'), 'utf8')).spanwright_question_match ?? 'off'})`);
