@@ -90,20 +90,25 @@ export function startServer(options: { root?: string; port?: number } = {}): Pro
       res.writeHead(403).end('outside the served folder');
       return;
     }
-    stat(file).then(
-      (s) => {
-        if (!s.isFile()) throw new Error('not a file');
+    const notFound = () => {
+      if (!res.headersSent) res.writeHead(404, { 'Content-Type': 'text/plain; charset=utf-8' }).end(`not found: ${path}`);
+    };
+    // every outcome answers the request; none may end the server (a folder, a vanished file, a read error)
+    stat(file)
+      .then((s) => {
+        if (!s.isFile()) return notFound();
         res.writeHead(200, {
           'Content-Type': TYPES[extname(file)] ?? 'application/octet-stream',
           'Content-Length': s.size,
           // hashed build files never change; everything else is checked on each load
           'Cache-Control': file.includes(`${sep}assets${sep}`) ? 'public, max-age=31536000, immutable' : 'no-cache',
         });
-        if (req.method === 'HEAD') res.end();
-        else createReadStream(file).pipe(res);
-      },
-      () => res.writeHead(404, { 'Content-Type': 'text/plain; charset=utf-8' }).end(`not found: ${path}`),
-    );
+        if (req.method === 'HEAD') return void res.end();
+        const stream = createReadStream(file);
+        stream.on('error', () => res.destroy());
+        stream.pipe(res);
+      })
+      .catch(notFound);
   });
   return new Promise((resolveStart, reject) => {
     server.once('error', reject);
