@@ -4,6 +4,15 @@ import { Command } from 'commander';
 import { setDebug } from './common.js';
 import { commands } from './commands/index.js';
 
+// `spanwright inspect … | head`: when the reader of our output goes away, stop quietly (what
+// a command-line tool is expected to do when its pipe closes) instead of a stack trace
+for (const stream of [process.stdout, process.stderr]) {
+  stream.on('error', (err: NodeJS.ErrnoException) => {
+    if (err.code === 'EPIPE') process.exit(0);
+    throw err;
+  });
+}
+
 const program = new Command();
 program
   .name('spanwright')

@@ -35,7 +35,7 @@ export function findJsonError(text: string): { offset: number; message: string }
     throw new JsonSyntaxError(at, message);
   };
   const describe = (at: number): string =>
-    at >= text.length ? 'the end of the text (is the file cut short?)' : `'${text[at]}'`;
+    at >= text.length ? 'end of the text (is the file cut short?)' : `'${text[at]}'`;
   const skipSpace = (): void => {
     while (i < text.length) {
       const c = text.charCodeAt(i);

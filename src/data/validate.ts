@@ -42,7 +42,8 @@ export type ProblemCode =
   | 'answerable-without-answers'
   | 'duplicate-id'
   | 'passage-conflict'
-  | 'duplicate-question'; // warning
+  | 'duplicate-question' // warning
+  | 'question-without-words'; // warning: no letter or digit, so the reader sees no question
 
 /** Problem kinds that are repairs: the record was changed and kept. */
 export const REPAIR_CODES: ReadonlySet<ProblemCode> = new Set<ProblemCode>([
@@ -248,6 +249,10 @@ function checkRecord(r: RawRecord, file: string, problems: Problem[]): Checked {
     context = normaliseLineBreaks(context);
   }
   if (question !== null && question.includes('\r')) [hadCarriageReturn, question] = [true, normaliseLineBreaks(question)];
+  // zero-width or punctuation-only text passes the emptiness check but tokenizes to nothing useful
+  if (question !== null && question.trim() !== '' && !/[\p{L}\p{N}]/u.test(question)) {
+    report('warning', 'question-without-words', names.question, 'the question has no letter or digit (only spaces, punctuation or invisible characters), so the reader sees no question');
+  }
   for (const a of answers) {
     if (a.text !== null && a.text.includes('\r')) [hadCarriageReturn, a.text] = [true, normaliseLineBreaks(a.text)];
   }

@@ -55,6 +55,16 @@ export function readCheckpointDir(files: CheckpointDirFiles): CheckpointDirConte
   // 2.
   const { tensors, dtypes, metadata } = readSafetensors(files.safetensors, weightsName);
 
+  // the config's layer count against the layers the weights hold, before anything is built from it
+  let layers = 0;
+  for (const name of tensors.keys()) {
+    const m = /(?:^|\.)encoder\.layer\.(\d+)\./.exec(name);
+    if (m) layers = Math.max(layers, Number(m[1]) + 1);
+  }
+  if (layers > 0 && layers !== config.numLayers) {
+    throw new Error(`${configName}: field num_hidden_layers is ${config.numLayers}, but ${weightsName} holds ${layers} encoder layer(s); is this the config of another model?`);
+  }
+
   // 3.
   const tokenizer =
     files.vocab.file === 'tokenizer.json'
@@ -91,6 +101,14 @@ export function loadCheckpointDir(
   opts: { seed?: number } = {},
 ): CheckpointDirContents & { params: ReaderParams; report: LoadReport } {
   const contents = readCheckpointDir(files);
+  // a NaN or an infinity in the weights makes every output NaN: refuse it here, naming the tensor
+  for (const [name, t] of contents.tensors) {
+    const bad = t.data.findIndex((v) => !Number.isFinite(v));
+    if (bad >= 0) {
+      const count = t.data.reduce((n, v) => (Number.isFinite(v) ? n : n + 1), 0);
+      throw new Error(`${files.names?.weights ?? 'model.safetensors'}: tensor "${name}" holds ${count} value(s) that are NaN or infinite (the first at index ${bad}); the weights are damaged or were saved from a run that diverged`);
+    }
+  }
   const { params, report } = ReaderParams.fromNamed(contents.config, contents.tensors, {
     seed: opts.seed,
     source: files.names?.weights ?? 'model.safetensors',

@@ -125,6 +125,10 @@ export function readSafetensorsHeader(bytes: Uint8Array, file = 'model.safetenso
     return fail('the header is not valid UTF-8', null, 'header');
   }
   if (text[0] !== '{') fail(`the header must start with '{', found ${JSON.stringify(text.slice(0, 8))}`, null, 'header');
+  // the format nests three levels at most (header → tensor entry → shape array); deeper
+  // text is no safetensors header, and refusing it keeps the key walker below shallow
+  const depth = nestingDepth(text);
+  if (depth > MAX_HEADER_DEPTH) fail(`the header nests ${depth} levels deep; a safetensors header has at most ${MAX_HEADER_DEPTH}`, null, 'header');
   let parsed: unknown;
   try {
     parsed = JSON.parse(text);
@@ -314,6 +318,26 @@ function jsonType(v: unknown): string {
   if (v === null) return 'null';
   if (Array.isArray(v)) return 'an array';
   return typeof v === 'object' ? 'an object' : `a ${typeof v}`;
+}
+
+/** Objects and arrays nest this deep in a safetensors header: {name: {shape: [..]}}. */
+const MAX_HEADER_DEPTH = 3;
+
+/** The deepest nesting of objects and arrays in a JSON text, by one pass over it (brackets inside strings ignored). */
+function nestingDepth(text: string): number {
+  let depth = 0;
+  let deepest = 0;
+  let inString = false;
+  for (let i = 0; i < text.length; i++) {
+    const c = text[i]!;
+    if (inString) {
+      if (c === '\\') i++;
+      else if (c === '"') inString = false;
+    } else if (c === '"') inString = true;
+    else if (c === '{' || c === '[') deepest = Math.max(deepest, ++depth);
+    else if (c === '}' || c === ']') depth--;
+  }
+  return deepest;
 }
 
 /**

@@ -111,6 +111,13 @@ export function validateConfig(config: ReaderConfig, source = 'config'): void {
     if (typeof v !== 'number' || !Number.isFinite(v) || v <= 0) problems.push(`${field} must be a positive number, got ${JSON.stringify(v)}`);
   };
   for (const f of ['vocabSize', 'hiddenSize', 'numLayers', 'numHeads', 'intermediateSize', 'maxPositions', 'typeVocabSize'] as const) positiveInt(f);
+  // sane bounds, checked before anything is built from them: a config of a million layers
+  // would exhaust memory long before its weights were found missing (the largest
+  // BERT-family checkpoints have 48 layers, hidden 4096, vocabularies of 250 000, from memory)
+  for (const [f, max] of SIZE_LIMITS) {
+    const v = config[f];
+    if (Number.isInteger(v) && v > max) problems.push(`${f} ${v} is beyond what this engine reads (at most ${max})`);
+  }
   probability('hiddenDropout');
   probability('attentionDropout');
   positiveNumber('layerNormEps');
@@ -128,6 +135,17 @@ export function validateConfig(config: ReaderConfig, source = 'config'): void {
   }
   if (problems.length > 0) throw new Error(`${source}: invalid reader config: ${problems.join('; ')}`);
 }
+
+/** The largest value each size may take (far above any encoder a CPU can train). */
+const SIZE_LIMITS: ReadonlyArray<[keyof ReaderConfig & ('vocabSize' | 'hiddenSize' | 'numLayers' | 'numHeads' | 'intermediateSize' | 'maxPositions' | 'typeVocabSize'), number]> = [
+  ['vocabSize', 1_000_000],
+  ['hiddenSize', 8192],
+  ['numLayers', 96],
+  ['numHeads', 256],
+  ['intermediateSize', 65_536],
+  ['maxPositions', 65_536],
+  ['typeVocabSize', 64],
+];
 
 /** HF `hidden_act` spellings this engine can run, to our activation names. */
 const HF_ACTIVATIONS: Record<string, Activation> = {

@@ -33,6 +33,14 @@ describe('parseJson', () => {
   });
 });
 
+describe('error messages', () => {
+  it('say plainly that a file ends too early', () => {
+    const r = parseJson('{"a":');
+    expect(r.ok).toBe(false);
+    expect(r.ok ? '' : r.message).toBe('unexpected end of the text (is the file cut short?); expected a value');
+  });
+});
+
 describe('findJsonError agrees with JSON.parse', () => {
   const samples = [
     '{"data": [{"title": "t", "paragraphs": [{"context": "c", "qas": []}]}]}',

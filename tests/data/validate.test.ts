@@ -33,6 +33,16 @@ const codes = (records: QARecord[] | RawRecord[]): Array<[number, string, string
 };
 
 describe('validation, per record', () => {
+  it('warns about a question of invisible characters or punctuation only, and keeps it', () => {
+    // U+200B ZERO WIDTH SPACE and U+00AD SOFT HYPHEN: not white space to String.prototype.trim
+    for (const question of ['\u200b\u200b', '\u00ad?', '…?!']) {
+      const v = validateQARecords([rec({ question })], 'f');
+      expect(v.problems.map((p) => [p.severity, p.field, p.code])).toEqual([['warning', 'question', 'question-without-words']]);
+      expect(v.records).toHaveLength(1);
+    }
+    expect(validateQARecords([rec({ question: '¿Dónde?' })], 'f').problems).toEqual([]);
+  });
+
   it('passes a good record unchanged', () => {
     const r = rec();
     const v = validateQARecords([r], 'f');

@@ -119,6 +119,35 @@ describe('checkpoint directory import', () => {
     expect(() => loadCheckpointDir(files)).toThrow(/tensor "bert\.encoder\.layer\.1\.output\.dense\.weight" has shape \[16, 16\], the config expects \[16, 32\]/);
   });
 
+  it('refuses absurd sizes in config.json, and a layer count the weights do not hold, before building anything', () => {
+    for (const [layers, pattern] of [
+      [1_000_000, /numLayers 1000000 is beyond what this engine reads \(at most 96\)/],
+      [1_000_000_000, /numLayers 1000000000 is beyond/],
+      [5, /config\.json: field num_hidden_layers is 5, but model\.safetensors holds 2 encoder layer\(s\)/],
+    ] as const) {
+      const files = madeDir((f) => {
+        const o = JSON.parse(f.configJson) as Record<string, unknown>;
+        o.num_hidden_layers = layers;
+        f.configJson = JSON.stringify(o);
+      });
+      const started = Date.now();
+      expect(() => readCheckpointDir(files)).toThrow(pattern);
+      expect(Date.now() - started).toBeLessThan(2000);
+    }
+  });
+
+  it('refuses NaN or infinite weights, naming the file, the tensor and the first bad index', () => {
+    const files = madeDir((_, named) => {
+      const t = named.get('bert.encoder.layer.0.attention.self.query.weight')!;
+      const data = Float32Array.from(t.data);
+      data[5] = Number.NaN;
+      data[9] = Number.POSITIVE_INFINITY;
+      named.set('bert.encoder.layer.0.attention.self.query.weight', { shape: t.shape, data });
+    });
+    files.names = { weights: 'mine/model.safetensors' };
+    expect(() => loadCheckpointDir(files)).toThrow(/^mine\/model\.safetensors: tensor "bert\.encoder\.layer\.0\.attention\.self\.query\.weight" holds 2 value\(s\) that are NaN or infinite \(the first at index 5\)/);
+  });
+
   it('a damaged safetensors file is named in the error', () => {
     const files = madeDir();
     files.safetensors = files.safetensors.subarray(0, files.safetensors.length - 10);

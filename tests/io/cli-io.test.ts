@@ -24,6 +24,12 @@ async function cli(...args: string[]): Promise<{ code: number; stdout: string; s
   }
 }
 
+/** A shell pipeline's output (bash with pipefail off: the last command's status). */
+async function runShell(command: string): Promise<{ stdout: string; stderr: string }> {
+  const { exec } = await import('node:child_process');
+  return new Promise((resolve) => exec(command, { cwd: ROOT, maxBuffer: 64 << 20 }, (_err, stdout, stderr) => resolve({ stdout, stderr })));
+}
+
 let work = '';
 beforeAll(async () => {
   work = await mkdtemp(join(tmpdir(), 'spanwright-cli-io-'));
@@ -33,6 +39,19 @@ afterAll(async () => {
 });
 
 describe('spanwright inspect', () => {
+  it('lists a header of 300 000 tensors (more than a spread call takes) and survives a closed pipe', async () => {
+    const many = join(work, 'many.safetensors');
+    const entries = Array.from({ length: 300_000 }, (_, i) => [`t${i}`, { dtype: 'F32', shape: [0], data: new Float32Array(0) }] as [string, { dtype: 'F32'; shape: number[]; data: Float32Array }]);
+    await writeFile(many, writeSafetensors(entries));
+    const spanwright = `"${process.execPath}" "${join(ROOT, 'node_modules', 'tsx', 'dist', 'cli.mjs')}" "${join(ROOT, 'src', 'cli', 'main.ts')}"`;
+    const r = await runShell(`${spanwright} inspect "${many}" --json`);
+    expect((JSON.parse(r.stdout.trim().split('\n').pop()!) as { tensorCount: number }).tensorCount).toBe(300_000);
+    // `inspect … | head -1`: the reader closes the pipe early; no stack trace, no error exit
+    const piped = await runShell(`${spanwright} inspect "${many}" | head -1`);
+    expect(piped.stderr).not.toMatch(/EPIPE|at [\w.]+ \(/);
+    expect(piped.stdout.split('\n').length).toBeLessThanOrEqual(2);
+  }, 120_000);
+
   it('lists tensors and metadata as JSON, and names the fault of a bad file', async () => {
     const good = join(work, 'small.safetensors');
     await writeFile(

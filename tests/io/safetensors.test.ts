@@ -109,6 +109,15 @@ describe('safetensors: bad files fail with a located error', () => {
     expect(Array.from(tensors.get('w')!.data as Int8Array)).toEqual([-1, 2]);
   });
 
+  it('refuses a header nested deeper than the format needs, however deep, without exhausting the stack', () => {
+    // crafted: 200 000 levels of arrays inside one tensor entry (a probe of issue 15, item 6)
+    const deep = `{"w":{"dtype":"F32","shape":${'['.repeat(200_000)}${']'.repeat(200_000)},"data_offsets":[0,0]}}`;
+    expect(() => readSafetensorsRaw(craft(deep), 'deep.safetensors')).toThrow(/deep\.safetensors: .*nests 200002 levels deep; a safetensors header has at most 3/);
+    // brackets inside strings are text, not nesting
+    const named = craft('{"__metadata__":{"note":"[[[[{{{{"},"e":{"dtype":"F32","shape":[0],"data_offsets":[0,0]}}');
+    expect(readSafetensorsRaw(named).header.metadata).toEqual({ note: '[[[[{{{{' });
+  });
+
   it('finds duplicate keys only within one object', () => {
     expect(findDuplicateKey('{"a":{"x":1},"b":{"x":2}}')).toBeNull();
     expect(findDuplicateKey('{"a":[{"x":1,"y":"}\\"x"}],"a\\u0062":2,"ab":3}')).toEqual({ key: 'ab', path: '' });

@@ -63,7 +63,8 @@ async function inspect(file: string, options: InspectOptions): Promise<void> {
     }
   }
   if (tensors.length === 0) return;
-  const nameWidth = Math.min(72, Math.max(...tensors.map((t) => t.name.length)));
+  // a loop, not Math.max(...names): a header may list millions of tensors, more arguments than a call takes
+  const nameWidth = Math.min(72, tensors.reduce((w, t) => Math.max(w, t.name.length), 0));
   out.write(`\n${'name'.padEnd(nameWidth)}  ${'dtype'.padEnd(5)}  ${'shape'.padEnd(16)}  ${'bytes'.padStart(12)}\n`);
   for (const t of tensors) {
     out.write(`${t.name.padEnd(nameWidth)}  ${t.dtype.padEnd(5)}  ${`[${t.shape.join(', ')}]`.padEnd(16)}  ${t.bytes.toLocaleString('en-US').padStart(12)}\n`);
