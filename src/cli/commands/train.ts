@@ -234,6 +234,7 @@ export async function trainReader(
   await startEngine();
   const { ReaderSession } = await import('../../session/reader-session.js');
   const { FsCheckpointStore } = await import('../fs-store.js');
+  const { lockOutputFolder } = await import('../out-lock.js');
   const session = new ReaderSession(new FsCheckpointStore<RunMeta>(join(o.out, 'checkpoints')));
   // 1. load
   const files = await readModelDir(o.base);
@@ -259,6 +260,9 @@ export async function trainReader(
       bar.stop();
     }
   };
+  // one run per output folder: two would prune each other's checkpoints
+  const lock = await lockOutputFolder(o.out);
+  if (lock.tookOverFrom !== null) log(`note: ${o.out} held a lock of process ${lock.tookOverFrom}, which no longer runs; taken over`);
   const abort = new AbortController();
   const onSigint = () => {
     log('\nstopping after this update; the run can continue with --resume');
@@ -369,6 +373,7 @@ export async function trainReader(
   } finally {
     process.off('SIGINT', onSigint);
     session.dispose();
+    await lock.release();
   }
 }
 
