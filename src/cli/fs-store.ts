@@ -9,9 +9,9 @@
 // blob goes first and the summary last, so a listed checkpoint always has its whole blob;
 // a crash in between leaves a blob without a summary, which `list` ignores.
 
-import { randomBytes } from 'node:crypto';
-import { mkdir, open, readFile, readdir, rename, rm, stat } from 'node:fs/promises';
-import { basename, dirname, join } from 'node:path';
+import { mkdir, readFile, readdir, rm, stat } from 'node:fs/promises';
+import { join } from 'node:path';
+import { writeFileAtomically as writeAtomically } from './write-files.js';
 import {
   CheckpointError,
   checkId,
@@ -86,6 +86,26 @@ export class FsCheckpointStore<M extends CheckpointMeta = CheckpointMeta> implem
     await rm(this.blobPath(id), { force: true });
   }
 
+  /**
+   * Removes what an interrupted save left (a killed process never reaches its cleanup):
+   * hidden temporary files, and blobs without their summary. Call it only while this run
+   * holds the folder (src/cli/out-lock.ts), so no save of another process is in flight.
+   * Returns the names removed.
+   */
+  async sweepOrphans(): Promise<string[]> {
+    let names: string[];
+    try {
+      names = await readdir(this.folder);
+    } catch (err) {
+      if ((err as NodeJS.ErrnoException).code === 'ENOENT') return [];
+      throw err;
+    }
+    const summaries = new Set(names.filter((n) => n.endsWith('.json') && !n.startsWith('.')).map((n) => n.slice(0, -'.json'.length)));
+    const orphans = names.filter((n) => (n.startsWith('.') && n.includes('.tmp-')) || (n.endsWith('.safetensors') && !summaries.has(n.slice(0, -'.safetensors'.length))));
+    for (const n of orphans) await rm(join(this.folder, n), { force: true });
+    return orphans;
+  }
+
   async prune(opts: PruneOptions): Promise<string[]> {
     const doomed = choosePrunable(await this.list(), opts);
     for (const id of doomed) await this.delete(id);
@@ -125,22 +145,3 @@ export class FsCheckpointStore<M extends CheckpointMeta = CheckpointMeta> implem
 }
 
 /** Write to a temporary file beside `path`, flush it, then rename it over `path`. */
-async function writeAtomically(path: string, bytes: Uint8Array): Promise<void> {
-  const tmp = join(dirname(path), `.${basename(path)}.tmp-${randomBytes(6).toString('hex')}`);
-  const handle = await open(tmp, 'w');
-  try {
-    await handle.writeFile(bytes);
-    await handle.sync();
-  } catch (err) {
-    await handle.close();
-    await rm(tmp, { force: true });
-    throw err;
-  }
-  await handle.close();
-  try {
-    await rename(tmp, path);
-  } catch (err) {
-    await rm(tmp, { force: true });
-    throw err;
-  }
-}

@@ -2,7 +2,7 @@
 // the CLI commands share on the Node side: reading a model directory and a question file
 // from disk, writing output files so an interruption leaves no half file, and starting
 // the wasm engine with its fast kernels.
-import { mkdir, readFile, readdir, rename, writeFile } from 'node:fs/promises';
+import { readFile, readdir } from 'node:fs/promises';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
 import { UserError, readBytes } from './common.js';
@@ -45,16 +45,7 @@ export async function loadReader(dir: string) {
   }
 }
 
-/** Writes each file under a temporary name, then renames it into place. */
-export async function writeFilesAtomically(dir: string, files: ReadonlyArray<{ name: string; bytes: Uint8Array | string }>): Promise<void> {
-  await mkdir(dir, { recursive: true });
-  for (const f of files) {
-    const target = join(dir, f.name);
-    const tmp = join(dir, `.${f.name}.tmp-${process.pid}`);
-    await writeFile(tmp, f.bytes);
-    await rename(tmp, target);
-  }
-}
+export { writeFilesAtomically } from './write-files.js';
 
 /**
  * The valid records of a question file. Errors are reported (file, record, field) and

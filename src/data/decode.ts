@@ -35,7 +35,18 @@ export function decodeText(bytes: Uint8Array): DecodeResult {
         line: 1,
       };
     }
-    const bad = skip + firstInvalidUtf8(body);
+    const invalid = firstInvalidUtf8(body);
+    if (invalid === body.length) {
+      // every byte is valid UTF-8, so the decoder failed for the text's length: one
+      // JavaScript string holds at most 2^29 − 24 UTF-16 code units in V8 (from memory)
+      return {
+        ok: false,
+        message: `the file is ${(bytes.length / 1e6).toFixed(0)} MB of valid UTF-8, more text than one JavaScript string can hold (about 536 million characters); split it into files of a few hundred MB`,
+        byteOffset: 0,
+        line: 1,
+      };
+    }
+    const bad = skip + invalid;
     return {
       ok: false,
       message: `invalid UTF-8 at byte offset ${bad} (line ${lineOfByte(bytes, bad)}); save the file as UTF-8`,

@@ -92,15 +92,19 @@ export type WritableTensor =
 // ---------------------------------------------------------------------------------------
 // Reading
 
-/** Parses and checks the header against the file's size; reads no tensor data. */
-export function readSafetensorsHeader(bytes: Uint8Array, file = 'model.safetensors'): SafetensorsHeader {
+/**
+ * Parses and checks the header against the file's size; reads no tensor data. `bytes`
+ * may hold only the start of the file (the 8-byte length and the header) when `fileSize`
+ * gives the whole file's size — so a file too large to read at once can be inspected.
+ */
+export function readSafetensorsHeader(bytes: Uint8Array, file = 'model.safetensors', fileSize = bytes.length): SafetensorsHeader {
   const fail = (detail: string, tensor: string | null = null, field: string | null = null): never => {
     throw new SafetensorsError(file, tensor, field, detail);
   };
 
   // 1. the header length
-  if (bytes.length < 8) {
-    fail(`the file is ${bytes.length} bytes; a safetensors file starts with an 8-byte header length`);
+  if (fileSize < 8 || bytes.length < 8) {
+    fail(`the file is ${fileSize} bytes; a safetensors file starts with an 8-byte header length`);
   }
   const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   const n64 = view.getBigUint64(0, true);
@@ -108,9 +112,9 @@ export function readSafetensorsHeader(bytes: Uint8Array, file = 'model.safetenso
     fail(`header length ${n64} exceeds the ${MAX_HEADER_BYTES}-byte limit (is this a safetensors file?)`, null, 'header length');
   }
   const headerBytes = Number(n64);
-  if (headerBytes > bytes.length - 8) {
+  if (headerBytes > fileSize - 8 || headerBytes > bytes.length - 8) {
     fail(
-      `header length ${headerBytes} is more than the ${bytes.length - 8} bytes after it (is the file cut short?)`,
+      `header length ${headerBytes} is more than the ${fileSize - 8} bytes after it (is the file cut short?)`,
       null,
       'header length',
     );
@@ -146,7 +150,7 @@ export function readSafetensorsHeader(bytes: Uint8Array, file = 'model.safetenso
   }
 
   const dataStart = 8 + headerBytes;
-  const dataBytes = bytes.length - dataStart;
+  const dataBytes = fileSize - dataStart;
   const header = parsed as Record<string, unknown>;
 
   // 3. metadata: string → string

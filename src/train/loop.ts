@@ -5,7 +5,8 @@
 // (STYLE.md §9, after nanoGPT's train.py):
 //
 //   1. learning rate    lr(k) from the plan (schedule.ts)
-//   2. eval/checkpoint  when due at k (never at k = 0): `evaluate`, then `saveCheckpoint`
+//   2. eval/checkpoint  when due at k (never at the first update of this session, k = 0
+//                       or the resumed update): `evaluate`, then `saveCheckpoint`
 //   3. step             the update's micro-batches from the seeded order, forward,
 //                       backward, clip, AdamW (trainer.ts)
 //   4. time and report  a typed 'progress' event: loss, lr, ‖g‖, tokens/s, ETA
@@ -149,8 +150,9 @@ export async function trainLoop(trainer: Trainer, task: TrainTask, hooks: LoopHo
     // 1. learning rate
     const lr = trainer.learningRate(k);
 
-    // 2. evaluate / checkpoint when due
-    if (k > 0) {
+    // 2. evaluate / checkpoint when due — never at the update a run starts or resumes from:
+    // a resumed run's checkpoint of that update is the one it was loaded from
+    if (k > startUpdate) {
       const evalDue = config.evalEvery > 0 ? k % config.evalEvery === 0 : k % plan.updatesPerEpoch === 0;
       const checkpointDue = config.checkpointEvery > 0 ? k % config.checkpointEvery === 0 : evalDue;
       const metrics = evalDue ? await evaluate(k) : null;

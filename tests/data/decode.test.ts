@@ -52,6 +52,15 @@ describe('firstInvalidUtf8', () => {
 });
 
 describe('decodeText', () => {
+  it('says plainly that a valid UTF-8 file is too large for one string, not that it is invalid', () => {
+    // 600 MB of "a\n": more characters than a V8 string holds (2^29 − 24, from memory)
+    const big = new Uint8Array(600_000_000).fill(0x61);
+    for (let i = 99; i < big.length; i += 100) big[i] = 0x0a;
+    const r = decodeText(big);
+    expect(r.ok).toBe(false);
+    expect(r.ok ? '' : r.message).toMatch(/^the file is 600 MB of valid UTF-8, more text than one JavaScript string can hold/);
+  }, 60_000);
+
   it('strips a UTF-8 byte-order mark', () => {
     const r = decodeText(bytes(0xef, 0xbb, 0xbf, 0x68, 0x69));
     expect(r).toEqual({ ok: true, text: 'hi', encoding: 'utf-8', hadByteOrderMark: true });

@@ -3,7 +3,7 @@
 // (tests/reference/generate_fixtures.py) when present, else on one made here.
 import { execFile } from 'node:child_process';
 import { existsSync } from 'node:fs';
-import { mkdtemp, readdir, readFile, rm, writeFile } from 'node:fs/promises';
+import { mkdtemp, readdir, readFile, rm, truncate, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { promisify } from 'node:util';
@@ -39,6 +39,22 @@ afterAll(async () => {
 });
 
 describe('spanwright inspect', () => {
+  it('lists a file larger than one read can take (2 GiB), from its header alone', async () => {
+    // a sparse file: a header for one F32 tensor of 640 M values (2.56 GB), the data all zeros on no disk blocks
+    const huge = join(work, 'huge.safetensors');
+    const values = 640_000_000;
+    const header = new TextEncoder().encode(JSON.stringify({ w: { dtype: 'F32', shape: [values], data_offsets: [0, values * 4] } }).padEnd(64, ' '));
+    const head = new Uint8Array(8 + header.length);
+    new DataView(head.buffer).setBigUint64(0, BigInt(header.length), true);
+    head.set(header, 8);
+    await writeFile(huge, head);
+    await truncate(huge, 8 + header.length + values * 4);
+    const r = await cli('inspect', huge, '--json');
+    expect(r.stderr).toBe('');
+    expect(JSON.parse(r.stdout.trim().split('\n').pop()!)).toMatchObject({ bytes: 8 + header.length + values * 4, tensorCount: 1, parameterCount: values });
+    await rm(huge);
+  });
+
   it('lists a header of 300 000 tensors (more than a spread call takes) and survives a closed pipe', async () => {
     const many = join(work, 'many.safetensors');
     const entries = Array.from({ length: 300_000 }, (_, i) => [`t${i}`, { dtype: 'F32', shape: [0], data: new Float32Array(0) }] as [string, { dtype: 'F32'; shape: number[]; data: Float32Array }]);

@@ -126,6 +126,26 @@ describe('trainLoop', () => {
     }
   });
 
+  it('resumed from an interval checkpoint, saves no second checkpoint of the update it starts from', async () => {
+    const task: TrainTask = { kind: 'span', features: FEATURES };
+    let saved: { state: RunState; weights: NamedTensors; optimizer: AdamWState } | null = null;
+    const first = fresh({ checkpointEvery: 2 });
+    await trainLoop(first, task, {
+      shouldStop: () => first.updatesDone >= 3,
+      saveCheckpoint: (r: CheckpointRequest) => {
+        if (r.reason === 'interval' && r.state.trainer.update === 2) saved = { state: structuredClone(r.state), weights: r.weights(), optimizer: r.optimizer() };
+      },
+      yieldToEvents: noWait,
+    });
+    const checkpoint = saved!;
+    const resumed = fresh({ checkpointEvery: 2 }, checkpoint.weights);
+    resumed.restore(checkpoint.state.trainer, checkpoint.optimizer);
+    const savedAt: number[] = [];
+    await trainLoop(resumed, task, { saveCheckpoint: (r: CheckpointRequest) => void savedAt.push(r.state.trainer.update), yieldToEvents: noWait }, checkpoint.state);
+    // due at 2 (where it resumed: not again) and 4, then the end at 6
+    expect(savedAt).toEqual([4, 6]);
+  });
+
   it('stops on an aborted signal', async () => {
     const controller = new AbortController();
     const trainer = fresh();

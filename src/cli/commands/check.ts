@@ -1,7 +1,7 @@
 // defines: the `check` command — reads a question file, reports every problem with its
 // file, record and field, and optionally writes the repaired records that passed.
 // Exit code 1 when there are errors, 0 otherwise.
-import { rename, writeFile } from 'node:fs/promises';
+import { writeFileAtomically } from '../write-files.js';
 import { resolve } from 'node:path';
 import type { Command } from 'commander';
 import cliProgress from 'cli-progress';
@@ -112,13 +112,11 @@ function cleanFormatOf(out: string, input: string): DataFormat {
   return f;
 }
 
-/** Write beside the target, then rename: a crash never leaves half a file under its name. */
+/** Write beside the target, then rename (src/cli/write-files.ts): a failure leaves no temporary file behind. */
 async function writeAtomically(path: string, text: string): Promise<void> {
-  const temp = `${path}.${process.pid}.tmp`;
   try {
-    await writeFile(temp, text, 'utf8');
-    await rename(temp, path);
+    await writeFileAtomically(path, text);
   } catch (err) {
-    throw new UserError(`--write-clean: cannot write ${path} (${(err as NodeJS.ErrnoException).code ?? (err as Error).message})`);
+    throw new UserError(`--write-clean: ${(err as Error).message}`);
   }
 }

@@ -2,8 +2,9 @@
 // dtype, shape and byte size, and the file's metadata, after checking the whole file
 // against the format (src/io/safetensors.ts).
 import type { Command } from 'commander';
-import { UserError, printJson, readBytes, runCommand } from '../common.js';
-import { DTYPE_BYTES, SafetensorsError, readSafetensorsHeader } from '../../io/safetensors.js';
+import { open } from 'node:fs/promises';
+import { UserError, printJson, runCommand } from '../common.js';
+import { DTYPE_BYTES, MAX_HEADER_BYTES, SafetensorsError, readSafetensorsHeader } from '../../io/safetensors.js';
 
 interface InspectOptions {
   json?: boolean;
@@ -31,11 +32,43 @@ Examples:
     .action((file: string, options: InspectOptions) => runCommand(() => inspect(file, options)));
 }
 
+/**
+ * The first bytes of the file — the 8-byte length and the header it gives — and the file's
+ * size: only the header is needed, so a file larger than one read can take (2 GiB in Node)
+ * is inspected all the same.
+ */
+async function readHead(file: string): Promise<{ head: Uint8Array; size: number }> {
+  let handle;
+  try {
+    handle = await open(file, 'r');
+  } catch (err) {
+    const code = (err as NodeJS.ErrnoException).code;
+    throw new UserError(code === 'ENOENT' ? `${file}: no such file` : `${file}: cannot read (${code ?? (err as Error).message})`);
+  }
+  try {
+    const info = await handle.stat();
+    if (!info.isFile()) throw new UserError(`${file}: is a folder, not a file`);
+    const size = info.size;
+    const first = new Uint8Array(Math.min(8, size));
+    await handle.read(first, 0, first.length, 0);
+    if (first.length < 8) return { head: first, size };
+    const n = new DataView(first.buffer).getBigUint64(0, true);
+    // a header longer than the format's limit is reported by readSafetensorsHeader from the first 8 bytes alone
+    const want = n > BigInt(MAX_HEADER_BYTES) ? 0 : Math.min(Number(n), size - 8);
+    const head = new Uint8Array(8 + want);
+    head.set(first);
+    if (want > 0) await handle.read(head, 8, want, 8);
+    return { head, size };
+  } finally {
+    await handle.close();
+  }
+}
+
 async function inspect(file: string, options: InspectOptions): Promise<void> {
-  const bytes = await readBytes(file);
+  const { head, size } = await readHead(file);
   let header;
   try {
-    header = readSafetensorsHeader(bytes, file);
+    header = readSafetensorsHeader(head, file, size);
   } catch (err) {
     if (err instanceof SafetensorsError) throw new UserError(err.message);
     throw err;
@@ -49,11 +82,11 @@ async function inspect(file: string, options: InspectOptions): Promise<void> {
   }));
   const parameterCount = tensors.reduce((sum, t) => sum + t.bytes / DTYPE_BYTES[t.dtype], 0);
   if (options.json) {
-    printJson({ file, bytes: bytes.length, headerBytes: header.headerBytes, tensorCount: tensors.length, parameterCount, metadata: header.metadata, tensors });
+    printJson({ file, bytes: size, headerBytes: header.headerBytes, tensorCount: tensors.length, parameterCount, metadata: header.metadata, tensors });
     return;
   }
   const out = process.stdout;
-  out.write(`${file}: ${tensors.length} tensor(s), ${parameterCount.toLocaleString('en-US')} values, ${bytes.length.toLocaleString('en-US')} bytes (header ${header.headerBytes})\n`);
+  out.write(`${file}: ${tensors.length} tensor(s), ${parameterCount.toLocaleString('en-US')} values, ${size.toLocaleString('en-US')} bytes (header ${header.headerBytes})\n`);
   const metaKeys = Object.keys(header.metadata);
   if (metaKeys.length > 0) {
     out.write('\nmetadata:\n');

@@ -235,7 +235,8 @@ export async function trainReader(
   const { ReaderSession } = await import('../../session/reader-session.js');
   const { FsCheckpointStore } = await import('../fs-store.js');
   const { lockOutputFolder } = await import('../out-lock.js');
-  const session = new ReaderSession(new FsCheckpointStore<RunMeta>(join(o.out, 'checkpoints')));
+  const store = new FsCheckpointStore<RunMeta>(join(o.out, 'checkpoints'));
+  const session = new ReaderSession(store);
   // 1. load
   const files = await readModelDir(o.base);
   let info;
@@ -263,6 +264,8 @@ export async function trainReader(
   // one run per output folder: two would prune each other's checkpoints
   const lock = await lockOutputFolder(o.out);
   if (lock.tookOverFrom !== null) log(`note: ${o.out} held a lock of process ${lock.tookOverFrom}, which no longer runs; taken over`);
+  const orphans = await store.sweepOrphans();
+  if (orphans.length > 0) log(`note: removed ${orphans.length} file(s) an interrupted checkpoint save left in ${join(o.out, 'checkpoints')}`);
   const abort = new AbortController();
   const onSigint = () => {
     log('\nstopping after this update; the run can continue with --resume');
