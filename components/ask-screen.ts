@@ -57,20 +57,44 @@ export class AskScreen extends LitElement {
       <p class="caution" id="caution" role="note"><strong>Caution.</strong> ${CAUTION}</p>
       <section>
         <label for="ask-question">Question</label>
-        <textarea id="ask-question" rows="2" .value=${this.question} @input=${(e: Event) => (this.question = (e.target as HTMLTextAreaElement).value)} @keydown=${this._onKey}></textarea>
+        <textarea
+          id="ask-question"
+          rows="2"
+          .value=${this.question}
+          @input=${(e: Event) => (this.question = (e.target as HTMLTextAreaElement).value)}
+          @keydown=${this._onKey}
+        ></textarea>
         <div class="row spaced">
-          <label><input type="radio" name="scope" value="all" .checked=${this.scope === 'all'} @change=${() => (this.scope = 'all')} /> all ${this.passages.length} passages</label>
-          <label><input type="radio" name="scope" value="one" .checked=${this.scope === 'one'} @change=${() => (this.scope = 'one')} /> one passage</label>
-          <select id="ask-passage" ?disabled=${this.scope !== 'one'} @change=${(e: Event) => (this.passageId = (e.target as HTMLSelectElement).value)}>
+          <label
+            ><input type="radio" name="scope" value="all" .checked=${this.scope === 'all'} @change=${() => (this.scope = 'all')} /> all
+            ${this.passages.length} passages</label
+          >
+          <label
+            ><input type="radio" name="scope" value="one" .checked=${this.scope === 'one'} @change=${() => (this.scope = 'one')} /> one
+            passage</label
+          >
+          <select
+            id="ask-passage"
+            ?disabled=${this.scope !== 'one'}
+            @change=${(e: Event) => (this.passageId = (e.target as HTMLSelectElement).value)}
+          >
             ${this.passages.map((p) => html`<option value=${p.id} ?selected=${p.id === this.passageId}>${p.title ?? p.id}</option>`)}
           </select>
-          <label>Reader
+          <label
+            >Reader
             <select id="ask-model" @change=${(e: Event) => (this.model = (e.target as HTMLSelectElement).value as ModelChoice)}>
               <option value="tuned" ?selected=${model === 'tuned'} ?disabled=${!this.tunedName}>fine-tuned</option>
               <option value="base" ?selected=${model === 'base'}>base</option>
             </select>
           </label>
-          <button id="ask-button" class="primary" @click=${this._onAsk} ?disabled=${this.busy || !this.baseInfo || this.passages.length === 0}>Ask</button>
+          <button
+            id="ask-button"
+            class="primary"
+            @click=${this._onAsk}
+            ?disabled=${this.busy || !this.baseInfo || this.passages.length === 0}
+          >
+            Ask
+          </button>
           ${this.busy ? html`<span class="muted">reading…</span>` : ''}
         </div>
         ${!this.baseInfo ? html`<p class="note warn">Choose a base reader first.</p>` : ''}
@@ -83,19 +107,30 @@ export class AskScreen extends LitElement {
   private renderResult(r: AskResult) {
     return html`<section id="answers">
       ${r.noAnswer ? html`<p class="note warn">The reader's no-answer score beat every span: the passages read may not answer this. The best spans follow anyway.</p>` : ''}
-      ${r.answers.length === 0
-        ? html`<p class="muted">No passage shares a word with the question.</p>`
-        : html`<ol class="answers">
-            ${r.answers.map(
-              (a) => html`<li>
-                <span class="answer-text">${a.text}</span>
-                <span class="muted scores">— passage ${a.passageId}; reader ${a.readerScore.toFixed(2)}${a.retrieverScore === null ? '' : html`, BM25 ${a.retrieverScore.toFixed(2)}, combined ${a.combinedScore.toFixed(2)}`}</span>
-                <marked-passage .text=${a.context} .marks=${[{ start: a.start, end: a.end, kind: 'guess' as const }]}></marked-passage>
-              </li>`,
-            )}
-          </ol>`}
-      <p class="muted">Passages read: ${r.retrieved.map((h) => (h.score === null ? h.passageId : `${h.passageId} (${h.score.toFixed(2)})`)).join(', ')}</p>
-      <p class="muted score-help">Reader: the start + end logit of the span (higher is surer). BM25: how well the passage's words match the question. Combined: both scaled to 0–1 over these answers and averaged.</p>
+      ${
+        r.answers.length === 0
+          ? html`<p class="muted">No passage shares a word with the question.</p>`
+          : html`<ol class="answers">
+              ${r.answers.map(
+                (a) =>
+                  html`<li>
+                    <span class="answer-text">${a.text}</span>
+                    <span class="muted scores"
+                      >— passage ${a.passageId}; reader
+                      ${a.readerScore.toFixed(2)}${a.retrieverScore === null ? '' : html`, BM25 ${a.retrieverScore.toFixed(2)}, combined ${a.combinedScore.toFixed(2)}`}</span
+                    >
+                    <marked-passage .text=${a.context} .marks=${[{ start: a.start, end: a.end, kind: 'guess' as const }]}></marked-passage>
+                  </li>`,
+              )}
+            </ol>`
+      }
+      <p class="muted">
+        Passages read: ${r.retrieved.map((h) => (h.score === null ? h.passageId : `${h.passageId} (${h.score.toFixed(2)})`)).join(', ')}
+      </p>
+      <p class="muted score-help">
+        Reader: the start + end logit of the span (higher is surer). BM25: how well the passage's words match the question. Combined: both
+        scaled to 0–1 over these answers and averaged.
+      </p>
     </section>`;
   }
 
@@ -109,7 +144,8 @@ export class AskScreen extends LitElement {
   private async _onAsk(): Promise<void> {
     if (!this.engine || !this.settings) return;
     const one = this.passages.find((p) => p.id === (this.passageId || this.passages[0]?.id));
-    const passages = this.scope === 'one' && one ? [{ id: one.id, text: one.text }] : this.passages.map((p) => ({ id: p.id, text: p.text }));
+    const passages =
+      this.scope === 'one' && one ? [{ id: one.id, text: one.text }] : this.passages.map((p) => ({ id: p.id, text: p.text }));
     this.busy = true;
     this.error = '';
     try {

@@ -65,17 +65,39 @@ export class CheckpointScreen extends LitElement {
       <h2>Checkpoints</h2>
       <section>
         <p id="storage">
-          Checkpoints take <strong>${mb(u?.bytes)}</strong>; this site uses ${mb(u?.originUsage)} of the ${mb(u?.originQuota)} the browser allows
-          (${mb(free)} free).
+          Checkpoints take <strong>${mb(u?.bytes)}</strong>; this site uses ${mb(u?.originUsage)} of the ${mb(u?.originQuota)} the browser
+          allows (${mb(free)} free).
         </p>
-        ${free !== undefined && largest > 0 && free < 3 * largest
-          ? html`<p class="note warn">Room for fewer than three more checkpoints of this size. A save that does not fit is refused and the
-              checkpoints already saved stay intact; delete or prune some, or keep fewer per run.</p>`
-          : html`<p class="muted">The browser's quota is shared by everything this site stores. When a save would not fit, it is refused
-              whole — nothing half-written — and the run reports it; delete or prune checkpoints, then continue.</p>`}
+        ${
+          free !== undefined && largest > 0 && free < 3 * largest
+            ? html`<p class="note warn">
+                Room for fewer than three more checkpoints of this size. A save that does not fit is refused and the checkpoints already
+                saved stay intact; delete or prune some, or keep fewer per run.
+              </p>`
+            : html`<p class="muted">
+                The browser's quota is shared by everything this site stores. When a save would not fit, it is refused whole — nothing
+                half-written — and the run reports it; delete or prune checkpoints, then continue.
+              </p>`
+        }
         <div class="row">
-          <label>Keep best <input type="number" min="0" step="1" .value=${String(this.keepBest)} @change=${(e: Event) => (this.keepBest = Number((e.target as HTMLInputElement).value))} /></label>
-          <label>and last <input type="number" min="0" step="1" .value=${String(this.keepLast)} @change=${(e: Event) => (this.keepLast = Number((e.target as HTMLInputElement).value))} /></label>
+          <label
+            >Keep best
+            <input
+              type="number"
+              min="0"
+              step="1"
+              .value=${String(this.keepBest)}
+              @change=${(e: Event) => (this.keepBest = Number((e.target as HTMLInputElement).value))}
+          /></label>
+          <label
+            >and last
+            <input
+              type="number"
+              min="0"
+              step="1"
+              .value=${String(this.keepLast)}
+              @change=${(e: Event) => (this.keepLast = Number((e.target as HTMLInputElement).value))}
+          /></label>
           <button id="prune" @click=${this._onPrune} ?disabled=${this.running || this.checkpoints.length === 0}>Prune the rest</button>
           <button @click=${() => this.refresh()}>Refresh</button>
         </div>
@@ -84,32 +106,57 @@ export class CheckpointScreen extends LitElement {
         <p class="muted">Fine-tuned reader in use: ${this.tunedName ?? 'none'}</p>
       </section>
       <section>
-        ${this.checkpoints.length === 0
-          ? html`<p class="muted" id="no-checkpoints">No checkpoints yet: a training run saves one at every evaluation and when it is paused.</p>`
-          : html`<table id="checkpoint-table">
-              <thead>
-                <tr><th>Compare</th><th>Checkpoint</th><th>Stage</th><th class="num">Update</th><th>Why</th><th class="num">EM</th><th class="num">F1</th><th>Saved</th><th class="num">Size</th><th></th></tr>
-              </thead>
-              <tbody>
-                ${this.checkpoints.map(
-                  (c) => html`<tr class=${this.compare.has(c.id) ? 'chosen' : ''} data-id=${c.id}>
-                    <td><input type="checkbox" aria-label="Compare ${c.id}" .checked=${this.compare.has(c.id)} @change=${() => this._onToggleCompare(c.id)} /></td>
-                    <td><code>${c.id}</code></td>
-                    <td class="stage">${c.meta.stage === 'practice' ? 'practice' : c.meta.stage === 'domain' ? 'masked-LM' : 'fine-tuning'}</td>
-                    <td class="num">${c.meta.step}</td>
-                    <td>${c.meta.label ?? ''}</td>
-                    <td class="num">${score(c.meta.metrics.validationEM)}</td>
-                    <td class="num">${score(c.meta.metrics.validationF1)}</td>
-                    <td>${c.meta.savedAt ? new Date(c.meta.savedAt).toLocaleString() : ''}</td>
-                    <td class="num">${mb(c.bytes)}</td>
-                    <td>
-                      <button class="restore" @click=${() => this._onRestore(c.id)} ?disabled=${!this.baseInfo}>Restore</button>
-                      <button class="delete" @click=${() => this._onDelete(c.id)} ?disabled=${this.running}>Delete</button>
-                    </td>
-                  </tr>`,
-                )}
-              </tbody>
-            </table>`}
+        ${
+          this.checkpoints.length === 0
+            ? html`<p class="muted" id="no-checkpoints">
+                No checkpoints yet: a training run saves one at every evaluation and when it is paused.
+              </p>`
+            : html`<table id="checkpoint-table">
+                <thead>
+                  <tr>
+                    <th>Compare</th>
+                    <th>Checkpoint</th>
+                    <th>Stage</th>
+                    <th class="num">Update</th>
+                    <th>Why</th>
+                    <th class="num">EM</th>
+                    <th class="num">F1</th>
+                    <th>Saved</th>
+                    <th class="num">Size</th>
+                    <th></th>
+                  </tr>
+                </thead>
+                <tbody>
+                  ${this.checkpoints.map(
+                    (c) =>
+                      html`<tr class=${this.compare.has(c.id) ? 'chosen' : ''} data-id=${c.id}>
+                        <td>
+                          <input
+                            type="checkbox"
+                            aria-label="Compare ${c.id}"
+                            .checked=${this.compare.has(c.id)}
+                            @change=${() => this._onToggleCompare(c.id)}
+                          />
+                        </td>
+                        <td><code>${c.id}</code></td>
+                        <td class="stage">
+                          ${c.meta.stage === 'practice' ? 'practice' : c.meta.stage === 'domain' ? 'masked-LM' : 'fine-tuning'}
+                        </td>
+                        <td class="num">${c.meta.step}</td>
+                        <td>${c.meta.label ?? ''}</td>
+                        <td class="num">${score(c.meta.metrics.validationEM)}</td>
+                        <td class="num">${score(c.meta.metrics.validationF1)}</td>
+                        <td>${c.meta.savedAt ? new Date(c.meta.savedAt).toLocaleString() : ''}</td>
+                        <td class="num">${mb(c.bytes)}</td>
+                        <td>
+                          <button class="restore" @click=${() => this._onRestore(c.id)} ?disabled=${!this.baseInfo}>Restore</button>
+                          <button class="delete" @click=${() => this._onDelete(c.id)} ?disabled=${this.running}>Delete</button>
+                        </td>
+                      </tr>`,
+                  )}
+                </tbody>
+              </table>`
+        }
         ${this.renderComparison()}
       </section>
     `;
@@ -122,11 +169,31 @@ export class CheckpointScreen extends LitElement {
     const settings = ['learningRate', 'batchSize', 'epochs', 'maxLength', 'seed'] as const;
     return html`<h3>Comparison</h3>
       <table id="comparison">
-        <thead><tr><th></th>${chosen.map((c) => html`<th class="num">update ${c.meta.step}</th>`)}</tr></thead>
+        <thead>
+          <tr>
+            <th></th>
+            ${chosen.map((c) => html`<th class="num">update ${c.meta.step}</th>`)}
+          </tr>
+        </thead>
         <tbody>
-          ${keys.map((k) => html`<tr><th>${k}</th>${chosen.map((c) => html`<td class="num">${score(c.meta.metrics[k])}</td>`)}</tr>`)}
-          ${settings.map((k) => html`<tr><th>${k}</th>${chosen.map((c) => html`<td class="num">${String(c.meta.runConfig?.train?.[k] ?? '–')}</td>`)}</tr>`)}
-          <tr><th>base</th>${chosen.map((c) => html`<td class="num">${c.meta.runConfig?.base ?? '–'}</td>`)}</tr>
+          ${keys.map(
+            (k) =>
+              html`<tr>
+                <th>${k}</th>
+                ${chosen.map((c) => html`<td class="num">${score(c.meta.metrics[k])}</td>`)}
+              </tr>`,
+          )}
+          ${settings.map(
+            (k) =>
+              html`<tr>
+                <th>${k}</th>
+                ${chosen.map((c) => html`<td class="num">${String(c.meta.runConfig?.train?.[k] ?? '–')}</td>`)}
+              </tr>`,
+          )}
+          <tr>
+            <th>base</th>
+            ${chosen.map((c) => html`<td class="num">${c.meta.runConfig?.base ?? '–'}</td>`)}
+          </tr>
         </tbody>
       </table>`;
   }

@@ -26,7 +26,11 @@ interface ImportReport {
 }
 
 /** Adds records (and the passages they use) to a dataset; ids already present are reported, not added. */
-export function mergeRecords(dataset: Dataset, records: readonly QARecord[], file: string): { dataset: Dataset; added: number; problems: Problem[] } {
+export function mergeRecords(
+  dataset: Dataset,
+  records: readonly QARecord[],
+  file: string,
+): { dataset: Dataset; added: number; problems: Problem[] } {
   const ids = new Set(dataset.records.map((r) => r.id));
   const passages = new Map(dataset.passages.map((p) => [p.id, p]));
   const problems: Problem[] = [];
@@ -34,11 +38,27 @@ export function mergeRecords(dataset: Dataset, records: readonly QARecord[], fil
   records.forEach((r, index) => {
     const known = passages.get(r.passageId);
     if (ids.has(r.id)) {
-      problems.push({ severity: 'error', file, record: index, id: r.id, field: 'id', message: `id "${r.id}" is already in the dataset; this question was not added`, code: 'duplicate-id' });
+      problems.push({
+        severity: 'error',
+        file,
+        record: index,
+        id: r.id,
+        field: 'id',
+        message: `id "${r.id}" is already in the dataset; this question was not added`,
+        code: 'duplicate-id',
+      });
       return;
     }
     if (known && known.text !== r.context) {
-      problems.push({ severity: 'error', file, record: index, id: r.id, field: 'context', message: `passage "${r.passageId}" is already in the dataset with a different text; this question was not added`, code: 'passage-conflict' });
+      problems.push({
+        severity: 'error',
+        file,
+        record: index,
+        id: r.id,
+        field: 'context',
+        message: `passage "${r.passageId}" is already in the dataset with a different text; this question was not added`,
+        code: 'passage-conflict',
+      });
       return;
     }
     if (!known) passages.set(r.passageId, { id: r.passageId, text: r.context });
@@ -108,7 +128,10 @@ export class DataScreen extends LitElement {
       <h2>Data</h2>
       <section>
         <h3>Import questions</h3>
-        <p class="muted">SQuAD 2.0 JSON, JSONL (one question per line) or CSV. Every record is checked; problems are listed below with the record they concern.</p>
+        <p class="muted">
+          SQuAD 2.0 JSON, JSONL (one question per line) or CSV. Every record is checked; problems are listed below with the record they
+          concern.
+        </p>
         <div
           class="drop ${this.dragging ? 'over' : ''}"
           @dragover=${this._onDragOver}
@@ -122,8 +145,12 @@ export class DataScreen extends LitElement {
           <div class="muted">or drop them here</div>
         </div>
         <div class="row spaced">
-          <button id="load-demo" @click=${this._onLoadDemo} ?disabled=${this.busy !== ''}>Load the demo data (invented ferry handbook)</button>
-          <button id="clear-dataset" @click=${this._onClear} ?disabled=${d.records.length === 0 && d.passages.length === 0}>Clear the dataset</button>
+          <button id="load-demo" @click=${this._onLoadDemo} ?disabled=${this.busy !== ''}>
+            Load the demo data (invented ferry handbook)
+          </button>
+          <button id="clear-dataset" @click=${this._onClear} ?disabled=${d.records.length === 0 && d.passages.length === 0}>
+            Clear the dataset
+          </button>
           ${this.busy ? html`<span class="muted">${this.busy}</span>` : ''}
         </div>
         ${this.reports.map((r) => this.renderReport(r))}
@@ -133,16 +160,35 @@ export class DataScreen extends LitElement {
         <h3>Split by passage</h3>
         <p class="muted">Whole passages go to validation, so validation measures reading unseen text.</p>
         <div class="row">
-          <label>Validation share <input id="split-fraction" type="number" min="0" max="0.9" step="0.05" .value=${String(this.splitSettings.validationFraction)} @change=${this._onSplitInput} /></label>
-          <label>Seed <input id="split-seed" type="number" step="1" .value=${String(this.splitSettings.seed)} @change=${this._onSplitInput} /></label>
+          <label
+            >Validation share
+            <input
+              id="split-fraction"
+              type="number"
+              min="0"
+              max="0.9"
+              step="0.05"
+              .value=${String(this.splitSettings.validationFraction)}
+              @change=${this._onSplitInput}
+          /></label>
+          <label
+            >Seed <input id="split-seed" type="number" step="1" .value=${String(this.splitSettings.seed)} @change=${this._onSplitInput}
+          /></label>
           <span id="split-counts">
             ${this.split.train.length} training and ${this.split.validation.length} validation questions
-            (${new Set(this.split.train.map((r) => r.passageId)).size} and ${new Set(this.split.validation.map((r) => r.passageId)).size} passages)
+            (${new Set(this.split.train.map((r) => r.passageId)).size} and ${new Set(this.split.validation.map((r) => r.passageId)).size}
+            passages)
           </span>
         </div>
       </section>
 
-      <dataset-stats .engine=${this.engine} .collection=${d} .split=${this.split} .baseInfo=${this.baseInfo} .settings=${this.settings}></dataset-stats>
+      <dataset-stats
+        .engine=${this.engine}
+        .collection=${d}
+        .split=${this.split}
+        .baseInfo=${this.baseInfo}
+        .settings=${this.settings}
+      ></dataset-stats>
 
       <passage-labeller .collection=${d} .focusId=${this.focusId} @dataset-change=${this._onLabelled}></passage-labeller>
     `;
@@ -153,24 +199,33 @@ export class DataScreen extends LitElement {
     const kept = new Set(this.collection.records.map((x) => x.id));
     return html`<div class="import-report" data-file=${r.file}>
       <p class=${errors > 0 ? 'note warn' : 'note'}>
-        <strong>${r.file}</strong>: read as ${r.format ?? 'unreadable'}; ${r.added} question(s) added,
-        ${errors} error(s), ${r.problems.length - errors} warning(s).
+        <strong>${r.file}</strong>: read as ${r.format ?? 'unreadable'}; ${r.added} question(s) added, ${errors} error(s),
+        ${r.problems.length - errors} warning(s).
       </p>
-      ${r.problems.length > 0
-        ? html`<ul class="problems">
-            ${r.problems.slice(0, 500).map(
-              (p) => html`<li class=${p.severity}>
-                ${formatProblem(p)}
-                ${p.id !== undefined && kept.has(p.id)
-                  ? html`<button @click=${() => this._onShowRecord(p.id!)} title="Show this question in the editor">show record</button>`
-                  : p.record >= 0
-                    ? html`<span class="muted">(not added)</span>`
-                    : ''}
-              </li>`,
-            )}
-            ${r.problems.length > 500 ? html`<li>… ${r.problems.length - 500} more</li>` : ''}
-          </ul>`
-        : ''}
+      ${
+        r.problems.length > 0
+          ? html`<ul class="problems">
+              ${r.problems
+                .slice(0, 500)
+                .map(
+                  (p) =>
+                    html`<li class=${p.severity}>
+                      ${formatProblem(p)}
+                      ${
+                        p.id !== undefined && kept.has(p.id)
+                          ? html`<button @click=${() => this._onShowRecord(p.id!)} title="Show this question in the editor">
+                              show record
+                            </button>`
+                          : p.record >= 0
+                            ? html`<span class="muted">(not added)</span>`
+                            : ''
+                      }
+                    </li>`,
+                )}
+              ${r.problems.length > 500 ? html`<li>… ${r.problems.length - 500} more</li>` : ''}
+            </ul>`
+          : ''
+      }
     </div>`;
   }
 
@@ -230,7 +285,14 @@ export class DataScreen extends LitElement {
       await this.importFiles(files);
     } catch (err) {
       this.busy = '';
-      this.reports = [{ file: 'demo data', format: null, added: 0, problems: [{ severity: 'error', file: 'demo data', record: -1, field: '', message: (err as Error).message }] }];
+      this.reports = [
+        {
+          file: 'demo data',
+          format: null,
+          added: 0,
+          problems: [{ severity: 'error', file: 'demo data', record: -1, field: '', message: (err as Error).message }],
+        },
+      ];
     }
   }
 

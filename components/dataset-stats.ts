@@ -70,7 +70,13 @@ export class DatasetStats extends LitElement {
     if (key === this.measuredKey) return;
     this.measuredKey = key;
     this.engine
-      .call({ kind: 'measure', records: this.collection.records, maxLength: s.maxLength, stride: s.stride, maxQueryLength: s.maxQueryLength })
+      .call({
+        kind: 'measure',
+        records: this.collection.records,
+        maxLength: s.maxLength,
+        stride: s.stride,
+        maxQueryLength: s.maxQueryLength,
+      })
       .then(
         (lengths) => {
           this.lengths = lengths;
@@ -99,9 +105,11 @@ export class DatasetStats extends LitElement {
           <dd>${this.split.train.length} / ${this.split.validation.length}</dd>
           <dt>Need more than one window</dt>
           <dd id="stat-multi">
-            ${multi === undefined
-              ? html`<span class="muted">${this.baseInfo ? 'counting…' : 'load a base reader to count tokens'}</span>`
-              : `${multi} of ${records.length} at max length ${this.settings?.maxLength}`}
+            ${
+              multi === undefined
+                ? html`<span class="muted">${this.baseInfo ? 'counting…' : 'load a base reader to count tokens'}</span>`
+                : `${multi} of ${records.length} at max length ${this.settings?.maxLength}`
+            }
           </dd>
         </dl>
         ${this.error ? html`<p class="error">${this.error}</p>` : ''}
@@ -120,7 +128,11 @@ export class DatasetStats extends LitElement {
     const barW = (W - pad) / BINS;
     const x = (tokens: number) => pad + (tokens / (width * BINS)) * (W - pad);
     return html`<figure>
-      <svg viewBox="0 0 ${W} ${H + 30}" role="img" aria-label="Histogram of question token lengths; the red line is the max length ${maxLength}">
+      <svg
+        viewBox="0 0 ${W} ${H + 30}"
+        role="img"
+        aria-label="Histogram of question token lengths; the red line is the max length ${maxLength}"
+      >
         ${counts.map((c, i) => {
           const h = top ? (c / top) * H : 0;
           return svg`<rect class="bar" x=${pad + i * barW + 1} y=${H - h} width=${barW - 2} height=${h}><title>${i * width}–${(i + 1) * width - 1} tokens: ${c}</title></rect>`;
@@ -130,7 +142,10 @@ export class DatasetStats extends LitElement {
         ${svg`<text x=${Math.min(W - 110, x(maxLength) + 4)} y="12">max length ${maxLength}</text>`}
         ${svg`<text x="0" y="10">${top}</text>`}
       </svg>
-      <figcaption class="muted">Tokens per question (question + passage + 3 special tokens). Right of the red line a question is read in several overlapping windows.</figcaption>
+      <figcaption class="muted">
+        Tokens per question (question + passage + 3 special tokens). Right of the red line a question is read in several overlapping
+        windows.
+      </figcaption>
     </figure>`;
   }
 }

@@ -74,7 +74,9 @@ export class EvaluationScreen extends LitElement {
     return html`
       <h2>Evaluation</h2>
       <section>
-        <p class="muted">${this.validation.length} validation questions; scores by the SQuAD 2.0 rules (exact match and token F1, in percent).</p>
+        <p class="muted">
+          ${this.validation.length} validation questions; scores by the SQuAD 2.0 rules (exact match and token F1, in percent).
+        </p>
         <div class="row">
           <button id="evaluate" class="primary" @click=${this._onEvaluate} ?disabled=${!can}>
             Evaluate the base${this.tunedName ? ' and the fine-tuned reader' : ' reader'}
@@ -85,7 +87,13 @@ export class EvaluationScreen extends LitElement {
         ${this.error ? html`<p class="note bad" role="alert">${this.error}</p>` : ''}
       </section>
       ${base || tuned ? this.renderSummary(base, tuned) : ''}
-      <learning-curve .engine=${this.engine} .baseInfo=${this.baseInfo} .train=${this.train} .validation=${this.validation} .settings=${this.settings}></learning-curve>
+      <learning-curve
+        .engine=${this.engine}
+        .baseInfo=${this.baseInfo}
+        .train=${this.train}
+        .validation=${this.validation}
+        .settings=${this.settings}
+      ></learning-curve>
       ${this.renderQuestions()}
     `;
   }
@@ -93,25 +101,45 @@ export class EvaluationScreen extends LitElement {
   private renderSummary(base: EvaluationResult | undefined, tuned: EvaluationResult | undefined) {
     const cols = [base, tuned];
     const row = (label: string, pick: (s: SquadScores) => number | null) =>
-      html`<tr><th>${label}</th>${cols.map((r) => html`<td class="num">${r ? pct(pick(r.summary)) : '–'}</td>`)}</tr>`;
+      html`<tr>
+        <th>${label}</th>
+        ${cols.map((r) => html`<td class="num">${r ? pct(pick(r.summary)) : '–'}</td>`)}
+      </tr>`;
     return html`<section>
       <h3>Base beside fine-tuned</h3>
       <table id="eval-summary">
-        <thead><tr><th></th><th class="num">base</th><th class="num">fine-tuned</th></tr></thead>
+        <thead>
+          <tr>
+            <th></th>
+            <th class="num">base</th>
+            <th class="num">fine-tuned</th>
+          </tr>
+        </thead>
         <tbody>
           ${row('EM, all', (s) => s.em)} ${row('F1, all', (s) => s.f1)} ${row('EM, answerable', (s) => s.answerable.em)}
           ${row('F1, answerable', (s) => s.answerable.f1)} ${row('EM, unanswerable', (s) => s.unanswerable.em)}
           ${row('F1, unanswerable', (s) => s.unanswerable.f1)}
-          <tr><th>No-answer threshold (F1-best)</th>${cols.map((r) => html`<td class="num">${r?.tuned ? r.tuned.threshold.toFixed(3) : '–'}</td>`)}</tr>
-          <tr><th>F1 at that threshold</th>${cols.map((r) => html`<td class="num">${r?.tuned ? pct(r.tuned.summary.f1) : '–'}</td>`)}</tr>
-          <tr><th>EM at that threshold</th>${cols.map((r) => html`<td class="num">${r?.tuned ? pct(r.tuned.summary.em) : '–'}</td>`)}</tr>
+          <tr>
+            <th>No-answer threshold (F1-best)</th>
+            ${cols.map((r) => html`<td class="num">${r?.tuned ? r.tuned.threshold.toFixed(3) : '–'}</td>`)}
+          </tr>
+          <tr>
+            <th>F1 at that threshold</th>
+            ${cols.map((r) => html`<td class="num">${r?.tuned ? pct(r.tuned.summary.f1) : '–'}</td>`)}
+          </tr>
+          <tr>
+            <th>EM at that threshold</th>
+            ${cols.map((r) => html`<td class="num">${r?.tuned ? pct(r.tuned.summary.em) : '–'}</td>`)}
+          </tr>
         </tbody>
       </table>
-      ${tuned
-        ? readerWarnings(tuned.tuned?.summary ?? tuned.summary, base ? (base.tuned?.summary ?? base.summary) : null).map(
-            (w) => html`<p class="note warn reader-warning">${w.replace(/^warning: (.)/, (_, c: string) => c.toUpperCase())}</p>`,
-          )
-        : ''}
+      ${
+        tuned
+          ? readerWarnings(tuned.tuned?.summary ?? tuned.summary, base ? (base.tuned?.summary ?? base.summary) : null).map(
+              (w) => html`<p class="note warn reader-warning">${w.replace(/^warning: (.)/, (_, c: string) => c.toUpperCase())}</p>`,
+            )
+          : ''
+      }
     </section>`;
   }
 
@@ -122,21 +150,41 @@ export class EvaluationScreen extends LitElement {
     return html`<section>
       <h3>Question by question</h3>
       <div class="row">
-        <label>Reader
+        <label
+          >Reader
           <select @change=${(e: Event) => (this.shown = (e.target as HTMLSelectElement).value as 'base' | 'tuned')}>
             <option value="tuned" ?selected=${result.model === 'tuned'} ?disabled=${!this.results.tuned}>fine-tuned</option>
             <option value="base" ?selected=${result.model === 'base'}>base</option>
           </select>
         </label>
-        <label><input id="misses-only" type="checkbox" .checked=${this.missesOnly} @change=${(e: Event) => (this.missesOnly = (e.target as HTMLInputElement).checked)} /> misses only</label>
+        <label
+          ><input
+            id="misses-only"
+            type="checkbox"
+            .checked=${this.missesOnly}
+            @change=${(e: Event) => (this.missesOnly = (e.target as HTMLInputElement).checked)}
+          />
+          misses only</label
+        >
         <span class="muted">${rows.length} of ${result.questions.length} shown</span>
         <span class="legend"><mark class="gold">gold</mark> <mark class="guess">prediction</mark></span>
       </div>
       <table id="question-table">
-        <thead><tr><th>Question</th><th>Gold</th><th>Predicted</th><th class="num">F1</th><th>Outcome</th></tr></thead>
+        <thead>
+          <tr>
+            <th>Question</th>
+            <th>Gold</th>
+            <th>Predicted</th>
+            <th class="num">F1</th>
+            <th>Outcome</th>
+          </tr>
+        </thead>
         <tbody>
           ${rows.slice(0, 300).map((q) => {
-            const marks: Mark[] = [...q.gold.map((g) => ({ start: g.start, end: g.end, kind: 'gold' as const })), ...(q.predictedSpan ? [{ ...q.predictedSpan, kind: 'guess' as const }] : [])];
+            const marks: Mark[] = [
+              ...q.gold.map((g) => ({ start: g.start, end: g.end, kind: 'gold' as const })),
+              ...(q.predictedSpan ? [{ ...q.predictedSpan, kind: 'guess' as const }] : []),
+            ];
             return html`<tr data-id=${q.id} data-outcome=${q.outcome}>
               <td>
                 <details>

@@ -25,7 +25,11 @@ type Variant = 'fp32' | 'fp16' | 'int8' | 'onnx';
 const VARIANTS: ReadonlyArray<{ variant: Variant; label: string; help: string }> = [
   { variant: 'fp32', label: 'Model files (float32)', help: 'config.json, model.safetensors, the vocabulary and MODEL_CARD.md' },
   { variant: 'fp16', label: 'Model files (float16)', help: 'the same with half-size weights, rounded to binary16' },
-  { variant: 'int8', label: 'Model files + int8 weights', help: 'adds model.int8.safetensors (per-row symmetric) and its measured logit drift in the card' },
+  {
+    variant: 'int8',
+    label: 'Model files + int8 weights',
+    help: 'adds model.int8.safetensors (per-row symmetric) and its measured logit drift in the card',
+  },
   { variant: 'onnx', label: 'Model files + ONNX', help: 'adds model.onnx (opset 17) and model.int8.onnx' },
 ];
 
@@ -77,19 +81,25 @@ export class ExportScreen extends LitElement {
       <section>
         <h3>Reader</h3>
         <div class="row">
-          <label>Export
+          <label
+            >Export
             <select id="export-model" @change=${(e: Event) => (this.model = (e.target as HTMLSelectElement).value as ModelChoice)}>
-              <option value="tuned" ?selected=${model === 'tuned'} ?disabled=${!this.tunedName}>the fine-tuned reader${this.tunedName ? ` (${this.tunedName})` : ''}</option>
+              <option value="tuned" ?selected=${model === 'tuned'} ?disabled=${!this.tunedName}>
+                the fine-tuned reader${this.tunedName ? ` (${this.tunedName})` : ''}
+              </option>
               <option value="base" ?selected=${model === 'base'}>the base reader</option>
             </select>
           </label>
         </div>
         <ul>
           ${VARIANTS.map(
-            (v) => html`<li>
-              <button id="export-${v.variant}" @click=${() => this._onExport(v.variant)} ?disabled=${!this.baseInfo || this.busy !== ''}>${v.label}</button>
-              <span class="muted">${v.help}</span>
-            </li>`,
+            (v) =>
+              html`<li>
+                <button id="export-${v.variant}" @click=${() => this._onExport(v.variant)} ?disabled=${!this.baseInfo || this.busy !== ''}>
+                  ${v.label}
+                </button>
+                <span class="muted">${v.help}</span>
+              </li>`,
           )}
         </ul>
         ${!this.baseInfo ? html`<p class="note warn">Choose a base reader first.</p>` : ''}
@@ -104,15 +114,23 @@ export class ExportScreen extends LitElement {
       </section>
       ${this.busy ? html`<p class="muted">${this.busy}</p>` : ''}
       ${this.error ? html`<p class="note bad" role="alert">${this.error}</p>` : ''}
-      ${this.offered.length > 0
-        ? html`<section id="downloads">
-            <h3>Ready to download</h3>
-            <ul class="files">
-              ${this.offered.map((f) => html`<li><a href=${f.url} download=${f.name} data-file=${f.name}>${f.name}</a> <span class="muted">${f.bytes.toLocaleString('en-US')} bytes</span></li>`)}
-            </ul>
-            ${this.notes.length ? html`<ul>${this.notes.map((n) => html`<li class="muted">${n}</li>`)}</ul>` : ''}
-          </section>`
-        : ''}
+      ${
+        this.offered.length > 0
+          ? html`<section id="downloads">
+              <h3>Ready to download</h3>
+              <ul class="files">
+                ${this.offered.map((f) => html`<li><a href=${f.url} download=${f.name} data-file=${f.name}>${f.name}</a> <span class="muted">${f.bytes.toLocaleString('en-US')} bytes</span></li>`)}
+              </ul>
+              ${
+                this.notes.length
+                  ? html`<ul>
+                      ${this.notes.map((n) => html`<li class="muted">${n}</li>`)}
+                    </ul>`
+                  : ''
+              }
+            </section>`
+          : ''
+      }
     `;
   }
 
@@ -133,7 +151,12 @@ export class ExportScreen extends LitElement {
     try {
       const card = {
         dataset: this.split.train.length
-          ? { hash: await hashDataset(this.split.train), records: this.collection.records.length, train: this.split.train.length, validation: this.split.validation.length }
+          ? {
+              hash: await hashDataset(this.split.train),
+              records: this.collection.records.length,
+              train: this.split.train.length,
+              validation: this.split.validation.length,
+            }
           : undefined,
         settings: model === 'tuned' && this.settings ? this.settings : undefined,
         metrics: { base: this.evaluations.base?.summary, tuned: this.evaluations.tuned?.summary },

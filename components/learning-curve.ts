@@ -67,20 +67,30 @@ export class LearningCurve extends LitElement {
   override render() {
     const c = this.curve;
     const running = c.status === 'running';
-    const can = this.engine !== null && this.baseInfo !== null && this.settings !== null && this.train.length > 0 && this.validation.length > 0 && !running;
+    const can =
+      this.engine !== null &&
+      this.baseInfo !== null &&
+      this.settings !== null &&
+      this.train.length > 0 &&
+      this.validation.length > 0 &&
+      !running;
     return html`<section>
       <h3>Learning curve</h3>
       <p class="muted">
-        Trains fresh copies of the base reader with the current training settings on ${SHARES.map(shareLabel).join(', ')} of the ${this.train.length} training
-        questions (whole passages; each smaller share lies inside the larger) and scores each on the validation questions. Nothing is kept as a checkpoint;
-        leaving this screen cancels it.
+        Trains fresh copies of the base reader with the current training settings on ${SHARES.map(shareLabel).join(', ')} of the
+        ${this.train.length} training questions (whole passages; each smaller share lies inside the larger) and scores each on the
+        validation questions. Nothing is kept as a checkpoint; leaving this screen cancels it.
       </p>
       <div class="row">
         <button id="curve-start" @click=${this._onStart} ?disabled=${!can}>Draw the learning curve</button>
-        ${c.status === 'running'
-          ? html`<button id="curve-cancel" @click=${this._onCancel} ?disabled=${c.cancelling}>${c.cancelling ? 'cancelling…' : 'Cancel'}</button>
-              <span class="muted" id="curve-progress" aria-live="polite">${c.progress}</span>`
-          : ''}
+        ${
+          c.status === 'running'
+            ? html`<button id="curve-cancel" @click=${this._onCancel} ?disabled=${c.cancelling}>
+                  ${c.cancelling ? 'cancelling…' : 'Cancel'}
+                </button>
+                <span class="muted" id="curve-progress" aria-live="polite">${c.progress}</span>`
+            : ''
+        }
         ${c.status === 'done' && c.result.status === 'cancelled' ? html`<span class="muted" id="curve-cancelled">cancelled after ${this.points.length} of ${SHARES.length} shares</span>` : ''}
       </div>
       ${c.status === 'failed' ? html`<p class="note bad" role="alert">${c.error}</p>` : ''}
@@ -92,18 +102,26 @@ export class LearningCurve extends LitElement {
   private renderTable() {
     return html`<table id="curve-table">
       <thead>
-        <tr><th>Share</th><th class="num">Training questions</th><th class="num">Passages</th><th class="num">Updates</th><th class="num">EM</th><th class="num">F1</th></tr>
+        <tr>
+          <th>Share</th>
+          <th class="num">Training questions</th>
+          <th class="num">Passages</th>
+          <th class="num">Updates</th>
+          <th class="num">EM</th>
+          <th class="num">F1</th>
+        </tr>
       </thead>
       <tbody>
         ${this.points.map(
-          (p) => html`<tr data-share=${p.share} data-questions=${p.questions} data-f1=${p.f1 === null ? '' : String(p.f1)}>
-            <td>${shareLabel(p.share)}</td>
-            <td class="num">${p.questions}</td>
-            <td class="num">${p.passages}</td>
-            <td class="num">${p.updates}</td>
-            <td class="num">${pct(p.em)}</td>
-            <td class="num">${pct(p.f1)}</td>
-          </tr>`,
+          (p) =>
+            html`<tr data-share=${p.share} data-questions=${p.questions} data-f1=${p.f1 === null ? '' : String(p.f1)}>
+              <td>${shareLabel(p.share)}</td>
+              <td class="num">${p.questions}</td>
+              <td class="num">${p.passages}</td>
+              <td class="num">${p.updates}</td>
+              <td class="num">${pct(p.em)}</td>
+              <td class="num">${pct(p.f1)}</td>
+            </tr>`,
         )}
       </tbody>
     </table>`;
@@ -137,7 +155,10 @@ export class LearningCurve extends LitElement {
         // three points, labelled in the table: the legend names the lines without following the cursor
         legend: { live: false },
         scales: { x: { time: false } },
-        axes: [{ label: 'training questions', size: 40 }, { label: 'percent', size: 56 }],
+        axes: [
+          { label: 'training questions', size: 40 },
+          { label: 'percent', size: 56 },
+        ],
         series: [
           { label: 'training questions' },
           { label: 'F1', stroke: '#1f5f8b', width: 1.5, points: { show: true } },

@@ -55,7 +55,13 @@ export class MarkedPassage extends LitElement {
       const [a, b] = [edges[i]!, edges[i + 1]!];
       const piece = this.text.slice(a, b);
       const kinds = [...new Set(this.marks.filter((m) => m.start <= a && m.end >= b).map((m) => m.kind))];
-      pieces.push(kinds.length > 0 ? html`<mark class=${kinds.join(' ')} title=${kinds.map((k) => (k === 'gold' ? 'gold answer' : 'prediction')).join(' + ')}>${piece}</mark>` : piece);
+      pieces.push(
+        kinds.length > 0
+          ? html`<mark class=${kinds.join(' ')} title=${kinds.map((k) => (k === 'gold' ? 'gold answer' : 'prediction')).join(' + ')}
+              >${piece}</mark
+            >`
+          : piece,
+      );
     }
     return html`${pieces}`;
   }

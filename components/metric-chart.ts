@@ -66,8 +66,14 @@ export class MetricChart extends LitElement {
           height: 170,
           legend: { show: this.series.length > 1 },
           scales: { x: { time: false } },
-          axes: [{ label: 'update', size: 36 }, this.scientific ? { size: 64, values: (_u, splits) => splits.map((v) => v.toExponential(1)) } : { size: 56 }],
-          series: [{ label: 'update' }, ...this.series.map((s) => ({ label: s.label, stroke: s.stroke, width: 1.5, points: { show: this.x.length < 40 } }))],
+          axes: [
+            { label: 'update', size: 36 },
+            this.scientific ? { size: 64, values: (_u, splits) => splits.map((v) => v.toExponential(1)) } : { size: 56 },
+          ],
+          series: [
+            { label: 'update' },
+            ...this.series.map((s) => ({ label: s.label, stroke: s.stroke, width: 1.5, points: { show: this.x.length < 40 } })),
+          ],
         },
         data,
         target,

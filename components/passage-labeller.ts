@@ -90,30 +90,47 @@ export class PassageLabeller extends LitElement {
         <details ?open=${passages.length === 0}>
           <summary>Add a passage</summary>
           <div class="row">
-            <label>Title <input id="new-title" .value=${this.newTitle} @input=${(e: Event) => (this.newTitle = (e.target as HTMLInputElement).value)} /></label>
-            <label>or load text files <input id="passage-files" type="file" multiple accept=".txt,text/plain" @change=${this._onPassageFiles} /></label>
+            <label
+              >Title
+              <input id="new-title" .value=${this.newTitle} @input=${(e: Event) => (this.newTitle = (e.target as HTMLInputElement).value)}
+            /></label>
+            <label
+              >or load text files <input id="passage-files" type="file" multiple accept=".txt,text/plain" @change=${this._onPassageFiles}
+            /></label>
           </div>
           <label for="new-text">Passage text</label>
-          <textarea id="new-text" rows="6" .value=${this.newText} @input=${(e: Event) => (this.newText = (e.target as HTMLTextAreaElement).value)}></textarea>
+          <textarea
+            id="new-text"
+            rows="6"
+            .value=${this.newText}
+            @input=${(e: Event) => (this.newText = (e.target as HTMLTextAreaElement).value)}
+          ></textarea>
           <button id="add-passage" @click=${this._onAddPassage} ?disabled=${this.newText.trim() === ''}>Add passage</button>
         </details>
 
-        ${passages.length === 0
-          ? html`<p class="muted">No passages yet: import questions above, or add a passage.</p>`
-          : html`
-              <div class="row spaced">
-                <label>Passage
-                  <select id="passage-select" @change=${this._onPickPassage}>
-                    ${passages.map((p) => html`<option value=${p.id} ?selected=${p.id === this.passageId}>${p.title ?? p.id} (${counts.get(p.id) ?? 0} questions)</option>`)}
-                  </select>
-                </label>
-              </div>
-              ${passage ? this.renderEditor(passage.text, questions) : ''}
-            `}
+        ${
+          passages.length === 0
+            ? html`<p class="muted">No passages yet: import questions above, or add a passage.</p>`
+            : html`
+                <div class="row spaced">
+                  <label
+                    >Passage
+                    <select id="passage-select" @change=${this._onPickPassage}>
+                      ${passages.map((p) => html`<option value=${p.id} ?selected=${p.id === this.passageId}>${p.title ?? p.id} (${counts.get(p.id) ?? 0} questions)</option>`)}
+                    </select>
+                  </label>
+                </div>
+                ${passage ? this.renderEditor(passage.text, questions) : ''}
+              `
+        }
         ${this.message ? html`<p class="note warn" role="status" id="labeller-message">${this.message}</p>` : ''}
-        ${this.undo
-          ? html`<p class="note" role="status">Deleted “${this.undo.record.question}”. <button id="undo-delete" @click=${this._onUndo}>Undo</button></p>`
-          : ''}
+        ${
+          this.undo
+            ? html`<p class="note" role="status">
+                Deleted “${this.undo.record.question}”. <button id="undo-delete" @click=${this._onUndo}>Undo</button>
+              </p>`
+            : ''
+        }
       </section>
     `;
   }
@@ -126,30 +143,48 @@ export class PassageLabeller extends LitElement {
       <div class="row">
         <button id="use-selection" @click=${this._onUseSelection} ?disabled=${this.unanswerable}>Use the selection as the answer</button>
         <span id="answer-state">
-          ${this.unanswerable
-            ? html`<em>unanswerable: the passage does not say</em>`
-            : a
-              ? html`Answer: <span class="answer">${text.slice(a.start, a.end)}</span> <span class="muted">(characters ${a.start}–${a.end})</span>`
-              : html`<span class="muted">no answer selected yet</span>`}
+          ${
+            this.unanswerable
+              ? html`<em>unanswerable: the passage does not say</em>`
+              : a
+                ? html`Answer: <span class="answer">${text.slice(a.start, a.end)}</span>
+                    <span class="muted">(characters ${a.start}–${a.end})</span>`
+                : html`<span class="muted">no answer selected yet</span>`
+          }
         </span>
       </div>
       <div class="row spaced">
-        <label class="grow">Question
-          <input id="question-input" .value=${this.question} @input=${(e: Event) => (this.question = (e.target as HTMLInputElement).value)} @keydown=${this._onQuestionKey} />
+        <label class="grow"
+          >Question
+          <input
+            id="question-input"
+            .value=${this.question}
+            @input=${(e: Event) => (this.question = (e.target as HTMLInputElement).value)}
+            @keydown=${this._onQuestionKey}
+          />
         </label>
-        <label><input id="unanswerable-box" type="checkbox" .checked=${this.unanswerable} @change=${(e: Event) => (this.unanswerable = (e.target as HTMLInputElement).checked)} /> unanswerable</label>
+        <label
+          ><input
+            id="unanswerable-box"
+            type="checkbox"
+            .checked=${this.unanswerable}
+            @change=${(e: Event) => (this.unanswerable = (e.target as HTMLInputElement).checked)}
+          />
+          unanswerable</label
+        >
         <button id="save-question" class="primary" @click=${this._onSave}>${this.editing ? 'Save changes' : 'Add question'}</button>
         ${this.editing ? html`<button @click=${this._onCancelEdit}>Cancel</button>` : ''}
       </div>
       <ul class="questions" aria-label="Questions on this passage">
         ${questions.map(
-          (r) => html`<li class=${r.id === this.editing ? 'editing' : ''} data-id=${r.id}>
-            <strong>${r.question}</strong> →
-            ${r.unanswerable ? html`<em>unanswerable</em>` : html`<span class="answer">${r.answers[0]?.text ?? ''}</span>`}
-            <span class="muted">${r.id}</span>
-            <button @click=${() => this.startEdit(r)} aria-label="Edit question ${r.id}">Edit</button>
-            <button @click=${() => this._onDelete(r)} aria-label="Delete question ${r.id}">Delete</button>
-          </li>`,
+          (r) =>
+            html`<li class=${r.id === this.editing ? 'editing' : ''} data-id=${r.id}>
+              <strong>${r.question}</strong> →
+              ${r.unanswerable ? html`<em>unanswerable</em>` : html`<span class="answer">${r.answers[0]?.text ?? ''}</span>`}
+              <span class="muted">${r.id}</span>
+              <button @click=${() => this.startEdit(r)} aria-label="Edit question ${r.id}">Edit</button>
+              <button @click=${() => this._onDelete(r)} aria-label="Delete question ${r.id}">Delete</button>
+            </li>`,
         )}
       </ul>
     `;

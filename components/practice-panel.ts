@@ -96,47 +96,108 @@ export class PracticePanel extends LitElement {
     return html`<section id="practice">
       <h3>Practice first (optional)</h3>
       <p class="muted">
-        Before your own questions, the reader can practise on questions Spanwright writes from your training passages: a sentence
-        turned into a question about one of its names, numbers, dates or phrases, and the same question asked where its answer is
-        missing. A small reader gets far more to learn from. Optionally the reader first reads the same passages with masked-LM
-        training (words hidden and guessed back) for a few minutes. The validation passages are never used.
+        Before your own questions, the reader can practise on questions Spanwright writes from your training passages: a sentence turned
+        into a question about one of its names, numbers, dates or phrases, and the same question asked where its answer is missing. A small
+        reader gets far more to learn from. Optionally the reader first reads the same passages with masked-LM training (words hidden and
+        guessed back) for a few minutes. The validation passages are never used.
       </p>
       <div class="fields">
-        <label>Questions per passage <input id="practice-per-passage" type="number" min="1" step="1" .value=${String(this.settings.perPassage)} @change=${this._onChange} ?disabled=${this.running} /></label>
-        <label>Passes <input id="practice-epochs" type="number" min="1" step="1" .value=${String(this.settings.epochs)} @change=${this._onChange} ?disabled=${this.running} /></label>
-        <label>Window tokens <input id="practice-max-len" type="number" min="32" step="1" .value=${String(this.settings.maxLength)} @change=${this._onChange} ?disabled=${this.running} /></label>
+        <label
+          >Questions per passage
+          <input
+            id="practice-per-passage"
+            type="number"
+            min="1"
+            step="1"
+            .value=${String(this.settings.perPassage)}
+            @change=${this._onChange}
+            ?disabled=${this.running}
+        /></label>
+        <label
+          >Passes
+          <input
+            id="practice-epochs"
+            type="number"
+            min="1"
+            step="1"
+            .value=${String(this.settings.epochs)}
+            @change=${this._onChange}
+            ?disabled=${this.running}
+        /></label>
+        <label
+          >Window tokens
+          <input
+            id="practice-max-len"
+            type="number"
+            min="32"
+            step="1"
+            .value=${String(this.settings.maxLength)}
+            @change=${this._onChange}
+            ?disabled=${this.running}
+        /></label>
         <label title="Masked-language-model training on the same passages before the questions: the reader reads your domain's words first">
-          Masked-LM minutes first <input id="practice-domain-minutes" type="number" min="0" step="any" .value=${String(this.settings.domainMinutes)} @change=${this._onChange} ?disabled=${this.running} />
+          Masked-LM minutes first
+          <input
+            id="practice-domain-minutes"
+            type="number"
+            min="0"
+            step="any"
+            .value=${String(this.settings.domainMinutes)}
+            @change=${this._onChange}
+            ?disabled=${this.running}
+          />
         </label>
         <label title="Passage words that also occur in the question, and the sentence that shares most of them, get their own token types">
-          <span><input id="practice-match" type="checkbox" .checked=${baseHasMatch || this.settings.questionMatch} ?disabled=${baseHasMatch || this.running} @change=${this._onChange} /> mark question words and the best-matching sentence</span>
+          <span
+            ><input
+              id="practice-match"
+              type="checkbox"
+              .checked=${baseHasMatch || this.settings.questionMatch}
+              ?disabled=${baseHasMatch || this.running}
+              @change=${this._onChange}
+            />
+            mark question words and the best-matching sentence</span
+          >
         </label>
       </div>
       <div class="row">
-        <button id="practice-preview" @click=${this._onPreview} ?disabled=${this.busy || passages === 0 || !this.baseInfo}>Show sample questions</button>
-        <button id="practice-start" class="primary" @click=${this._onStart} ?disabled=${this.running || passages === 0 || !this.baseInfo}>Start practice on ${passages} passages</button>
+        <button id="practice-preview" @click=${this._onPreview} ?disabled=${this.busy || passages === 0 || !this.baseInfo}>
+          Show sample questions
+        </button>
+        <button id="practice-start" class="primary" @click=${this._onStart} ?disabled=${this.running || passages === 0 || !this.baseInfo}>
+          Start practice on ${passages} passages
+        </button>
         ${this.practice ? html`<button id="practice-forget" @click=${this._onForget} ?disabled=${this.running}>Start from the base reader again</button>` : ''}
       </div>
-      ${this.practice
-        ? html`<p class="note good" id="practice-done">
-            Fine-tuning now starts from the practised reader: ${this.practice.questions.toLocaleString()} practice questions,
-            ${this.practice.updates} updates (${this.practice.finishedAt.slice(0, 16).replace('T', ' ')}).
-          </p>`
-        : html`<p class="muted" id="practice-none">Fine-tuning starts from the base reader.</p>`}
-      ${this.error ? html`<p class="note bad" role="alert">${this.error}</p>` : ''}
-      ${this.preview ? this.renderPreview(this.preview) : ''}
+      ${
+        this.practice
+          ? html`<p class="note good" id="practice-done">
+              Fine-tuning now starts from the practised reader: ${this.practice.questions.toLocaleString()} practice questions,
+              ${this.practice.updates} updates (${this.practice.finishedAt.slice(0, 16).replace('T', ' ')}).
+            </p>`
+          : html`<p class="muted" id="practice-none">Fine-tuning starts from the base reader.</p>`
+      }
+      ${this.error ? html`<p class="note bad" role="alert">${this.error}</p>` : ''} ${this.preview ? this.renderPreview(this.preview) : ''}
     </section>`;
   }
 
   private renderPreview(p: PracticePreview) {
     return html`<div id="practice-sample">
       <p>
-        <strong>${p.questions.toLocaleString()}</strong> questions from ${p.passages} passages (${p.unanswerable.toLocaleString()} without an answer${p.emptyPassages > 0 ? `; ${p.emptyPassages} passages gave none` : ''}).
-        They are written by rules, not by a person: terse, sometimes ungrammatical, and now and then about an odd span. A sample:
+        <strong>${p.questions.toLocaleString()}</strong> questions from ${p.passages} passages (${p.unanswerable.toLocaleString()} without
+        an answer${p.emptyPassages > 0 ? `; ${p.emptyPassages} passages gave none` : ''}). They are written by rules, not by a person:
+        terse, sometimes ungrammatical, and now and then about an odd span. A sample:
       </p>
       <div class="sample">
         <table>
-          <thead><tr><th>Question</th><th>Answer</th><th>Kind</th><th>Where</th></tr></thead>
+          <thead>
+            <tr>
+              <th>Question</th>
+              <th>Answer</th>
+              <th>Kind</th>
+              <th>Where</th>
+            </tr>
+          </thead>
           <tbody>
             ${p.sample.map((q) => {
               const from = q.span ? Math.max(0, q.span.start - 90) : 0;
@@ -145,7 +206,12 @@ export class PracticePanel extends LitElement {
                 <td>${q.question}</td>
                 <td>${q.answer === '' ? html`<em>no answer</em>` : q.answer}</td>
                 <td class="muted">${KIND_LABEL[q.kind] ?? q.kind}</td>
-                <td><marked-passage .text=${`${from > 0 ? '…' : ''}${q.context.slice(from, to)}${to < q.context.length ? '…' : ''}`} .marks=${q.span ? [{ start: q.span.start - from + (from > 0 ? 1 : 0), end: q.span.end - from + (from > 0 ? 1 : 0), kind: 'gold' as const }] : []}></marked-passage></td>
+                <td>
+                  <marked-passage
+                    .text=${`${from > 0 ? '…' : ''}${q.context.slice(from, to)}${to < q.context.length ? '…' : ''}`}
+                    .marks=${q.span ? [{ start: q.span.start - from + (from > 0 ? 1 : 0), end: q.span.end - from + (from > 0 ? 1 : 0), kind: 'gold' as const }] : []}
+                  ></marked-passage>
+                </td>
               </tr>`;
             })}
           </tbody>
@@ -191,7 +257,12 @@ export class PracticePanel extends LitElement {
     this.busy = true;
     this.error = '';
     try {
-      this.preview = await this.engine.call({ kind: 'preview-practice', passages: this.passages, questions: { perPassage: this.settings.perPassage }, sample: 16 });
+      this.preview = await this.engine.call({
+        kind: 'preview-practice',
+        passages: this.passages,
+        questions: { perPassage: this.settings.perPassage },
+        sample: 16,
+      });
     } catch (err) {
       this.error = (err as Error).message;
     } finally {

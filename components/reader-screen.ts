@@ -94,22 +94,40 @@ export class ReaderScreen extends LitElement {
 
   override render() {
     const info = this.baseInfo;
-    const hasShipped = this.shipped !== null && this.shipped.includes('base/config.json') && this.shipped.includes('base/model.safetensors');
+    const hasShipped =
+      this.shipped !== null && this.shipped.includes('base/config.json') && this.shipped.includes('base/model.safetensors');
     return html`
       <h2>Base reader</h2>
       <section>
         <h3>Choose the reader to start from</h3>
         <div class="row">
-          <button id="use-shipped" class="primary" @click=${this._onShipped} ?disabled=${!hasShipped || this.busy}>Use the shipped base reader</button>
-          ${this.shipped !== null && !hasShipped
-            ? html`<span class="note warn" id="no-shipped">This build has no shipped base reader yet (tiny-models/base/ was not built when the workbench was). Import a checkpoint folder instead.</span>`
-            : ''}
+          <button id="use-shipped" class="primary" @click=${this._onShipped} ?disabled=${!hasShipped || this.busy}>
+            Use the shipped base reader
+          </button>
+          ${
+            this.shipped !== null && !hasShipped
+              ? html`<span class="note warn" id="no-shipped"
+                  >This build has no shipped base reader yet (tiny-models/base/ was not built when the workbench was). Import a checkpoint
+                  folder instead.</span
+                >`
+              : ''
+          }
         </div>
-        <div class="drop spaced ${this.dragging ? 'over' : ''}" @dragover=${this._onDragOver} @dragleave=${() => (this.dragging = false)} @drop=${this._onDrop}>
-          <p>A checkpoint folder: <code>config.json</code>, <code>model.safetensors</code> (common BERT names), and <code>vocab.txt</code> or <code>tokenizer.json</code>.</p>
+        <div
+          class="drop spaced ${this.dragging ? 'over' : ''}"
+          @dragover=${this._onDragOver}
+          @dragleave=${() => (this.dragging = false)}
+          @drop=${this._onDrop}
+        >
+          <p>
+            A checkpoint folder: <code>config.json</code>, <code>model.safetensors</code> (common BERT names), and <code>vocab.txt</code> or
+            <code>tokenizer.json</code>.
+          </p>
           <div class="row">
             <label>Choose the folder <input id="model-folder" type="file" webkitdirectory @change=${this._onPick} /></label>
-            <label>or its files <input id="model-files" type="file" multiple accept=".json,.safetensors,.txt" @change=${this._onPick} /></label>
+            <label
+              >or its files <input id="model-files" type="file" multiple accept=".json,.safetensors,.txt" @change=${this._onPick}
+            /></label>
           </div>
           <div class="muted">or drop the files here</div>
         </div>
@@ -129,26 +147,46 @@ export class ReaderScreen extends LitElement {
       <h3>${info.name}</h3>
       <dl>
         <dt>Parameters</dt>
-        <dd id="param-count">${info.params.total.toLocaleString('en-US')} (encoder ${info.params.encoder.toLocaleString('en-US')}, span head ${info.params.spanHead}, MLM head ${info.params.mlmHead.toLocaleString('en-US')})</dd>
+        <dd id="param-count">
+          ${info.params.total.toLocaleString('en-US')} (encoder ${info.params.encoder.toLocaleString('en-US')}, span head
+          ${info.params.spanHead}, MLM head ${info.params.mlmHead.toLocaleString('en-US')})
+        </dd>
         <dt>Shape</dt>
-        <dd>${c.numLayers} layers, hidden ${c.hiddenSize}, ${c.numHeads} heads, feed-forward ${c.intermediateSize}, ${c.activation === 'gelu' ? 'exact GELU' : 'sigmoid GELU'}</dd>
+        <dd>
+          ${c.numLayers} layers, hidden ${c.hiddenSize}, ${c.numHeads} heads, feed-forward ${c.intermediateSize},
+          ${c.activation === 'gelu' ? 'exact GELU' : 'sigmoid GELU'}
+        </dd>
         <dt>Vocabulary</dt>
         <dd>${info.vocabSize.toLocaleString('en-US')} tokens; windows up to ${c.maxPositions} tokens</dd>
-        ${mem
-          ? html`<dt>Memory (rough)</dt>
-              <dd id="memory">${(mem.weights / MB).toFixed(1)} MB of weights; about ${((mem.training + mem.activations) / MB).toFixed(0)} MB while training at batch ${this.settings!.batchSize} × ${this.settings!.maxLength} tokens</dd>`
-          : ''}
+        ${
+          mem
+            ? html`<dt>Memory (rough)</dt>
+                <dd id="memory">
+                  ${(mem.weights / MB).toFixed(1)} MB of weights; about ${((mem.training + mem.activations) / MB).toFixed(0)} MB while
+                  training at batch ${this.settings!.batchSize} × ${this.settings!.maxLength} tokens
+                </dd>`
+            : ''
+        }
         <dt>Time per epoch</dt>
         <dd id="epoch-time">
-          ${t
-            ? html`${formatDuration(t.epochMs)} (${t.updatesPerEpoch} updates over ${t.windows} windows; measured ${t.stepMs.map((m) => m.toFixed(0)).join(', ')} ms per update, the first includes warm-up)`
-            : html`<button id="measure-speed" @click=${this._onMeasure} ?disabled=${this.timingBusy || this.split.train.length === 0}>
-                  ${this.timingBusy ? 'timing…' : 'Measure with the current settings'}
-                </button>
-                ${this.split.train.length === 0 ? html`<span class="muted">needs training questions</span>` : ''}`}
+          ${
+            t
+              ? html`${formatDuration(t.epochMs)} (${t.updatesPerEpoch} updates over ${t.windows} windows; measured
+                ${t.stepMs.map((m) => m.toFixed(0)).join(', ')} ms per update, the first includes warm-up)`
+              : html`<button id="measure-speed" @click=${this._onMeasure} ?disabled=${this.timingBusy || this.split.train.length === 0}>
+                    ${this.timingBusy ? 'timing…' : 'Measure with the current settings'}
+                  </button>
+                  ${this.split.train.length === 0 ? html`<span class="muted">needs training questions</span>` : ''}`
+          }
         </dd>
       </dl>
-      ${info.notices.length > 0 ? html`<ul>${info.notices.map((n) => html`<li class="muted">${n}</li>`)}</ul>` : ''}
+      ${
+        info.notices.length > 0
+          ? html`<ul>
+              ${info.notices.map((n) => html`<li class="muted">${n}</li>`)}
+            </ul>`
+          : ''
+      }
     </section>`;
   }
 

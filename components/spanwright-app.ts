@@ -52,13 +52,37 @@ const SCREENS: ReadonlyArray<{ name: ScreenName; label: string }> = [
   { name: 'export', label: 'Export' },
 ];
 
-
 /** The smallest valid module using a SIMD instruction (v128 result, i8x16.splat), written from the WebAssembly spec. */
 const SIMD_PROBE = new Uint8Array([
-  0x00, 0x61, 0x73, 0x6d, 0x01, 0x00, 0x00, 0x00, // magic, version 1
-  0x01, 0x05, 0x01, 0x60, 0x00, 0x01, 0x7b, // type section: () -> v128
-  0x03, 0x02, 0x01, 0x00, // function section: one function of type 0
-  0x0a, 0x08, 0x01, 0x06, 0x00, 0x41, 0x00, 0xfd, 0x0f, 0x0b, // code: i32.const 0; i8x16.splat; end
+  0x00,
+  0x61,
+  0x73,
+  0x6d,
+  0x01,
+  0x00,
+  0x00,
+  0x00, // magic, version 1
+  0x01,
+  0x05,
+  0x01,
+  0x60,
+  0x00,
+  0x01,
+  0x7b, // type section: () -> v128
+  0x03,
+  0x02,
+  0x01,
+  0x00, // function section: one function of type 0
+  0x0a,
+  0x08,
+  0x01,
+  0x06,
+  0x00,
+  0x41,
+  0x00,
+  0xfd,
+  0x0f,
+  0x0b, // code: i32.const 0; i8x16.splat; end
 ]);
 
 function simdSupported(): boolean {
@@ -237,11 +261,16 @@ export class SpanwrightApp extends LitElement {
         <h1>Spanwright</h1>
         <span class="muted">adapt a question-answering reader to your documents, on this computer</span>
         <div class="badges" aria-live="polite">
-          <span class="badge ${isolated ? 'on' : ''}" id="isolation" title="Cross-origin isolation lets WebAssembly share memory between threads">
+          <span
+            class="badge ${isolated ? 'on' : ''}"
+            id="isolation"
+            title="Cross-origin isolation lets WebAssembly share memory between threads"
+          >
             ${isolated ? 'isolated' : 'not isolated'}
           </span>
           <span class="badge ${threadsOn ? 'on' : ''}" id="threads" title="tfjs-wasm uses at most half the logical cores">
-            threads: ${r === null ? '…' : threadsOn ? `on (${r.threads})` : isolated ? `1 (half of ${navigator.hardwareConcurrency} cores)` : 'off'}
+            threads:
+            ${r === null ? '…' : threadsOn ? `on (${r.threads})` : isolated ? `1 (half of ${navigator.hardwareConcurrency} cores)` : 'off'}
           </span>
           <span class="badge ${this.simd ? 'on' : ''}" id="simd">SIMD: ${this.simd ? 'on' : 'off'}</span>
           <span class="badge ${r?.fastKernels ? 'on' : ''}" id="engine">
@@ -252,9 +281,14 @@ export class SpanwrightApp extends LitElement {
       ${this.engineError ? html`<p class="note bad" role="alert">The engine did not start: ${this.engineError}</p>` : ''}
       <nav aria-label="Screens">
         ${SCREENS.map(
-          (s) => html`<button data-screen=${s.name} aria-current=${s.name === this.screen ? 'page' : 'false'} @click=${() => this._onNavigate(s.name)}>
-            ${s.label}
-          </button>`,
+          (s) =>
+            html`<button
+              data-screen=${s.name}
+              aria-current=${s.name === this.screen ? 'page' : 'false'}
+              @click=${() => this._onNavigate(s.name)}
+            >
+              ${s.label}
+            </button>`,
         )}
       </nav>
       <main>${this.renderScreen()}</main>
@@ -410,7 +444,12 @@ export class SpanwrightApp extends LitElement {
   private async _onPracticeStart(e: CustomEvent<{ settings: PracticeSettings }>): Promise<void> {
     if (!this.baseInfo) return;
     const p = e.detail.settings;
-    const questions = { perPassage: p.perPassage, seed: this.settings.seed, questionMatch: p.questionMatch || this.baseInfo.config.questionMatch !== undefined, domainMinutes: p.domainMinutes };
+    const questions = {
+      perPassage: p.perPassage,
+      seed: this.settings.seed,
+      questionMatch: p.questionMatch || this.baseInfo.config.questionMatch !== undefined,
+      domainMinutes: p.domainMinutes,
+    };
     // the practice stage trains from the base: a stage run before it is dropped first
     if (this.practice) await this._onPracticeForget();
     const run: RunRecord = {
@@ -418,7 +457,10 @@ export class SpanwrightApp extends LitElement {
       stage: p.domainMinutes > 0 ? 'domain' : 'practice',
       practice: questions,
       status: 'running',
-      config: practiceTrainSettings(this.settings, { epochs: p.epochs, maxLength: Math.min(p.maxLength, this.baseInfo.config.maxPositions) }),
+      config: practiceTrainSettings(this.settings, {
+        epochs: p.epochs,
+        maxLength: Math.min(p.maxLength, this.baseInfo.config.maxPositions),
+      }),
       datasetHash: await this.practiceHash(questions),
       baseName: this.baseInfo.name,
       startedAt: new Date().toISOString(),
@@ -450,11 +492,25 @@ export class SpanwrightApp extends LitElement {
         });
         if (domain.status !== 'finished' || !domain.checkpointId) {
           const status = this.haltMode === 'stop' ? 'stopped' : 'paused';
-          this.run = { ...this.run!, status, update: domain.update, etaMs: 0, lastCheckpoint: domain.checkpointId ? { id: domain.checkpointId, step: domain.update } : this.run!.lastCheckpoint };
+          this.run = {
+            ...this.run!,
+            status,
+            update: domain.update,
+            etaMs: 0,
+            lastCheckpoint: domain.checkpointId ? { id: domain.checkpointId, step: domain.update } : this.run!.lastCheckpoint,
+          };
           await saveState('run', this.run!);
           return;
         }
-        this.run = { ...this.run!, stage: 'practice', practice: { ...q, domainDone: { checkpointId: domain.checkpointId } }, update: 0, totalUpdates: 0, lastCheckpoint: null, series: emptySeries() };
+        this.run = {
+          ...this.run!,
+          stage: 'practice',
+          practice: { ...q, domainDone: { checkpointId: domain.checkpointId } },
+          update: 0,
+          totalUpdates: 0,
+          lastCheckpoint: null,
+          series: emptySeries(),
+        };
         await saveState('run', this.run);
         resumeFrom = undefined;
       } else if (resumeFrom === undefined && q.domainDone) {
@@ -473,9 +529,21 @@ export class SpanwrightApp extends LitElement {
         resumeFrom,
       });
       const status = ended.status === 'finished' ? 'finished' : this.haltMode === 'stop' ? 'stopped' : 'paused';
-      this.run = { ...this.run!, status, update: ended.update, etaMs: 0, lastCheckpoint: ended.checkpointId ? { id: ended.checkpointId, step: ended.update } : this.run!.lastCheckpoint };
+      this.run = {
+        ...this.run!,
+        status,
+        update: ended.update,
+        etaMs: 0,
+        lastCheckpoint: ended.checkpointId ? { id: ended.checkpointId, step: ended.update } : this.run!.lastCheckpoint,
+      };
       if (ended.status === 'finished' && ended.checkpointId) {
-        this.practice = { checkpointId: ended.checkpointId, questions: ended.questions, updates: ended.update, finishedAt: new Date().toISOString(), baseName: run.baseName };
+        this.practice = {
+          checkpointId: ended.checkpointId,
+          questions: ended.questions,
+          updates: ended.update,
+          finishedAt: new Date().toISOString(),
+          baseName: run.baseName,
+        };
         await saveState('practice', this.practice);
       }
     } catch (err) {
@@ -502,19 +570,38 @@ export class SpanwrightApp extends LitElement {
     if (!run || !run.lastCheckpoint) return;
     if (run.stage === 'practice' || run.stage === 'domain') {
       if ((await this.practiceHash(run.practice!)) !== run.datasetHash) {
-        this.run = { ...run, error: 'the training questions changed since this practice run started, so it cannot continue; start it again' };
+        this.run = {
+          ...run,
+          error: 'the training questions changed since this practice run started, so it cannot continue; start it again',
+        };
         return;
       }
-      await this.trainPractice({ ...run, status: 'running', update: run.lastCheckpoint.step, series: this.seriesUpTo(run, run.lastCheckpoint.step), error: undefined }, run.lastCheckpoint.id);
+      await this.trainPractice(
+        {
+          ...run,
+          status: 'running',
+          update: run.lastCheckpoint.step,
+          series: this.seriesUpTo(run, run.lastCheckpoint.step),
+          error: undefined,
+        },
+        run.lastCheckpoint.id,
+      );
       return;
     }
     const hash = await hashDataset(this.split.train);
     if (hash !== run.datasetHash) {
-      this.run = { ...run, status: run.status, error: 'the training questions changed since this run started, so it cannot continue; start a new run' };
+      this.run = {
+        ...run,
+        status: run.status,
+        error: 'the training questions changed since this run started, so it cannot continue; start a new run',
+      };
       return;
     }
     const step = run.lastCheckpoint.step;
-    await this.train({ ...run, status: 'running', update: step, series: this.seriesUpTo(run, step), error: undefined }, run.lastCheckpoint.id);
+    await this.train(
+      { ...run, status: 'running', update: step, series: this.seriesUpTo(run, step), error: undefined },
+      run.lastCheckpoint.id,
+    );
   }
 
   /** The run's chart series up to `step`: the updates after a checkpoint will be taken again. */
@@ -548,7 +635,13 @@ export class SpanwrightApp extends LitElement {
         resumeFrom,
       });
       const status = ended.status === 'finished' ? 'finished' : this.haltMode === 'stop' ? 'stopped' : 'paused';
-      this.run = { ...this.run!, status, update: ended.update, etaMs: 0, lastCheckpoint: ended.checkpointId ? { id: ended.checkpointId, step: ended.update } : this.run!.lastCheckpoint };
+      this.run = {
+        ...this.run!,
+        status,
+        update: ended.update,
+        etaMs: 0,
+        lastCheckpoint: ended.checkpointId ? { id: ended.checkpointId, step: ended.update } : this.run!.lastCheckpoint,
+      };
       this.tunedName = `run ${run.runId} at update ${ended.update}`;
       this.evaluations = { base: this.evaluations.base };
     } catch (err) {

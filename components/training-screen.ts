@@ -24,18 +24,53 @@ type NumericField = Exclude<{ [K in keyof TrainConfig]: TrainConfig[K] extends n
 
 /** The form's fields, in order, each with a one-line explanation. */
 const FIELDS: ReadonlyArray<{ key: NumericField; label: string; step: string; help: string }> = [
-  { key: 'learningRate', label: 'Learning rate', step: 'any', help: 'Peak step size of AdamW after warmup; smaller is steadier, larger learns faster.' },
+  {
+    key: 'learningRate',
+    label: 'Learning rate',
+    step: 'any',
+    help: 'Peak step size of AdamW after warmup; smaller is steadier, larger learns faster.',
+  },
   { key: 'batchSize', label: 'Batch', step: '1', help: 'Windows per forward/backward pass; memory grows with it.' },
-  { key: 'gradAccumulation', label: 'Accumulation', step: '1', help: 'Passes averaged into one update: the update sees batch × this many windows.' },
+  {
+    key: 'gradAccumulation',
+    label: 'Accumulation',
+    step: '1',
+    help: 'Passes averaged into one update: the update sees batch × this many windows.',
+  },
   { key: 'epochs', label: 'Epochs', step: '1', help: 'Passes over the training windows.' },
-  { key: 'maxLength', label: 'Max length', step: '1', help: 'Tokens per window, question and special tokens included; longer passages get several windows.' },
+  {
+    key: 'maxLength',
+    label: 'Max length',
+    step: '1',
+    help: 'Tokens per window, question and special tokens included; longer passages get several windows.',
+  },
   { key: 'stride', label: 'Stride', step: '1', help: 'Passage tokens shared by two neighbouring windows of one long passage.' },
   { key: 'maxQueryLength', label: 'Max question length', step: '1', help: 'Question tokens kept; longer questions are cut.' },
-  { key: 'warmupRatio', label: 'Warmup', step: 'any', help: 'Share of updates over which the learning rate rises from 0 before it decays linearly.' },
-  { key: 'weightDecay', label: 'Weight decay', step: 'any', help: 'AdamW’s decoupled shrinkage of weights (none on biases and LayerNorm).' },
-  { key: 'maxGradNorm', label: 'Clipping', step: 'any', help: 'Largest global gradient norm before it is scaled down; 0 turns clipping off.' },
+  {
+    key: 'warmupRatio',
+    label: 'Warmup',
+    step: 'any',
+    help: 'Share of updates over which the learning rate rises from 0 before it decays linearly.',
+  },
+  {
+    key: 'weightDecay',
+    label: 'Weight decay',
+    step: 'any',
+    help: 'AdamW’s decoupled shrinkage of weights (none on biases and LayerNorm).',
+  },
+  {
+    key: 'maxGradNorm',
+    label: 'Clipping',
+    step: 'any',
+    help: 'Largest global gradient norm before it is scaled down; 0 turns clipping off.',
+  },
   { key: 'seed', label: 'Seed', step: '1', help: 'Fixes initialisation, data order and dropout: the same seed repeats a run.' },
-  { key: 'evalEvery', label: 'Evaluation interval', step: '1', help: 'Score validation (and save a checkpoint) every this many updates; 0 = once per epoch.' },
+  {
+    key: 'evalEvery',
+    label: 'Evaluation interval',
+    step: '1',
+    help: 'Score validation (and save a checkpoint) every this many updates; 0 = once per epoch.',
+  },
 ];
 
 /** The workbench's defaults: BERT's settings (src/train/config.ts) with a shorter window for a CPU. */
@@ -85,7 +120,8 @@ export class TrainingScreen extends LitElement {
 
   /** A setting's default; the learning rate's depends on the loaded reader's width. */
   private _defaultOf(key: keyof TrainConfig): string {
-    if (key === 'learningRate' && this.baseInfo !== null) return `${suggestedLearningRate(this.baseInfo.config.hiddenSize)} for this reader's width`;
+    if (key === 'learningRate' && this.baseInfo !== null)
+      return `${suggestedLearningRate(this.baseInfo.config.hiddenSize)} for this reader's width`;
     return String(START_SETTINGS[key]);
   }
 
@@ -99,17 +135,22 @@ export class TrainingScreen extends LitElement {
         <h3>Settings</h3>
         <form @change=${this._onFormChange} @submit=${(e: Event) => e.preventDefault()}>
           ${FIELDS.map(
-            (f) => html`<label>
-              ${f.label}
-              <input name=${f.key} type="number" step=${f.step} .value=${String(this.settings[f.key])} ?disabled=${running} />
-              <small>${f.help} Default ${this._defaultOf(f.key)}.</small>
-            </label>`,
+            (f) =>
+              html`<label>
+                ${f.label}
+                <input name=${f.key} type="number" step=${f.step} .value=${String(this.settings[f.key])} ?disabled=${running} />
+                <small>${f.help} Default ${this._defaultOf(f.key)}.</small>
+              </label>`,
           )}
         </form>
         ${this.formError ? html`<p class="note bad" role="alert" id="settings-error">${this.formError}</p>` : ''}
-        ${this.baseInfo && this.settings.maxLength > this.baseInfo.config.maxPositions
-          ? html`<p class="note bad">Max length ${this.settings.maxLength} is longer than the reader's ${this.baseInfo.config.maxPositions} positions.</p>`
-          : ''}
+        ${
+          this.baseInfo && this.settings.maxLength > this.baseInfo.config.maxPositions
+            ? html`<p class="note bad">
+                Max length ${this.settings.maxLength} is longer than the reader's ${this.baseInfo.config.maxPositions} positions.
+              </p>`
+            : ''
+        }
       </section>
 
       <practice-panel
@@ -132,9 +173,13 @@ export class TrainingScreen extends LitElement {
           <button id="start-run" class="primary" @click=${this._onStart} ?disabled=${!canStart}>Start a new run</button>
           <button id="pause-run" @click=${() => this._onHalt('pause')} ?disabled=${!running}>Pause</button>
           <button id="stop-run" @click=${() => this._onHalt('stop')} ?disabled=${!running}>Stop</button>
-          ${run && run.status === 'paused' && run.lastCheckpoint
-            ? html`<button id="resume-run" class="primary" @click=${this._onContinue}>Resume from update ${run.lastCheckpoint.step}</button>`
-            : ''}
+          ${
+            run && run.status === 'paused' && run.lastCheckpoint
+              ? html`<button id="resume-run" class="primary" @click=${this._onContinue}>
+                  Resume from update ${run.lastCheckpoint.step}
+                </button>`
+              : ''
+          }
         </div>
         ${run ? this.renderProgress(run) : ''}
       </section>
@@ -148,7 +193,9 @@ export class TrainingScreen extends LitElement {
     if (!this.baseInfo) notes.push(html`<p class="note warn">Choose a base reader first (Base reader screen).</p>`);
     if (this.split.train.length === 0) notes.push(html`<p class="note warn">There are no training questions yet (Data screen).</p>`);
     if (this.split.validation.length === 0 && this.split.train.length > 0) {
-      notes.push(html`<p class="note warn">No validation questions: the run will not be scored and checkpoints are kept by interval only.</p>`);
+      notes.push(
+        html`<p class="note warn">No validation questions: the run will not be scored and checkpoints are kept by interval only.</p>`,
+      );
     }
     if (run?.status === 'interrupted') {
       notes.push(
@@ -157,7 +204,9 @@ export class TrainingScreen extends LitElement {
               The run ${run.runId} was interrupted at update ${run.update} (the page was closed or reloaded while it trained).
               <button id="continue-run" class="primary" @click=${this._onContinue}>Continue from update ${run.lastCheckpoint.step}</button>
             </div>`
-          : html`<p class="note warn" id="interrupted">The run ${run.runId} was interrupted before its first checkpoint; start it again.</p>`,
+          : html`<p class="note warn" id="interrupted">
+              The run ${run.runId} was interrupted before its first checkpoint; start it again.
+            </p>`,
       );
     }
     if (run?.error) notes.push(html`<p class="note bad" role="alert" id="run-error">${run.error}</p>`);
@@ -169,7 +218,8 @@ export class TrainingScreen extends LitElement {
     const lastLoss = s.loss.at(-1);
     return html`<div id="run-status" data-status=${run.status} data-update=${run.update}>
       <p>
-        <strong>${run.stage === 'practice' ? 'practice ' : run.stage === 'domain' ? 'masked-LM ' : ''}${run.status}</strong> — update <span id="run-update">${run.update}</span> of ${run.totalUpdates || '…'}
+        <strong>${run.stage === 'practice' ? 'practice ' : run.stage === 'domain' ? 'masked-LM ' : ''}${run.status}</strong> — update
+        <span id="run-update">${run.update}</span> of ${run.totalUpdates || '…'}
         ${lastLoss !== undefined ? html`· loss ${lastLoss.toFixed(4)}` : ''}
         ${s.f1.length ? html`· validation F1 ${s.f1.at(-1)!.toFixed(2)}` : ''}
         ${run.status === 'running' ? html`· ETA <span id="eta">${formatDuration(run.etaMs)}</span>` : ''}
@@ -184,7 +234,12 @@ export class TrainingScreen extends LitElement {
     return html`<section>
       <h3>Charts</h3>
       <div class="charts">
-        <metric-chart id="chart-loss" heading="Training loss" .x=${s.update} .series=${[{ label: 'loss', values: s.loss, stroke: '#1f5f8b' }]}></metric-chart>
+        <metric-chart
+          id="chart-loss"
+          heading="Training loss"
+          .x=${s.update}
+          .series=${[{ label: 'loss', values: s.loss, stroke: '#1f5f8b' }]}
+        ></metric-chart>
         <metric-chart
           id="chart-eval"
           heading="Validation EM and F1"
@@ -194,8 +249,19 @@ export class TrainingScreen extends LitElement {
             { label: 'F1', values: s.f1, stroke: '#2d6a3e' },
           ]}
         ></metric-chart>
-        <metric-chart id="chart-lr" heading="Learning rate" scientific .x=${s.update} .series=${[{ label: 'lr', values: s.lr, stroke: '#6b3fa0' }]}></metric-chart>
-        <metric-chart id="chart-speed" heading="Tokens per second" .x=${s.update} .series=${[{ label: 'tokens/s', values: s.tokensPerSecond, stroke: '#a3262a' }]}></metric-chart>
+        <metric-chart
+          id="chart-lr"
+          heading="Learning rate"
+          scientific
+          .x=${s.update}
+          .series=${[{ label: 'lr', values: s.lr, stroke: '#6b3fa0' }]}
+        ></metric-chart>
+        <metric-chart
+          id="chart-speed"
+          heading="Tokens per second"
+          .x=${s.update}
+          .series=${[{ label: 'tokens/s', values: s.tokensPerSecond, stroke: '#a3262a' }]}
+        ></metric-chart>
       </div>
     </section>`;
   }

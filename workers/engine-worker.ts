@@ -13,9 +13,20 @@ import { IdbCheckpointStore } from '../src/io/idb-store.js';
 import { fastKernelsActive, registerFastKernels } from '../src/kernels/register.js';
 import { ReaderSession } from '../src/session/reader-session.js';
 import type { RunMeta } from '../src/train/finetune.js';
-import { SESSION_METHODS, type EngineReady, type EngineRequest, type EngineResults, type RequestKind, type RequestMessage, type WorkerMessage } from './protocol.js';
+import {
+  SESSION_METHODS,
+  type EngineReady,
+  type EngineRequest,
+  type EngineResults,
+  type RequestKind,
+  type RequestMessage,
+  type WorkerMessage,
+} from './protocol.js';
 
-const scope = self as unknown as { postMessage(message: WorkerMessage, transfer?: Transferable[]): void; onmessage: ((e: MessageEvent<RequestMessage>) => void) | null };
+const scope = self as unknown as {
+  postMessage(message: WorkerMessage, transfer?: Transferable[]): void;
+  onmessage: ((e: MessageEvent<RequestMessage>) => void) | null;
+};
 
 const session = new ReaderSession(new IdbCheckpointStore<RunMeta>({ dbName: 'spanwright-checkpoints' }));
 

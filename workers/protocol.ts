@@ -56,8 +56,7 @@ export interface EngineReady {
 /** What the page sends. */
 export type EngineRequest =
   /** start tfjs on wasm, the wasm files served from `wasmBase` (a URL ending in /) */
-  | { kind: 'init'; wasmBase: string }
-  | { [K in SessionKind]: { kind: K } & ArgsOf<K> }[SessionKind];
+  { kind: 'init'; wasmBase: string } | { [K in SessionKind]: { kind: K } & ArgsOf<K> }[SessionKind];
 
 /** The result type of each request kind. */
 export type EngineResults = { init: EngineReady } & { [K in SessionKind]: Awaited<ReturnType<Method<K>>> };

@@ -5,7 +5,10 @@ import { readFile } from 'node:fs/promises';
 
 /** An error caused by the user's input or options: printed without a stack trace. */
 export class UserError extends Error {
-  constructor(message: string, readonly exitCode = 1) {
+  constructor(
+    message: string,
+    readonly exitCode = 1,
+  ) {
     super(message);
     this.name = 'UserError';
   }

@@ -101,7 +101,10 @@ export class FsCheckpointStore<M extends CheckpointMeta = CheckpointMeta> implem
       throw err;
     }
     const summaries = new Set(names.filter((n) => n.endsWith('.json') && !n.startsWith('.')).map((n) => n.slice(0, -'.json'.length)));
-    const orphans = names.filter((n) => (n.startsWith('.') && n.includes('.tmp-')) || (n.endsWith('.safetensors') && !summaries.has(n.slice(0, -'.safetensors'.length))));
+    const orphans = names.filter(
+      (n) =>
+        (n.startsWith('.') && n.includes('.tmp-')) || (n.endsWith('.safetensors') && !summaries.has(n.slice(0, -'.safetensors'.length))),
+    );
     for (const n of orphans) await rm(join(this.folder, n), { force: true });
     return orphans;
   }

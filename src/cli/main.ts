@@ -16,9 +16,7 @@ for (const stream of [process.stdout, process.stderr]) {
 const program = new Command();
 program
   .name('spanwright')
-  .description(
-    'Adapt a small extractive question-answering reader to your own documents, on the CPU, offline.',
-  )
+  .description('Adapt a small extractive question-answering reader to your own documents, on the CPU, offline.')
   .option('--debug', 'print stack traces for internal errors')
   .hook('preAction', (cmd) => setDebug(Boolean(cmd.optsWithGlobals().debug)))
   .showHelpAfterError();

@@ -55,7 +55,9 @@ export async function loadRecords(path: string, log: (line: string) => void): Pr
   const result = loadDataset(await readBytes(path), path);
   const errors = result.problems.filter((p) => p.severity === 'error');
   if (errors.length > 0) {
-    log(`${path}: ${errors.length} record(s) with errors left out (run \`spanwright check ${path}\` for the full report); first: ${errors[0]!.message}`);
+    log(
+      `${path}: ${errors.length} record(s) with errors left out (run \`spanwright check ${path}\` for the full report); first: ${errors[0]!.message}`,
+    );
   }
   if (result.records.length === 0) throw new UserError(`${path}: no usable questions`);
   return result.records;

@@ -30,25 +30,32 @@ export function trainingProgress(label = 'training'): { onEvent: (e: LoopEvent) 
     switch (e.type) {
       case 'start':
         bar?.start(e.plan.totalUpdates, e.startUpdate, { loss: '–', tps: '–', etaText: '–' });
-        if (!tty) process.stderr.write(`${label}: ${e.plan.totalUpdates} updates (${e.plan.epochs} epochs × ${e.plan.updatesPerEpoch}), starting at ${e.startUpdate}\n`);
+        if (!tty)
+          process.stderr.write(
+            `${label}: ${e.plan.totalUpdates} updates (${e.plan.epochs} epochs × ${e.plan.updatesPerEpoch}), starting at ${e.startUpdate}\n`,
+          );
         break;
       case 'progress': {
         smoothed = smoothed === null ? e.loss : 0.9 * smoothed + 0.1 * e.loss;
         const payload = { loss: smoothed.toFixed(3), tps: Math.round(e.tokensPerSecond).toString(), etaText: formatEta(e.etaMs) };
         bar?.update(e.update, payload);
         if (!tty && (e.epoch !== lastEpoch || e.update === e.totalUpdates)) {
-          process.stderr.write(`${label}: update ${e.update}/${e.totalUpdates} epoch ${e.epoch + 1} loss ${payload.loss} ${payload.tps} tok/s ETA ${payload.etaText}\n`);
+          process.stderr.write(
+            `${label}: update ${e.update}/${e.totalUpdates} epoch ${e.epoch + 1} loss ${payload.loss} ${payload.tps} tok/s ETA ${payload.etaText}\n`,
+          );
         }
         lastEpoch = e.epoch;
         break;
       }
       case 'evaluated': {
         const m = e.metrics;
-        const line = `validation at update ${e.update}: EM ${m.validationEM?.toFixed(1)} F1 ${m.validationF1?.toFixed(1)}` +
+        const line =
+          `validation at update ${e.update}: EM ${m.validationEM?.toFixed(1)} F1 ${m.validationF1?.toFixed(1)}` +
           (m.tunedF1 !== undefined ? ` (tuned threshold: F1 ${m.tunedF1.toFixed(1)})` : '');
         if (bar) bar.stop();
         process.stderr.write(`${line}\n`);
-        if (bar && e.update < (bar.getTotal?.() ?? Infinity)) bar.start(bar.getTotal(), e.update, { loss: smoothed?.toFixed(3) ?? '–', tps: '–', etaText: '–' });
+        if (bar && e.update < (bar.getTotal?.() ?? Infinity))
+          bar.start(bar.getTotal(), e.update, { loss: smoothed?.toFixed(3) ?? '–', tps: '–', etaText: '–' });
         break;
       }
       case 'checkpoint':
@@ -61,7 +68,10 @@ export function trainingProgress(label = 'training'): { onEvent: (e: LoopEvent) 
 /** A bar for `total` items of some pass (evaluation windows, say). */
 export function countProgress(label: string): { update: (done: number, total: number) => void; stop: () => void } {
   if (process.stderr.isTTY !== true) return { update: () => undefined, stop: () => undefined };
-  const bar = new cliProgress.SingleBar({ format: `${label} [{bar}] {value}/{total}`, stream: process.stderr, hideCursor: true }, cliProgress.Presets.shades_classic);
+  const bar = new cliProgress.SingleBar(
+    { format: `${label} [{bar}] {value}/{total}`, stream: process.stderr, hideCursor: true },
+    cliProgress.Presets.shades_classic,
+  );
   let started = false;
   return {
     update: (done, total) => {

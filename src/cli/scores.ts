@@ -32,11 +32,13 @@ const cell = (v: number | null) => (v === null ? '–' : v.toFixed(1)).padStart(
 export function scoresTable(rows: ReadonlyArray<{ label: string; scores: SquadScores }>): string {
   const width = Math.max(12, ...rows.map((r) => r.label.length));
   const head = `${''.padEnd(width)}  ${'EM'.padStart(6)} ${'F1'.padStart(6)}   ${'ans EM'.padStart(6)} ${'ans F1'.padStart(6)}   ${'no-ans'.padStart(6)}`;
-  const lines = rows.map(({ label, scores: s }) =>
-    `${label.padEnd(width)}  ${cell(s.em)} ${cell(s.f1)}   ${cell(s.answerable.em)} ${cell(s.answerable.f1)}   ${cell(s.unanswerable.em)}`,
+  const lines = rows.map(
+    ({ label, scores: s }) =>
+      `${label.padEnd(width)}  ${cell(s.em)} ${cell(s.f1)}   ${cell(s.answerable.em)} ${cell(s.answerable.f1)}   ${cell(s.unanswerable.em)}`,
   );
   const total = rows[0]?.scores;
-  const foot = total ? `(${total.total} questions: ${total.answerable.total} answerable, ${total.unanswerable.total} unanswerable; no-ans = share of unanswerable questions answered with nothing, %)` : '';
+  const foot = total
+    ? `(${total.total} questions: ${total.answerable.total} answerable, ${total.unanswerable.total} unanswerable; no-ans = share of unanswerable questions answered with nothing, %)`
+    : '';
   return [head, ...lines, foot].join('\n');
 }
-

@@ -19,7 +19,8 @@ const REASONS: Record<string, string> = {
   EISDIR: 'a folder has that name',
 };
 
-const size = (n: number) => (n >= 1 << 20 ? `${(n / (1 << 20)).toFixed(1)} MiB` : n >= 1024 ? `${(n / 1024).toFixed(1)} KiB` : `${n} bytes`);
+const size = (n: number) =>
+  n >= 1 << 20 ? `${(n / (1 << 20)).toFixed(1)} MiB` : n >= 1024 ? `${(n / 1024).toFixed(1)} KiB` : `${n} bytes`;
 
 /** "cannot write FILE (12.3 MiB): the disk is full (ENOSPC; 1.2 MiB free)". */
 export async function writeErrorMessage(err: unknown, path: string, bytes: number): Promise<string> {

@@ -5,9 +5,7 @@
 // grammar of RFC 8259 (from memory) walks the text again to find where it goes wrong.
 import { lineColumn } from './text-position.js';
 
-export type JsonParseResult =
-  | { ok: true; value: unknown }
-  | { ok: false; message: string; offset: number; line: number; column: number };
+export type JsonParseResult = { ok: true; value: unknown } | { ok: false; message: string; offset: number; line: number; column: number };
 
 export function parseJson(text: string): JsonParseResult {
   try {
@@ -34,8 +32,7 @@ export function findJsonError(text: string): { offset: number; message: string }
   const fail = (message: string, at = i): never => {
     throw new JsonSyntaxError(at, message);
   };
-  const describe = (at: number): string =>
-    at >= text.length ? 'end of the text (is the file cut short?)' : `'${text[at]}'`;
+  const describe = (at: number): string => (at >= text.length ? 'end of the text (is the file cut short?)' : `'${text[at]}'`);
   const skipSpace = (): void => {
     while (i < text.length) {
       const c = text.charCodeAt(i);

@@ -13,12 +13,7 @@
 //   passage and the id does not depend on row order.
 
 /** `<title>/p<index>` (see above); `titleIsShared` adds the article index. */
-export function squadPassageId(
-  title: unknown,
-  articleIndex: number,
-  paragraphIndex: number,
-  titleIsShared: boolean,
-): string {
+export function squadPassageId(title: unknown, articleIndex: number, paragraphIndex: number, titleIsShared: boolean): string {
   const base = usableTitle(title) ?? `article${articleIndex}`;
   const article = usableTitle(title) !== null && titleIsShared ? `${base}~${articleIndex}` : base;
   return `${article}/p${paragraphIndex}`;

@@ -46,10 +46,7 @@ export type ProblemCode =
   | 'question-without-words'; // warning: no letter or digit, so the reader sees no question
 
 /** Problem kinds that are repairs: the record was changed and kept. */
-export const REPAIR_CODES: ReadonlySet<ProblemCode> = new Set<ProblemCode>([
-  'answer-repaired',
-  'line-breaks-normalised',
-]);
+export const REPAIR_CODES: ReadonlySet<ProblemCode> = new Set<ProblemCode>(['answer-repaired', 'line-breaks-normalised']);
 
 /** One fault found in a data file (contract in DEVELOPERS.md; `code` is an addition). */
 export interface Problem {
@@ -149,19 +146,17 @@ export function validateRecords(raw: RawRecord[], file: string, options: Validat
 
 /** Checks records made in memory (labelled in the page, or built by code). */
 export function validateQARecords(records: QARecord[], file: string, options: ValidateOptions = {}): ValidationResult {
-  const raw = records.map(
-    (r, index): RawRecord => ({
-      index,
-      where: '',
-      names: PLAIN_NAMES,
-      id: r.id,
-      passageId: r.passageId,
-      context: r.context,
-      question: r.question,
-      answers: r.answers.map((a) => ({ text: a.text, start: a.start })),
-      unanswerable: r.unanswerable,
-    }),
-  );
+  const raw = records.map((r, index): RawRecord => ({
+    index,
+    where: '',
+    names: PLAIN_NAMES,
+    id: r.id,
+    passageId: r.passageId,
+    context: r.context,
+    question: r.question,
+    answers: r.answers.map((a) => ({ text: a.text, start: a.start })),
+    unanswerable: r.unanswerable,
+  }));
   return validateRecords(raw, file, options);
 }
 
@@ -251,7 +246,12 @@ function checkRecord(r: RawRecord, file: string, problems: Problem[]): Checked {
   if (question !== null && question.includes('\r')) [hadCarriageReturn, question] = [true, normaliseLineBreaks(question)];
   // zero-width or punctuation-only text passes the emptiness check but tokenizes to nothing useful
   if (question !== null && question.trim() !== '' && !/[\p{L}\p{N}]/u.test(question)) {
-    report('warning', 'question-without-words', names.question, 'the question has no letter or digit (only spaces, punctuation or invisible characters), so the reader sees no question');
+    report(
+      'warning',
+      'question-without-words',
+      names.question,
+      'the question has no letter or digit (only spaces, punctuation or invisible characters), so the reader sees no question',
+    );
   }
   for (const a of answers) {
     if (a.text !== null && a.text.includes('\r')) [hadCarriageReturn, a.text] = [true, normaliseLineBreaks(a.text)];
@@ -320,12 +320,7 @@ function textField(v: unknown, field: string, what: string, report: Report): str
   return v;
 }
 
-function readAnswer(
-  a: unknown,
-  i: number,
-  names: FieldNames,
-  report: Report,
-): { text: string | null; start: number | null } {
+function readAnswer(a: unknown, i: number, names: FieldNames, report: Report): { text: string | null; start: number | null } {
   if (!isObject(a)) {
     report('error', 'wrong-type', `${names.answers}[${i}]`, `an answer must be an object with text and start, not ${describeValue(a)}`);
     return { text: null, start: null };
@@ -333,7 +328,8 @@ function readAnswer(
   let text: string | null = null;
   const t = a['text'];
   if (t === undefined || t === null) report('error', 'missing-field', names.answer(i, 'text'), 'the answer text is missing');
-  else if (typeof t !== 'string') report('error', 'wrong-type', names.answer(i, 'text'), `the answer text must be a string, not ${describeValue(t)}`);
+  else if (typeof t !== 'string')
+    report('error', 'wrong-type', names.answer(i, 'text'), `the answer text must be a string, not ${describeValue(t)}`);
   else if (t.trim() === '') report('error', 'empty-text', names.answer(i, 'text'), 'the answer text is empty');
   else text = t;
 

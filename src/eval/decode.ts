@@ -88,11 +88,12 @@ function checkWindow(w: DecodableWindow, l: WindowLogits): number {
   if (!Number.isInteger(maxLen) || maxLen < 1) {
     throw new Error(`record "${w.recordId}" window ${w.window}: offsets length ${w.offsets.length} is not 2 × maxLen`);
   }
-  for (const [name, logits] of [['startLogits', l.startLogits], ['endLogits', l.endLogits]] as const) {
+  for (const [name, logits] of [
+    ['startLogits', l.startLogits],
+    ['endLogits', l.endLogits],
+  ] as const) {
     if (logits.length !== maxLen) {
-      throw new Error(
-        `record "${w.recordId}" window ${w.window}: ${name} has ${logits.length} values, expected ${maxLen}`,
-      );
+      throw new Error(`record "${w.recordId}" window ${w.window}: ${name} has ${logits.length} values, expected ${maxLen}`);
     }
   }
   return maxLen;

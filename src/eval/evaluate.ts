@@ -61,9 +61,21 @@ export function readerLogits(
     };
     const [start, end] = tf.tidy(() => {
       const inputs = {
-        inputIds: tf.tensor2d(stack((w) => w.inputIds), [idx.length, T], 'int32'), // [B, T]
-        tokenTypeIds: tf.tensor2d(stack((w) => w.tokenTypeIds), [idx.length, T], 'int32'),
-        attentionMask: tf.tensor2d(stack((w) => w.attentionMask), [idx.length, T], 'int32'),
+        inputIds: tf.tensor2d(
+          stack((w) => w.inputIds),
+          [idx.length, T],
+          'int32',
+        ), // [B, T]
+        tokenTypeIds: tf.tensor2d(
+          stack((w) => w.tokenTypeIds),
+          [idx.length, T],
+          'int32',
+        ),
+        attentionMask: tf.tensor2d(
+          stack((w) => w.attentionMask),
+          [idx.length, T],
+          'int32',
+        ),
       };
       const logits = spanLogits(params, config, inputs, { training: false }); // [B, T] each
       return [logits.start.dataSync() as Float32Array, logits.end.dataSync() as Float32Array];
@@ -97,7 +109,11 @@ export interface PredictOptions {
 }
 
 /** Answers for records: windows, logits, decoding. */
-export function predictRecords(reader: ReaderParts, records: readonly QARecord[], options: PredictOptions = {}): Decoded & { windows: number } {
+export function predictRecords(
+  reader: ReaderParts,
+  records: readonly QARecord[],
+  options: PredictOptions = {},
+): Decoded & { windows: number } {
   const windows = options.windows ?? readerWindows(reader, records, options.features);
   const logits = readerLogits(reader.params, reader.config, windows, { batchSize: options.batchSize, onProgress: options.onProgress });
   return { ...predictAll(records, windows, logits, options.decode), windows: windows.length };
@@ -110,12 +126,20 @@ export function buildWindows(tokenizer: FeatureTokenizer, records: readonly QARe
 }
 
 /** Every window of every record as this reader reads them: with its question-match token types when its config has them. */
-export function readerWindows(reader: Pick<ReaderParts, 'config' | 'tokenizer'>, records: readonly QARecord[], options: Partial<FeatureOptions> = {}): Feature[] {
+export function readerWindows(
+  reader: Pick<ReaderParts, 'config' | 'tokenizer'>,
+  records: readonly QARecord[],
+  options: Partial<FeatureOptions> = {},
+): Feature[] {
   return buildWindows(reader.tokenizer, records, { ...options, questionMatch: reader.config.questionMatch });
 }
 
 /** The SQuAD 2.0 report of the reader on labelled records, with the tuned threshold. */
-export function evaluateRecords(reader: ReaderParts, records: readonly QARecord[], options: PredictOptions = {}): { report: EvaluationReport; decoded: Decoded } {
+export function evaluateRecords(
+  reader: ReaderParts,
+  records: readonly QARecord[],
+  options: PredictOptions = {},
+): { report: EvaluationReport; decoded: Decoded } {
   const decoded = predictRecords(reader, records, options);
   const report = buildReport(questionsFromRecords(records), decoded.predictions, {
     bestSpans: decoded.bestSpans,

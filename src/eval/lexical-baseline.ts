@@ -103,7 +103,7 @@ function trimSpan(context: string, start: number, end: number): [number, number]
   while (last >= first && STOPWORDS.has(inner[last]!.text)) last--;
   if (first > last) return [start, start];
   let s = inner[first]!.start;
-  while (s > start && /["'(\[]/u.test(context[s - 1]!)) s--; // an opening mark of the first word
+  while (s > start && /["'([]/u.test(context[s - 1]!)) s--; // an opening mark of the first word
   let e: number;
   if (last === inner.length - 1) {
     e = end; // nothing dropped at the end but punctuation and space
@@ -185,7 +185,10 @@ export function lexicalPredictions(
  * `tuneOn` (training questions) by the metric's best-threshold search, so the cut is never
  * tuned on the questions it is scored on.
  */
-export function lexicalBaselineScores(tuneOn: readonly QARecord[], heldOut: readonly QARecord[]): { scores: SquadScores; minCoverage: number } {
+export function lexicalBaselineScores(
+  tuneOn: readonly QARecord[],
+  heldOut: readonly QARecord[],
+): { scores: SquadScores; minCoverage: number } {
   const neutral = DEFAULT_MIN_COVERAGE; // lexicalPredictions' score difference is minCoverage − coverage
   const onTrain = lexicalPredictions(tuneOn, { minCoverage: neutral });
   const search = findBestThresholds(goldFromRecords(tuneOn), onTrain.bestSpans, onTrain.scoreDiffs);

@@ -25,7 +25,9 @@ export function readerWarnings(after: SquadScores, before: SquadScores | null = 
     out.push(`warning: fine-tuning did not raise F1 (base ${before.f1.toFixed(1)}, fine-tuned ${after.f1.toFixed(1)}).`);
   }
   if (baseline !== null && baseline.f1 !== null && after.f1 !== null && after.f1 <= baseline.f1) {
-    out.push(`warning: the word-overlap baseline scores as high or higher (F1 ${baseline.f1.toFixed(1)} against the reader's ${after.f1.toFixed(1)}): the reader adds nothing over matching the question's words.`);
+    out.push(
+      `warning: the word-overlap baseline scores as high or higher (F1 ${baseline.f1.toFixed(1)} against the reader's ${after.f1.toFixed(1)}): the reader adds nothing over matching the question's words.`,
+    );
   }
   return out;
 }

@@ -132,11 +132,7 @@ function reportQuestions(gold: readonly ReportQuestion[], predictions: Predictio
  * `predictAll` returns them) it also searches the no-answer threshold and scores the
  * best spans at the F1-best threshold.
  */
-export function buildReport(
-  gold: readonly ReportQuestion[],
-  predictions: Predictions,
-  options: ReportOptions = {},
-): EvaluationReport {
+export function buildReport(gold: readonly ReportQuestion[], predictions: Predictions, options: ReportOptions = {}): EvaluationReport {
   const questions = reportQuestions(gold, predictions, options.scoreDiffs);
   const report: EvaluationReport = {
     questions,

@@ -49,6 +49,7 @@ const ARTICLES = /(?<![\p{L}\p{N}_])(?:a|an|the)(?![\p{L}\p{N}_])/gu;
  * \u1680, \u2000–\u200a, \u2028, \u2029, \u202f, \u205f, \u3000. JavaScript's `\s`
  * differs (it includes \ufeff and lacks \x1c–\x1f and \x85).
  */
+// eslint-disable-next-line no-control-regex -- the control characters are the point: Python's str.split() splits on them
 const PYTHON_WHITESPACE = /[\t\n\v\f\r\x1c-\x1f \x85\xa0\u1680\u2000-\u200a\u2028\u2029\u202f\u205f\u3000]+/u;
 
 function removePunctuation(text: string): string {
@@ -220,11 +221,7 @@ export function evaluate(gold: readonly GoldQuestion[], predictions: Predictions
  * rule as the script's `na_probs[qid] > na_prob_thresh` and as the decoder's.
  * A question with no score difference keeps its span.
  */
-export function applyNoAnswerThreshold(
-  bestSpans: Predictions,
-  scoreDiffs: ScoreDiffs,
-  threshold: number,
-): Record<string, string> {
+export function applyNoAnswerThreshold(bestSpans: Predictions, scoreDiffs: ScoreDiffs, threshold: number): Record<string, string> {
   const out: Record<string, string> = Object.create(null); // ids such as "__proto__" stay plain keys
   for (const [id, text] of Object.entries(bestSpans)) {
     const diff = Object.hasOwn(scoreDiffs, id) ? scoreDiffs[id] : undefined;
@@ -257,11 +254,7 @@ export interface ThresholdSearch {
  * Percent of the number of gold questions. Every question with a non-empty best span
  * needs a score difference; a missing one is an error.
  */
-export function findBestThresholds(
-  gold: readonly GoldQuestion[],
-  bestSpans: Predictions,
-  scoreDiffs: ScoreDiffs,
-): ThresholdSearch {
+export function findBestThresholds(gold: readonly GoldQuestion[], bestSpans: Predictions, scoreDiffs: ScoreDiffs): ThresholdSearch {
   const total = gold.length;
   if (total === 0) return { bestEm: 0, bestEmThreshold: 0, bestF1: 0, bestF1Threshold: 0 };
 

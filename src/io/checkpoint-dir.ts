@@ -62,7 +62,9 @@ export function readCheckpointDir(files: CheckpointDirFiles): CheckpointDirConte
     if (m) layers = Math.max(layers, Number(m[1]) + 1);
   }
   if (layers > 0 && layers !== config.numLayers) {
-    throw new Error(`${configName}: field num_hidden_layers is ${config.numLayers}, but ${weightsName} holds ${layers} encoder layer(s); is this the config of another model?`);
+    throw new Error(
+      `${configName}: field num_hidden_layers is ${config.numLayers}, but ${weightsName} holds ${layers} encoder layer(s); is this the config of another model?`,
+    );
   }
 
   // 3.
@@ -78,10 +80,13 @@ export function readCheckpointDir(files: CheckpointDirFiles): CheckpointDirConte
     );
   }
   if (tokenizer.vocabSize < config.vocabSize) {
-    notices.push(`${vocabName} has ${tokenizer.vocabSize} tokens, fewer than the ${config.vocabSize} rows of the embedding table; the extra rows are never used`);
+    notices.push(
+      `${vocabName} has ${tokenizer.vocabSize} tokens, fewer than the ${config.vocabSize} rows of the embedding table; the extra rows are never used`,
+    );
   }
   const halves = [...dtypes.values()].filter((d) => d === 'F16' || d === 'BF16');
-  if (halves.length > 0) notices.push(`${weightsName}: ${halves.length} tensor(s) stored as ${[...new Set(halves)].join('/')} were widened to float32`);
+  if (halves.length > 0)
+    notices.push(`${weightsName}: ${halves.length} tensor(s) stored as ${[...new Set(halves)].join('/')} were widened to float32`);
 
   return {
     config,
@@ -106,7 +111,9 @@ export function loadCheckpointDir(
     const bad = t.data.findIndex((v) => !Number.isFinite(v));
     if (bad >= 0) {
       const count = t.data.reduce((n, v) => (Number.isFinite(v) ? n : n + 1), 0);
-      throw new Error(`${files.names?.weights ?? 'model.safetensors'}: tensor "${name}" holds ${count} value(s) that are NaN or infinite (the first at index ${bad}); the weights are damaged or were saved from a run that diverged`);
+      throw new Error(
+        `${files.names?.weights ?? 'model.safetensors'}: tensor "${name}" holds ${count} value(s) that are NaN or infinite (the first at index ${bad}); the weights are damaged or were saved from a run that diverged`,
+      );
     }
   }
   const { params, report } = ReaderParams.fromNamed(contents.config, contents.tensors, {

@@ -141,7 +141,11 @@ export async function encodeCheckpoint<M extends CheckpointMeta>(
 }
 
 /** Blob → checkpoint, after checking its SHA-256 against the one stored at save time. */
-export async function decodeCheckpoint<M extends CheckpointMeta>(id: string, blob: Uint8Array, expectedSha256: string): Promise<Checkpoint<M>> {
+export async function decodeCheckpoint<M extends CheckpointMeta>(
+  id: string,
+  blob: Uint8Array,
+  expectedSha256: string,
+): Promise<Checkpoint<M>> {
   const actual = await sha256Hex(blob);
   if (actual !== expectedSha256) {
     throw new CheckpointError(
@@ -183,7 +187,8 @@ function checkMeta(id: string, meta: CheckpointMeta): void {
   if (meta.runConfig === null || typeof meta.runConfig !== 'object') fail('runConfig', 'must be an object');
   if (meta.metrics === null || typeof meta.metrics !== 'object') fail('metrics', 'must be an object');
   for (const [k, v] of Object.entries(meta.metrics)) {
-    if (v !== undefined && (typeof v !== 'number' || !Number.isFinite(v))) fail(`metrics.${k}`, `must be a finite number, got ${JSON.stringify(v)}`);
+    if (v !== undefined && (typeof v !== 'number' || !Number.isFinite(v)))
+      fail(`metrics.${k}`, `must be a finite number, got ${JSON.stringify(v)}`);
   }
 }
 

@@ -74,7 +74,10 @@ export function exportModel(req: ExportRequest): { files: ExportFile[]; report: 
   const encoder = new TextEncoder();
   const files: ExportFile[] = [];
   files.push({ name: 'config.json', bytes: encoder.encode(`${JSON.stringify(configToHf(req.config), null, 2)}\n`) });
-  files.push({ name: 'model.safetensors', bytes: namedToSafetensors(weights, { dtype: req.fp16 ? 'F16' : 'F32', metadata: { format: 'pt' } }) });
+  files.push({
+    name: 'model.safetensors',
+    bytes: namedToSafetensors(weights, { dtype: req.fp16 ? 'F16' : 'F32', metadata: { format: 'pt' } }),
+  });
   files.push({ name: req.vocab.file, bytes: encoder.encode(req.vocab.text) });
 
   const quantized = req.int8 === true ? quantizeModel(weights) : req.int8 ? req.int8 : null;
@@ -90,7 +93,8 @@ export function exportModel(req: ExportRequest): { files: ExportFile[]; report: 
     description: f.name === 'model.safetensors' ? `all weights, ${req.fp16 ? 'float16' : 'float32'}` : (DESCRIPTIONS[f.name] ?? ''),
   }));
   const notes = [...(req.card.notes ?? [])];
-  if (req.fp16) notes.push('model.safetensors holds float16 weights (IEEE 754 binary16, rounded to nearest); the ONNX graphs keep float32.');
+  if (req.fp16)
+    notes.push('model.safetensors holds float16 weights (IEEE 754 binary16, rounded to nearest); the ONNX graphs keep float32.');
   const card: ModelCardInfo = {
     ...req.card,
     config: req.config,

@@ -50,7 +50,14 @@ export function measureInt8Drift(
   for (let s = 0; s < count; s++) {
     const inputIds = Int32Array.from({ length }, () => Math.floor(random() * config.vocabSize));
     const tokenTypeIds = Int32Array.from({ length }, (_, t) => (t < length / 3 ? 0 : 1));
-    windows.push({ recordId: `probe${s}`, window: 0, offsets: new Int32Array(2 * length).fill(-1), inputIds, tokenTypeIds, attentionMask: new Int32Array(length).fill(1) });
+    windows.push({
+      recordId: `probe${s}`,
+      window: 0,
+      offsets: new Int32Array(2 * length).fill(-1),
+      inputIds,
+      tokenTypeIds,
+      attentionMask: new Int32Array(length).fill(1),
+    });
   }
   const fp32 = withModel(config, named, (p) => readerLogits(p, config, windows));
   const int8 = withModel(config, dequantizeModel(quantized), (p) => readerLogits(p, config, windows));
@@ -61,7 +68,10 @@ export function measureInt8Drift(
   for (let s = 0; s < count; s++) {
     const a = fp32[s]!;
     const b = int8[s]!;
-    for (const [x, y] of [[a.startLogits, b.startLogits], [a.endLogits, b.endLogits]] as const) {
+    for (const [x, y] of [
+      [a.startLogits, b.startLogits],
+      [a.endLogits, b.endLogits],
+    ] as const) {
       for (let t = 0; t < length; t++) {
         maxAbs = Math.max(maxAbs, Math.abs(x[t]! - y[t]!));
         lo = Math.min(lo, x[t]!);

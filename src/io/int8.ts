@@ -96,7 +96,8 @@ export function quantizeModel(named: NamedTensors): QuantizedModel {
       result.float.set(name, t);
       continue;
     }
-    if (named.has(name + SCALE_SUFFIX)) throw new Error(`quantizeModel: "${name}${SCALE_SUFFIX}" would collide with the scales of "${name}"`);
+    if (named.has(name + SCALE_SUFFIX))
+      throw new Error(`quantizeModel: "${name}${SCALE_SUFFIX}" would collide with the scales of "${name}"`);
     const q = quantizeInt8(t);
     const back = dequantizeInt8(q);
     let maxAbsError = 0;
@@ -147,7 +148,9 @@ export function readInt8Safetensors(bytes: Uint8Array, file = 'model.int8.safete
       const scale = tensors.get(name + SCALE_SUFFIX);
       if (!scale || scale.dtype !== 'F32') throw new Error(`${file}: tensor "${name}" is I8 but "${name}${SCALE_SUFFIX}" (F32) is missing`);
       if (t.shape.length !== 2 || scale.shape.length !== 1 || scale.shape[0] !== t.shape[0]) {
-        throw new Error(`${file}: tensor "${name}${SCALE_SUFFIX}" has shape [${scale.shape.join(', ')}], expected [${t.shape[0]}] (one scale per row)`);
+        throw new Error(
+          `${file}: tensor "${name}${SCALE_SUFFIX}" has shape [${scale.shape.join(', ')}], expected [${t.shape[0]}] (one scale per row)`,
+        );
       }
       model.int8.set(name, { shape: t.shape, data: t.data as Int8Array, scale: scale.data as Float32Array });
       model.order.push(name);

@@ -77,7 +77,10 @@ export function renderModelCard(info: ModelCardInfo): string {
   const out: string[] = [];
   out.push(`# ${info.title ?? 'Question-answering reader'}`, '');
   out.push(`> **Caution.** ${CAUTION}`, '');
-  out.push('An extractive reader: given a question and a passage it marks the span of the passage that answers, or says there is none. A BERT-family encoder (post-LayerNorm) with a start/end span head.', '');
+  out.push(
+    'An extractive reader: given a question and a passage it marks the span of the passage that answers, or says there is none. A BERT-family encoder (post-LayerNorm) with a start/end span head.',
+    '',
+  );
 
   out.push('## Provenance', '');
   out.push(`- Base model: ${info.baseModel}`);
@@ -98,7 +101,10 @@ export function renderModelCard(info: ModelCardInfo): string {
   out.push('## Architecture', '');
   out.push(`| layers | hidden | heads | feed-forward | max positions | vocabulary | activation | LayerNorm ε |`);
   out.push(`|---|---|---|---|---|---|---|---|`);
-  out.push(`| ${c.numLayers} | ${c.hiddenSize} | ${c.numHeads} | ${c.intermediateSize} | ${c.maxPositions} | ${c.vocabSize} | ${c.activation === 'gelu' ? 'GELU (erf)' : 'x·σ(1.702x)'} | ${c.layerNormEps} |`, '');
+  out.push(
+    `| ${c.numLayers} | ${c.hiddenSize} | ${c.numHeads} | ${c.intermediateSize} | ${c.maxPositions} | ${c.vocabSize} | ${c.activation === 'gelu' ? 'GELU (erf)' : 'x·σ(1.702x)'} | ${c.layerNormEps} |`,
+    '',
+  );
 
   if (info.settings) {
     out.push('## Settings', '', '```json', JSON.stringify(info.settings, null, 2), '```', '');
@@ -112,7 +118,8 @@ export function renderModelCard(info: ModelCardInfo): string {
     if (m.withoutThreshold) out.push(...scoreRows('no-answer threshold 0', m.withoutThreshold));
     if (m.withThreshold) out.push(...scoreRows(`best threshold ${m.withThreshold.threshold.toFixed(3)}`, m.withThreshold));
     out.push('');
-    if (m.withThreshold) out.push('The best threshold was chosen on the same validation questions, so its scores are optimistic for new questions.', '');
+    if (m.withThreshold)
+      out.push('The best threshold was chosen on the same validation questions, so its scores are optimistic for new questions.', '');
     const scored = m.withThreshold ?? m.withoutThreshold;
     if (scored) for (const w of readerWarnings(scored)) out.push(`**${w.replace(/^warning: /, 'Warning: ')}**`, '');
   } else {
@@ -128,12 +135,21 @@ export function renderModelCard(info: ModelCardInfo): string {
         'dequantize with `w = q · scale[row]`. Biases and LayerNorm stay float32.',
       '',
     );
-    const worst = info.int8.tensors.reduce((a, t) => (t.maxAbsError > a.maxAbsError ? t : a), info.int8.tensors[0] ?? { name: '–', maxAbsError: 0, bound: 0, maxAbs: 0, shape: [] });
-    out.push(`Largest weight error: ${worst.maxAbsError.toExponential(3)} in \`${worst.name}\` (bound scale/2 = ${worst.bound.toExponential(3)}).`, '');
+    const worst = info.int8.tensors.reduce(
+      (a, t) => (t.maxAbsError > a.maxAbsError ? t : a),
+      info.int8.tensors[0] ?? { name: '–', maxAbsError: 0, bound: 0, maxAbs: 0, shape: [] },
+    );
+    out.push(
+      `Largest weight error: ${worst.maxAbsError.toExponential(3)} in \`${worst.name}\` (bound scale/2 = ${worst.bound.toExponential(3)}).`,
+      '',
+    );
     if (info.int8.drift) {
       const d = info.int8.drift;
-      out.push(`Logit drift on ${d.probe}: max |Δ| = ${d.maxAbsLogitDiff.toExponential(3)} against a logit spread of ${d.logitSpread.toFixed(3)}.`);
-      if (d.argmaxChanges) out.push(`The most likely start or end position changed in ${d.argmaxChanges.changed} of ${d.argmaxChanges.total} sequences.`);
+      out.push(
+        `Logit drift on ${d.probe}: max |Δ| = ${d.maxAbsLogitDiff.toExponential(3)} against a logit spread of ${d.logitSpread.toFixed(3)}.`,
+      );
+      if (d.argmaxChanges)
+        out.push(`The most likely start or end position changed in ${d.argmaxChanges.changed} of ${d.argmaxChanges.total} sequences.`);
       out.push('');
     }
     if (info.int8.accuracy) {
@@ -148,8 +164,16 @@ export function renderModelCard(info: ModelCardInfo): string {
         'the session option `session.qdq_matmulnbits_accuracy_level = "0"` keeps the products in float.',
       '',
     );
-    out.push('<details><summary>Per-tensor error</summary>', '', '| tensor | shape | largest weight | max error | bound |', '|---|---|---|---|---|');
-    for (const t of info.int8.tensors) out.push(`| \`${t.name}\` | ${t.shape.join('×')} | ${t.maxAbs.toExponential(3)} | ${t.maxAbsError.toExponential(3)} | ${t.bound.toExponential(3)} |`);
+    out.push(
+      '<details><summary>Per-tensor error</summary>',
+      '',
+      '| tensor | shape | largest weight | max error | bound |',
+      '|---|---|---|---|---|',
+    );
+    for (const t of info.int8.tensors)
+      out.push(
+        `| \`${t.name}\` | ${t.shape.join('×')} | ${t.maxAbs.toExponential(3)} | ${t.maxAbsError.toExponential(3)} | ${t.bound.toExponential(3)} |`,
+      );
     out.push('', '</details>', '');
   }
 
@@ -169,8 +193,12 @@ export function renderModelCard(info: ModelCardInfo): string {
   }
 
   out.push('## Limits', '');
-  out.push('- The model can only copy a span from the passage it is given; it cannot answer from knowledge of its own, combine passages, or say where the passage is wrong.');
-  out.push('- Its scores were measured on the validation questions above; questions unlike them (other wording, other subjects, longer passages) can score much worse.');
+  out.push(
+    '- The model can only copy a span from the passage it is given; it cannot answer from knowledge of its own, combine passages, or say where the passage is wrong.',
+  );
+  out.push(
+    '- Its scores were measured on the validation questions above; questions unlike them (other wording, other subjects, longer passages) can score much worse.',
+  );
   out.push(`- ${CAUTION}`, '');
   return out.join('\n');
 }

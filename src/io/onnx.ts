@@ -78,7 +78,14 @@ class GraphBuilder {
   }
 
   /** Adds a node; returns its output names (`outputs` of them, named after `scope`). */
-  op(opType: string, inputs: string[], scope: string, attrs: Record<string, number | number[]> = {}, outputs = 1, floatAttrs: string[] = []): string[] {
+  op(
+    opType: string,
+    inputs: string[],
+    scope: string,
+    attrs: Record<string, number | number[]> = {},
+    outputs = 1,
+    floatAttrs: string[] = [],
+  ): string[] {
     const id = this.counter++;
     const out = outputs === 1 ? [`${scope}/${opType}_${id}`] : Array.from({ length: outputs }, (_, k) => `${scope}/${opType}_${id}:${k}`);
     const attribute: AttributeProto[] = Object.entries(attrs).map(([name, v]) => {
@@ -112,8 +119,7 @@ export function exportOnnx(config: OnnxReaderShape, named: NamedTensors, options
   const { hiddenSize: H, numHeads: N, numLayers } = config;
   if (H % N !== 0) throw new Error(`exportOnnx: hiddenSize ${H} is not a multiple of numHeads ${N}`);
   const D = H / N;
-  const quantized: QuantizedModel | null =
-    options.int8 === true ? quantizeModel(named) : options.int8 ? options.int8 : null;
+  const quantized: QuantizedModel | null = options.int8 === true ? quantizeModel(named) : options.int8 ? options.int8 : null;
   const g = new GraphBuilder();
 
   const get = (name: string): NamedTensor => {
@@ -157,7 +163,13 @@ export function exportOnnx(config: OnnxReaderShape, named: NamedTensors, options
   const layerNorm = (name: string, x: string): string => {
     const w = get(`${name}.weight`);
     const b = get(`${name}.bias`);
-    return g.one('LayerNormalization', [x, g.float(`${name}.weight`, w.shape, w.data), g.float(`${name}.bias`, b.shape, b.data)], name, { axis: -1, epsilon: config.layerNormEps }, ['epsilon']);
+    return g.one(
+      'LayerNormalization',
+      [x, g.float(`${name}.weight`, w.shape, w.data), g.float(`${name}.bias`, b.shape, b.data)],
+      name,
+      { axis: -1, epsilon: config.layerNormEps },
+      ['epsilon'],
+    );
   };
 
   // shared constants

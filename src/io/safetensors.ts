@@ -113,11 +113,7 @@ export function readSafetensorsHeader(bytes: Uint8Array, file = 'model.safetenso
   }
   const headerBytes = Number(n64);
   if (headerBytes > fileSize - 8 || headerBytes > bytes.length - 8) {
-    fail(
-      `header length ${headerBytes} is more than the ${fileSize - 8} bytes after it (is the file cut short?)`,
-      null,
-      'header length',
-    );
+    fail(`header length ${headerBytes} is more than the ${fileSize - 8} bytes after it (is the file cut short?)`, null, 'header length');
   }
   if (headerBytes < 2) fail(`header length ${headerBytes} is too small for a JSON object`, null, 'header length');
 
@@ -132,7 +128,8 @@ export function readSafetensorsHeader(bytes: Uint8Array, file = 'model.safetenso
   // the format nests three levels at most (header → tensor entry → shape array); deeper
   // text is no safetensors header, and refusing it keeps the key walker below shallow
   const depth = nestingDepth(text);
-  if (depth > MAX_HEADER_DEPTH) fail(`the header nests ${depth} levels deep; a safetensors header has at most ${MAX_HEADER_DEPTH}`, null, 'header');
+  if (depth > MAX_HEADER_DEPTH)
+    fail(`the header nests ${depth} levels deep; a safetensors header has at most ${MAX_HEADER_DEPTH}`, null, 'header');
   let parsed: unknown;
   try {
     parsed = JSON.parse(text);
@@ -205,11 +202,7 @@ export function readSafetensorsHeader(bytes: Uint8Array, file = 'model.safetenso
     }
     const width = DTYPE_BYTES[dtype as SafetensorsDtype];
     if (e - b !== count * width) {
-      fail(
-        `holds ${e - b} bytes, but shape [${(shape as number[]).join(', ')}] of ${dtype} needs ${count * width}`,
-        name,
-        'data_offsets',
-      );
+      fail(`holds ${e - b} bytes, but shape [${(shape as number[]).join(', ')}] of ${dtype} needs ${count * width}`, name, 'data_offsets');
     }
     entries.push({ name, dtype: dtype as SafetensorsDtype, shape: [...(shape as number[])], begin: b, end: e });
   }
@@ -223,12 +216,20 @@ export function readSafetensorsHeader(bytes: Uint8Array, file = 'model.safetenso
       fail(`bytes ${entry.begin}..${entry.end} overlap tensor "${other?.name ?? '?'}"`, entry.name, 'data_offsets');
     }
     if (entry.begin > covered) {
-      fail(`bytes ${covered}..${entry.begin} of the data section belong to no tensor (the format allows no holes)`, entry.name, 'data_offsets');
+      fail(
+        `bytes ${covered}..${entry.begin} of the data section belong to no tensor (the format allows no holes)`,
+        entry.name,
+        'data_offsets',
+      );
     }
     covered = entry.end;
   }
   if (covered !== dataBytes) {
-    fail(`the last ${dataBytes - covered} bytes of the data section belong to no tensor (the format allows no holes)`, null, 'data_offsets');
+    fail(
+      `the last ${dataBytes - covered} bytes of the data section belong to no tensor (the format allows no holes)`,
+      null,
+      'data_offsets',
+    );
   }
 
   return { entries, metadata, headerBytes, dataStart };
@@ -416,10 +417,7 @@ export function findDuplicateKey(text: string): { key: string; path: string } | 
  * Serialises tensors in the given order (offsets ascending, so the section has no holes),
  * the header padded with spaces so the data section starts on an 8-byte boundary.
  */
-export function writeSafetensors(
-  tensors: Iterable<[string, WritableTensor]>,
-  metadata: Record<string, string> = {},
-): Uint8Array {
+export function writeSafetensors(tensors: Iterable<[string, WritableTensor]>, metadata: Record<string, string> = {}): Uint8Array {
   const header: Record<string, unknown> = {};
   if (Object.keys(metadata).length > 0) header[METADATA_KEY] = { ...metadata };
   const parts: Uint8Array[] = [];

@@ -36,7 +36,11 @@ export interface AdamWScalars {
 
 /** [p, m, v] after one update; the inputs are left as they are. */
 export function adamwUpdate(p: tf.Tensor, g: tf.Tensor, m: tf.Tensor, v: tf.Tensor, s: AdamWScalars): [tf.Tensor, tf.Tensor, tf.Tensor] {
-  for (const [name, t] of [['gradient', g], ['m', m], ['v', v]] as const) {
+  for (const [name, t] of [
+    ['gradient', g],
+    ['m', m],
+    ['v', v],
+  ] as const) {
     if (t.size !== p.size) throw new Error(`adamwUpdate: ${name} has shape [${t.shape}], the parameter [${p.shape}]`);
   }
   if (!hasKernel(ADAMW_UPDATE)) return composedUpdate(p, g, m, v, s);
@@ -73,10 +77,25 @@ function adamwKernel({ inputs: { p, g, m, v }, backend, attrs: s }: AdamWArgs): 
   const f = Math.fround;
   const { exports } = fastModuleFor(backend);
   exports.adamw_f32(
-    heapOffset(backend, p), heapOffset(backend, g), heapOffset(backend, m), heapOffset(backend, v),
-    heapOffset(backend, outs[0]), heapOffset(backend, outs[1]), heapOffset(backend, outs[2]), n,
-    f(s.gradScale), s.gradScale === 1 ? 0 : 1, f(s.decayFactor ?? 1), s.decayFactor === null ? 0 : 1,
-    f(s.beta1), f(1 - s.beta1), f(s.beta2), f(1 - s.beta2), f(-s.stepSize), f(s.correction2Sqrt), f(s.epsilon),
+    heapOffset(backend, p),
+    heapOffset(backend, g),
+    heapOffset(backend, m),
+    heapOffset(backend, v),
+    heapOffset(backend, outs[0]),
+    heapOffset(backend, outs[1]),
+    heapOffset(backend, outs[2]),
+    n,
+    f(s.gradScale),
+    s.gradScale === 1 ? 0 : 1,
+    f(s.decayFactor ?? 1),
+    s.decayFactor === null ? 0 : 1,
+    f(s.beta1),
+    f(1 - s.beta1),
+    f(s.beta2),
+    f(1 - s.beta2),
+    f(-s.stepSize),
+    f(s.correction2Sqrt),
+    f(s.epsilon),
   );
   return outs;
 }

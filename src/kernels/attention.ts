@@ -49,7 +49,11 @@ interface AttentionAttrs {
 export function attention(q: tf.Tensor2D, k: tf.Tensor2D, v: tf.Tensor2D, keyBias: tf.Tensor2D, opts: AttentionOptions): tf.Tensor2D {
   const [B, T] = keyBias.shape;
   const H = q.shape[1];
-  for (const [name, t] of [['q', q], ['k', k], ['v', v]] as const) {
+  for (const [name, t] of [
+    ['q', q],
+    ['k', k],
+    ['v', v],
+  ] as const) {
     if (t.rank !== 2 || t.shape[0] !== B * T || t.shape[1] !== H) {
       throw new Error(`attention: ${name} has shape [${t.shape}], expected [${B * T}, ${H}] (B·T from keyBias [${B}, ${T}])`);
     }
@@ -146,10 +150,23 @@ function fusedAttentionForward({ inputs, backend, attrs }: ForwardArgs): tf.Tens
   const scratch = scratchPlanes(backend, T);
   try {
     exports.attention_forward(
-      heapOffset(backend, q), heapOffset(backend, k), heapOffset(backend, v), heapOffset(backend, keyBias),
-      heapOffset(backend, context), probs ? heapOffset(backend, probs) : 0, scratch,
-      B, T, N, D, 1 / Math.sqrt(D),
-      attrs.dropoutRate > 0 ? 1 : 0, mask.mix | 0, mask.threshold | 0, mask.scale, gemmWorkspace,
+      heapOffset(backend, q),
+      heapOffset(backend, k),
+      heapOffset(backend, v),
+      heapOffset(backend, keyBias),
+      heapOffset(backend, context),
+      probs ? heapOffset(backend, probs) : 0,
+      scratch,
+      B,
+      T,
+      N,
+      D,
+      1 / Math.sqrt(D),
+      attrs.dropoutRate > 0 ? 1 : 0,
+      mask.mix | 0,
+      mask.threshold | 0,
+      mask.scale,
+      gemmWorkspace,
     );
   } finally {
     backend.wasm._free(scratch);
@@ -173,10 +190,25 @@ function fusedAttentionBackward({ inputs, backend, attrs }: BackwardArgs): tf.Te
   const scratch = scratchPlanes(backend, T);
   try {
     exports.attention_backward(
-      heapOffset(backend, q), heapOffset(backend, k), heapOffset(backend, v), heapOffset(backend, probs),
-      heapOffset(backend, dy), heapOffset(backend, dq), heapOffset(backend, dk), heapOffset(backend, dv), scratch,
-      B, T, N, D, 1 / Math.sqrt(D),
-      attrs.dropoutRate > 0 ? 1 : 0, mask.mix | 0, mask.threshold | 0, mask.scale, gemmWorkspace,
+      heapOffset(backend, q),
+      heapOffset(backend, k),
+      heapOffset(backend, v),
+      heapOffset(backend, probs),
+      heapOffset(backend, dy),
+      heapOffset(backend, dq),
+      heapOffset(backend, dk),
+      heapOffset(backend, dv),
+      scratch,
+      B,
+      T,
+      N,
+      D,
+      1 / Math.sqrt(D),
+      attrs.dropoutRate > 0 ? 1 : 0,
+      mask.mix | 0,
+      mask.threshold | 0,
+      mask.scale,
+      gemmWorkspace,
     );
   } finally {
     backend.wasm._free(scratch);

@@ -22,7 +22,11 @@ interface GatherArgs {
 }
 
 function gatherV2(args: GatherArgs): tf.TensorInfo | tf.TensorInfo[] {
-  const { inputs: { x, indices }, backend, attrs: { axis, batchDims } } = args;
+  const {
+    inputs: { x, indices },
+    backend,
+    attrs: { axis, batchDims },
+  } = args;
   const rowsAxis = x.shape.length > 0 ? tf.util.parseAxisParam(axis, x.shape)[0] : -1;
   const fourBytes = x.dtype === 'float32' || x.dtype === 'int32';
   if (rowsAxis !== 0 || (batchDims ?? 0) !== 0 || !fourBytes || indices.dtype !== 'int32') {

@@ -76,7 +76,15 @@ function biasGeluBackward({ inputs: { x, b, dy }, backend }: GeluArgs): tf.Tenso
   const db = backend.makeOutput([n], 'float32');
   if (n === 0) return [dx, db];
   const { exports } = fastModuleFor(backend);
-  exports.bias_gelu_grad_f32(heapOffset(backend, x), heapOffset(backend, b), heapOffset(backend, dy), heapOffset(backend, dx), heapOffset(backend, db), rows, n);
+  exports.bias_gelu_grad_f32(
+    heapOffset(backend, x),
+    heapOffset(backend, b),
+    heapOffset(backend, dy),
+    heapOffset(backend, dx),
+    heapOffset(backend, db),
+    rows,
+    n,
+  );
   return [dx, db];
 }
 

@@ -39,7 +39,10 @@ function identity(args: IdentityArgs): tf.TensorInfo | tf.TensorInfo[] {
 }
 
 function cast(args: IdentityArgs): tf.TensorInfo | tf.TensorInfo[] {
-  const { inputs: { x }, backend } = args;
+  const {
+    inputs: { x },
+    backend,
+  } = args;
   const dtype = args.attrs?.dtype;
   if (x.dtype !== 'string' && dtype === x.dtype) return shared(x, backend);
   if (dtype === 'bool' && (x.dtype === 'float32' || x.dtype === 'int32')) {
@@ -47,7 +50,8 @@ function cast(args: IdentityArgs): tf.TensorInfo | tf.TensorInfo[] {
     const n = x.shape.reduce((p, d) => p * d, 1);
     // views only after makeOutput: its malloc may grow (and so replace) the heap buffer
     const buffer = backend.wasm.HEAPU8.buffer as ArrayBuffer;
-    const src = x.dtype === 'float32' ? new Float32Array(buffer, heapOffset(backend, x), n) : new Int32Array(buffer, heapOffset(backend, x), n);
+    const src =
+      x.dtype === 'float32' ? new Float32Array(buffer, heapOffset(backend, x), n) : new Int32Array(buffer, heapOffset(backend, x), n);
     const dst = new Uint8Array(buffer, heapOffset(backend, out), n);
     for (let i = 0; i < n; i++) dst[i] = src[i] !== 0 ? 1 : 0;
     return out;
@@ -74,7 +78,11 @@ interface TransposeArgs {
 }
 
 function transpose(args: TransposeArgs): tf.TensorInfo | tf.TensorInfo[] {
-  const { inputs: { x }, backend, attrs: { perm } } = args;
+  const {
+    inputs: { x },
+    backend,
+    attrs: { perm },
+  } = args;
   const moved = perm.filter((axis) => x.shape[axis] !== 1);
   const inOrder = moved.every((axis, i) => i === 0 || axis > moved[i - 1]);
   if (x.dtype === 'string' || perm.length !== x.shape.length || !inOrder) return runStock(tf.Transpose, args);

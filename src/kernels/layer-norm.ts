@@ -77,8 +77,15 @@ function layerNormForward({ inputs: { x, gamma, beta }, backend, attrs }: Forwar
   if (rows * n === 0) return [y, ...stats];
   const { exports } = fastModuleFor(backend);
   exports.layer_norm_f32(
-    heapOffset(backend, x), heapOffset(backend, gamma), heapOffset(backend, beta), heapOffset(backend, y),
-    stats.length ? heapOffset(backend, stats[0]) : 0, stats.length ? heapOffset(backend, stats[1]) : 0, rows, n, attrs.eps,
+    heapOffset(backend, x),
+    heapOffset(backend, gamma),
+    heapOffset(backend, beta),
+    heapOffset(backend, y),
+    stats.length ? heapOffset(backend, stats[0]) : 0,
+    stats.length ? heapOffset(backend, stats[1]) : 0,
+    rows,
+    n,
+    attrs.eps,
   );
   return [y, ...stats];
 }
@@ -92,8 +99,16 @@ function layerNormBackward({ inputs: { x, gamma, mean, rstd, dy }, backend }: Ba
   if (n === 0) return [dx, dgamma, dbeta];
   const { exports } = fastModuleFor(backend);
   exports.layer_norm_grad_f32(
-    heapOffset(backend, x), heapOffset(backend, gamma), heapOffset(backend, mean), heapOffset(backend, rstd), heapOffset(backend, dy),
-    heapOffset(backend, dx), heapOffset(backend, dgamma), heapOffset(backend, dbeta), rows, n,
+    heapOffset(backend, x),
+    heapOffset(backend, gamma),
+    heapOffset(backend, mean),
+    heapOffset(backend, rstd),
+    heapOffset(backend, dy),
+    heapOffset(backend, dx),
+    heapOffset(backend, dgamma),
+    heapOffset(backend, dbeta),
+    rows,
+    n,
   );
   return [dx, dgamma, dbeta];
 }

@@ -91,10 +91,18 @@ function batchMatMul({ inputs, backend, attrs }: BatchMatMulArgs): tf.TensorInfo
     const ta = ia ? ia[t] : t;
     const tb = ib ? ib[t] : t;
     exports.gemm_f32(
-      M, N, K,
-      aPtr + ta * aBatchBytes, rsA, csA,
-      bPtr + tb * bBatchBytes, rsB, csB,
-      cPtr + t * cBatchBytes, N, gemmWorkspace,
+      M,
+      N,
+      K,
+      aPtr + ta * aBatchBytes,
+      rsA,
+      csA,
+      bPtr + tb * bBatchBytes,
+      rsB,
+      csB,
+      cPtr + t * cBatchBytes,
+      N,
+      gemmWorkspace,
     );
   }
   return out;

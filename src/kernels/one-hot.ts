@@ -31,10 +31,13 @@ function oneHot({ inputs, backend, attrs }: OneHotArgs): tf.TensorInfo {
   const offset = heapOffset(backend, out);
   const size = count * depth;
   const dst =
-    dtype === 'float32' ? new Float32Array(buffer, offset, size)
-    : dtype === 'int32' ? new Int32Array(buffer, offset, size)
-    : dtype === 'bool' ? new Uint8Array(buffer, offset, size)
-    : null;
+    dtype === 'float32'
+      ? new Float32Array(buffer, offset, size)
+      : dtype === 'int32'
+        ? new Int32Array(buffer, offset, size)
+        : dtype === 'bool'
+          ? new Uint8Array(buffer, offset, size)
+          : null;
   if (dst === null) throw new Error(`OneHot (src/kernels/one-hot.ts): unsupported dtype ${dtype}`);
   const ids = new Int32Array(buffer, heapOffset(backend, indices), count);
   dst.fill(offValue);

@@ -29,7 +29,11 @@ function leadingAxes(axis: number | number[], shape: number[]): number {
 }
 
 function sum(args: SumArgs): tf.TensorInfo | tf.TensorInfo[] {
-  const { inputs: { x }, backend, attrs: { axis, keepDims } } = args;
+  const {
+    inputs: { x },
+    backend,
+    attrs: { axis, keepDims },
+  } = args;
   const lead = x.dtype === 'float32' ? leadingAxes(axis, x.shape) : 0;
   if (lead === 0) return runStock(tf.Sum, args);
   const kept = x.shape.slice(lead);

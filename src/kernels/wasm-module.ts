@@ -32,37 +32,99 @@ export interface WasmBackendLike {
 /** Exports of kernels.c; every pointer is a byte offset into the tfjs heap. */
 interface KernelExports {
   gemm_f32(
-    m: number, n: number, k: number,
-    a: number, rsA: number, csA: number,
-    b: number, rsB: number, csB: number,
-    c: number, ldc: number, workspace: number,
+    m: number,
+    n: number,
+    k: number,
+    a: number,
+    rsA: number,
+    csA: number,
+    b: number,
+    rsB: number,
+    csB: number,
+    c: number,
+    ldc: number,
+    workspace: number,
   ): void;
   gemm_workspace_floats(): number;
   erf_f32(x: number, y: number, n: number): void;
   sum_leading_f32(x: number, y: number, m: number, n: number): void;
   segment_sum_f32(x: number, ids: number, out: number, count: number, inner: number, segments: number): void;
   attention_forward(
-    q: number, k: number, v: number, bias: number, ctx: number, probs: number, scratch: number,
-    B: number, T: number, N: number, D: number, scale: number,
-    dropout: number, mix: number, threshold: number, keepScale: number, workspace: number,
+    q: number,
+    k: number,
+    v: number,
+    bias: number,
+    ctx: number,
+    probs: number,
+    scratch: number,
+    B: number,
+    T: number,
+    N: number,
+    D: number,
+    scale: number,
+    dropout: number,
+    mix: number,
+    threshold: number,
+    keepScale: number,
+    workspace: number,
   ): void;
   dropout_f32(x: number, y: number, n: number, mix: number, threshold: number, scale: number): void;
   adamw_f32(
-    p: number, g: number, m: number, v: number, pOut: number, mOut: number, vOut: number, n: number,
-    gradScale: number, scaled: number, decay: number, decayed: number, b1: number, oneMinusB1: number,
-    b2: number, oneMinusB2: number, negStep: number, c2: number, eps: number,
+    p: number,
+    g: number,
+    m: number,
+    v: number,
+    pOut: number,
+    mOut: number,
+    vOut: number,
+    n: number,
+    gradScale: number,
+    scaled: number,
+    decay: number,
+    decayed: number,
+    b1: number,
+    oneMinusB1: number,
+    b2: number,
+    oneMinusB2: number,
+    negStep: number,
+    c2: number,
+    eps: number,
   ): void;
   bias_gelu_f32(x: number, b: number, y: number, rows: number, n: number): void;
   bias_gelu_grad_f32(x: number, b: number, dy: number, dx: number, db: number, rows: number, n: number): void;
   layer_norm_f32(x: number, gamma: number, beta: number, y: number, mean: number, rstd: number, rows: number, n: number, eps: number): void;
   layer_norm_grad_f32(
-    x: number, gamma: number, mean: number, rstd: number, dy: number, dx: number, dgamma: number, dbeta: number,
-    rows: number, n: number,
+    x: number,
+    gamma: number,
+    mean: number,
+    rstd: number,
+    dy: number,
+    dx: number,
+    dgamma: number,
+    dbeta: number,
+    rows: number,
+    n: number,
   ): void;
   attention_backward(
-    q: number, k: number, v: number, probs: number, dctx: number, dq: number, dk: number, dv: number,
-    scratch: number, B: number, T: number, N: number, D: number, scale: number,
-    dropout: number, mix: number, threshold: number, keepScale: number, workspace: number,
+    q: number,
+    k: number,
+    v: number,
+    probs: number,
+    dctx: number,
+    dq: number,
+    dk: number,
+    dv: number,
+    scratch: number,
+    B: number,
+    T: number,
+    N: number,
+    D: number,
+    scale: number,
+    dropout: number,
+    mix: number,
+    threshold: number,
+    keepScale: number,
+    workspace: number,
   ): void;
 }
 
@@ -87,7 +149,7 @@ function heapMemory(backend: WasmBackendLike): WebAssembly.Memory {
     if (candidate instanceof WebAssembly.Memory && candidate.buffer === buffer) return candidate;
   }
   throw new Error(
-    'src/kernels: cannot reach the tfjs wasm backend\'s WebAssembly.Memory ' +
+    "src/kernels: cannot reach the tfjs wasm backend's WebAssembly.Memory " +
       '(looked at Module.asm.memory and Module.wasmMemory); is this tfjs-backend-wasm 4.22?',
   );
 }

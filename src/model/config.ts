@@ -100,7 +100,8 @@ export function validateConfig(config: ReaderConfig, source = 'config'): void {
   const problems: string[] = [];
   const positiveInt = (field: keyof ReaderConfig): void => {
     const v = config[field];
-    if (typeof v !== 'number' || !Number.isInteger(v) || v <= 0) problems.push(`${field} must be a positive integer, got ${JSON.stringify(v)}`);
+    if (typeof v !== 'number' || !Number.isInteger(v) || v <= 0)
+      problems.push(`${field} must be a positive integer, got ${JSON.stringify(v)}`);
   };
   const probability = (field: keyof ReaderConfig): void => {
     const v = config[field];
@@ -108,9 +109,11 @@ export function validateConfig(config: ReaderConfig, source = 'config'): void {
   };
   const positiveNumber = (field: keyof ReaderConfig): void => {
     const v = config[field];
-    if (typeof v !== 'number' || !Number.isFinite(v) || v <= 0) problems.push(`${field} must be a positive number, got ${JSON.stringify(v)}`);
+    if (typeof v !== 'number' || !Number.isFinite(v) || v <= 0)
+      problems.push(`${field} must be a positive number, got ${JSON.stringify(v)}`);
   };
-  for (const f of ['vocabSize', 'hiddenSize', 'numLayers', 'numHeads', 'intermediateSize', 'maxPositions', 'typeVocabSize'] as const) positiveInt(f);
+  for (const f of ['vocabSize', 'hiddenSize', 'numLayers', 'numHeads', 'intermediateSize', 'maxPositions', 'typeVocabSize'] as const)
+    positiveInt(f);
   // sane bounds, checked before anything is built from them: a config of a million layers
   // would exhaust memory long before its weights were found missing (the largest
   // BERT-family checkpoints have 48 layers, hidden 4096, vocabularies of 250 000, from memory)
@@ -128,16 +131,28 @@ export function validateConfig(config: ReaderConfig, source = 'config'): void {
   if (config.questionMatch !== undefined && !(config.questionMatch in MATCH_TYPES)) {
     problems.push(`questionMatch must be "words" or "words+sentence", got ${JSON.stringify(config.questionMatch)}`);
   } else if (config.questionMatch && config.typeVocabSize < MATCH_TYPES[config.questionMatch]) {
-    problems.push(`questionMatch "${config.questionMatch}" needs typeVocabSize of at least ${MATCH_TYPES[config.questionMatch]}, got ${config.typeVocabSize}`);
+    problems.push(
+      `questionMatch "${config.questionMatch}" needs typeVocabSize of at least ${MATCH_TYPES[config.questionMatch]}, got ${config.typeVocabSize}`,
+    );
   }
-  if (Number.isInteger(config.hiddenSize) && Number.isInteger(config.numHeads) && config.numHeads > 0 && config.hiddenSize % config.numHeads !== 0) {
+  if (
+    Number.isInteger(config.hiddenSize) &&
+    Number.isInteger(config.numHeads) &&
+    config.numHeads > 0 &&
+    config.hiddenSize % config.numHeads !== 0
+  ) {
     problems.push(`hiddenSize (${config.hiddenSize}) must be a multiple of numHeads (${config.numHeads})`);
   }
   if (problems.length > 0) throw new Error(`${source}: invalid reader config: ${problems.join('; ')}`);
 }
 
 /** The largest value each size may take (far above any encoder a CPU can train). */
-const SIZE_LIMITS: ReadonlyArray<[keyof ReaderConfig & ('vocabSize' | 'hiddenSize' | 'numLayers' | 'numHeads' | 'intermediateSize' | 'maxPositions' | 'typeVocabSize'), number]> = [
+const SIZE_LIMITS: ReadonlyArray<
+  [
+    keyof ReaderConfig & ('vocabSize' | 'hiddenSize' | 'numLayers' | 'numHeads' | 'intermediateSize' | 'maxPositions' | 'typeVocabSize'),
+    number,
+  ]
+> = [
   ['vocabSize', 1_000_000],
   ['hiddenSize', 8192],
   ['numLayers', 96],
@@ -178,7 +193,9 @@ export function configFromHf(json: unknown, file = 'config.json'): ReaderConfig 
   if (o.hidden_act !== undefined) {
     const found = typeof o.hidden_act === 'string' ? HF_ACTIVATIONS[o.hidden_act] : undefined;
     if (found === undefined) {
-      throw new Error(`${file}: "hidden_act" ${JSON.stringify(o.hidden_act)} is not supported (supported: ${Object.keys(HF_ACTIVATIONS).join(', ')})`);
+      throw new Error(
+        `${file}: "hidden_act" ${JSON.stringify(o.hidden_act)} is not supported (supported: ${Object.keys(HF_ACTIVATIONS).join(', ')})`,
+      );
     }
     activation = found;
   }

@@ -58,7 +58,12 @@ function linear(pass: Pass, name: string, x: tf.Tensor2D): tf.Tensor2D {
 
 /** LayerNorm over the last axis (Ba et al. 2016), biased variance as PyTorch; one fused op (src/kernels/layer-norm.ts). */
 function layerNorm(pass: Pass, name: string, x: tf.Tensor2D): tf.Tensor2D {
-  return fusedLayerNorm(x, pass.params.get(`${name}.weight`) as tf.Tensor1D, pass.params.get(`${name}.bias`) as tf.Tensor1D, pass.config.layerNormEps);
+  return fusedLayerNorm(
+    x,
+    pass.params.get(`${name}.weight`) as tf.Tensor1D,
+    pass.params.get(`${name}.bias`) as tf.Tensor1D,
+    pass.config.layerNormEps,
+  );
 }
 
 /**
@@ -149,7 +154,12 @@ export function hiddenStates(params: ReaderParams, config: ReaderConfig, inputs:
 }
 
 /** Start and end logits over every position; start is channel 0 of qa_outputs. [B, T] each */
-export function spanLogits(params: ReaderParams, config: ReaderConfig, inputs: ReaderInputs, opts: ForwardOptions): { start: tf.Tensor2D; end: tf.Tensor2D } {
+export function spanLogits(
+  params: ReaderParams,
+  config: ReaderConfig,
+  inputs: ReaderInputs,
+  opts: ForwardOptions,
+): { start: tf.Tensor2D; end: tf.Tensor2D } {
   const pass: Pass = { params, config, opts };
   const [B, T] = inputs.inputIds.shape;
   const logits = linear(pass, 'qa_outputs', encode(pass, inputs)); // [B·T, 2]
@@ -180,7 +190,13 @@ export function mlmLogits(params: ReaderParams, config: ReaderConfig, inputs: Re
  * two-layer encoder, so decoding only the ~15% masked positions was measured 4.8× faster
  * for L2-H128 pretraining (tiny-models/base/MODEL_CARD.md, "Why this size"). [M, V]
  */
-export function mlmLogitsAt(params: ReaderParams, config: ReaderConfig, inputs: ReaderInputs, positions: tf.Tensor1D, opts: ForwardOptions): tf.Tensor2D {
+export function mlmLogitsAt(
+  params: ReaderParams,
+  config: ReaderConfig,
+  inputs: ReaderInputs,
+  positions: tf.Tensor1D,
+  opts: ForwardOptions,
+): tf.Tensor2D {
   const pass: Pass = { params, config, opts };
   const picked = tf.gather(encode(pass, inputs), positions); // [M, H]
   const h = linearActivation(pass, 'cls.predictions.transform.dense', picked); // [M, H]
@@ -194,9 +210,11 @@ function checkInputs(inputs: ReaderInputs, config: ReaderConfig): void {
   const [B, T] = inputs.inputIds.shape;
   for (const field of ['inputIds', 'tokenTypeIds', 'attentionMask'] as const) {
     const t = inputs[field];
-    if (t.rank !== 2 || t.shape[0] !== B || t.shape[1] !== T) throw new Error(`reader inputs: ${field} has shape [${t.shape.join(', ')}], expected [${B}, ${T}]`);
+    if (t.rank !== 2 || t.shape[0] !== B || t.shape[1] !== T)
+      throw new Error(`reader inputs: ${field} has shape [${t.shape.join(', ')}], expected [${B}, ${T}]`);
     if (t.dtype !== 'int32') throw new Error(`reader inputs: ${field} must be int32, got ${t.dtype}`);
   }
   if (B === 0 || T === 0) throw new Error(`reader inputs: empty batch [${B}, ${T}]`);
-  if (config.hiddenSize % config.numHeads !== 0) throw new Error(`reader config: hiddenSize ${config.hiddenSize} is not a multiple of numHeads ${config.numHeads}`);
+  if (config.hiddenSize % config.numHeads !== 0)
+    throw new Error(`reader config: hiddenSize ${config.hiddenSize} is not a multiple of numHeads ${config.numHeads}`);
 }

@@ -119,11 +119,15 @@ export class ReaderParams {
         const { original, tensor } = entry;
         const expected = spec.shape;
         if (tensor.shape.length !== expected.length || tensor.shape.some((d, i) => d !== expected[i])) {
-          throw new Error(`${source}: tensor "${original}" has shape [${tensor.shape.join(', ')}], the config expects [${expected.join(', ')}]`);
+          throw new Error(
+            `${source}: tensor "${original}" has shape [${tensor.shape.join(', ')}], the config expects [${expected.join(', ')}]`,
+          );
         }
         const size = expected.reduce((a, b) => a * b, 1);
         if (tensor.data.length !== size) {
-          throw new Error(`${source}: tensor "${original}" holds ${tensor.data.length} values, its shape [${expected.join(', ')}] needs ${size}`);
+          throw new Error(
+            `${source}: tensor "${original}" holds ${tensor.data.length} values, its shape [${expected.join(', ')}] needs ${size}`,
+          );
         }
         values.set(name, toInternal(tensor.data, spec));
         report.loaded.push(name);
@@ -133,7 +137,8 @@ export class ReaderParams {
       throw err;
     }
     const missingParts = new Set(report.missing.map((name) => specs.get(name)?.part));
-    if (missingParts.has('span_head')) report.notices.push(`${source} has no span head (qa_outputs); it was initialised afresh and must be trained`);
+    if (missingParts.has('span_head'))
+      report.notices.push(`${source} has no span head (qa_outputs); it was initialised afresh and must be trained`);
     if (missingParts.has('mlm_head')) report.notices.push(`${source} has no MLM head (cls.predictions.*); it was initialised afresh`);
     return { params: ReaderParams.adopt(config, values), report };
   }

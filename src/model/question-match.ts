@@ -8,7 +8,11 @@ import { MATCH_TYPES, validateConfig, type QuestionMatch, type ReaderConfig } fr
 
 const TYPES = 'bert.embeddings.token_type_embeddings.weight';
 
-export function withQuestionMatch(config: ReaderConfig, named: NamedTensors, level: QuestionMatch): { config: ReaderConfig; named: NamedTensors } {
+export function withQuestionMatch(
+  config: ReaderConfig,
+  named: NamedTensors,
+  level: QuestionMatch,
+): { config: ReaderConfig; named: NamedTensors } {
   const need = MATCH_TYPES[level];
   if (config.questionMatch === level && config.typeVocabSize >= need) return { config, named };
   const table = named.get(TYPES) ?? named.get(TYPES.replace(/^bert\./, ''));

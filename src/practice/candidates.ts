@@ -57,15 +57,23 @@ const DETERMINERS = new Set('a an the its their his her our your this that these
 /** Prepositions a time, date or place answer usually follows; the question word takes them over. */
 const LEAD_PREPOSITIONS = new Set('at by until till from before after on in since during to into near'.split(' '));
 
-const MONTHS = new Set('january february march april may june july august september october november december jan feb mar apr jun jul aug sep sept oct nov dec'.split(' '));
+const MONTHS = new Set(
+  'january february march april may june july august september october november december jan feb mar apr jun jul aug sep sept oct nov dec'.split(
+    ' ',
+  ),
+);
 
 const NUMBER_WORDS = new Set(
-  'two three four five six seven eight nine ten eleven twelve thirteen fourteen fifteen sixteen seventeen eighteen nineteen twenty thirty forty fifty sixty seventy eighty ninety hundred thousand million billion dozen'.split(' '),
+  'two three four five six seven eight nine ten eleven twelve thirteen fourteen fifteen sixteen seventeen eighteen nineteen twenty thirty forty fifty sixty seventy eighty ninety hundred thousand million billion dozen'.split(
+    ' ',
+  ),
 );
 
 /** Nouns that are named by the number after them ("extension 2290", "Issue 14"). */
 const COUNTED_NOUNS = new Set(
-  'extension channel issue route platform berth gate deck page section chapter clause item line number room bay pier stand version form code phase level stage step grade class zone band article part unit table figure volume'.split(' '),
+  'extension channel issue route platform berth gate deck page section chapter clause item line number room bay pier stand version form code phase level stage step grade class zone band article part unit table figure volume'.split(
+    ' ',
+  ),
 );
 
 export function isFunctionWord(word: string): boolean {
@@ -124,7 +132,8 @@ export function answerCandidates(text: string, words: readonly Word[]): Candidat
       const j = i + 1;
       if (isDay(w[j]!)) {
         let last = j + 1;
-        if (isYear(w[j + 1] ?? '') && (joined(text, words[j]!, words[j + 1]!) || text.slice(words[j]!.end, words[j + 1]!.start) === ', ')) last = j + 2;
+        if (isYear(w[j + 1] ?? '') && (joined(text, words[j]!, words[j + 1]!) || text.slice(words[j]!.end, words[j + 1]!.start) === ', '))
+          last = j + 2;
         return { kind: 'date', first: i, last, lead: leadOf(i) };
       }
       if (isYear(w[j]!)) return { kind: 'date', first: i, last: j + 1, lead: leadOf(i) };
@@ -140,8 +149,10 @@ export function answerCandidates(text: string, words: readonly Word[]): Candidat
     // percent
     if (/^\d[\d,]*(\.\d+)?%$/.test(word)) return { kind: 'percent', first: i, last: i + 1, lead: 0 };
     if (isNumber(word) && next(i) > 0 && lower[i + 1] === 'percent') return { kind: 'percent', first: i, last: i + 2, lead: 0 };
-    if (isNumber(word) && next(i) > 0 && lower[i + 1] === 'per' && lower[i + 2] === 'cent') return { kind: 'percent', first: i, last: i + 3, lead: 0 };
-    if (isNumber(word) && next(i) > 0 && /^(dollars|pounds|euros|cents|pence)$/.test(lower[i + 1]!)) return { kind: 'money', first: i, last: i + 2, lead: 0 };
+    if (isNumber(word) && next(i) > 0 && lower[i + 1] === 'per' && lower[i + 2] === 'cent')
+      return { kind: 'percent', first: i, last: i + 3, lead: 0 };
+    if (isNumber(word) && next(i) > 0 && /^(dollars|pounds|euros|cents|pence)$/.test(lower[i + 1]!))
+      return { kind: 'money', first: i, last: i + 2, lead: 0 };
     // number after a counted noun ("extension 2290", "Issue 14"): the noun goes to the question
     if (DIGITS.test(word) && i > 0 && COUNTED_NOUNS.has(lower[i - 1]!) && joined(text, words[i - 1]!, words[i]!)) {
       return { kind: 'number', first: i, last: i + 1, lead: 1, noun: lower[i - 1]! };
@@ -155,7 +166,8 @@ export function answerCandidates(text: string, words: readonly Word[]): Candidat
     }
     // code
     if (isCode(word) && word.length >= 2) {
-      const lead = i > 0 && /^\p{Ll}+$/u.test(w[i - 1]!) && !FUNCTION_WORDS.has(lower[i - 1]!) && joined(text, words[i - 1]!, words[i]!) ? 1 : 0;
+      const lead =
+        i > 0 && /^\p{Ll}+$/u.test(w[i - 1]!) && !FUNCTION_WORDS.has(lower[i - 1]!) && joined(text, words[i - 1]!, words[i]!) ? 1 : 0;
       return { kind: 'code', first: i, last: i + 1, lead, noun: lead ? lower[i - 1] : undefined };
     }
     // name: capitalised run; at the head of a sentence only when it is not a function word
@@ -164,7 +176,13 @@ export function answerCandidates(text: string, words: readonly Word[]): Candidat
       while (last < words.length && joined(text, words[last - 1]!, words[last]!)) {
         const n = w[last]!;
         if (isCapitalised(n) || /^\d+$/.test(n)) last++;
-        else if (/^(of|and|the|for|de|van|von)$/.test(n) && last + 1 < words.length && isCapitalised(w[last + 1]!) && joined(text, words[last]!, words[last + 1]!)) last += 2;
+        else if (
+          /^(of|and|the|for|de|van|von)$/.test(n) &&
+          last + 1 < words.length &&
+          isCapitalised(w[last + 1]!) &&
+          joined(text, words[last]!, words[last + 1]!)
+        )
+          last += 2;
         else break;
       }
       if (i === 0 && last === 1) return null; // one capitalised word at the head: usually an ordinary word
@@ -175,10 +193,17 @@ export function answerCandidates(text: string, words: readonly Word[]): Candidat
     // phrase: determiner + up to four content words (adjectives and nouns; no verbs can be told apart, so it stops at function words)
     if (DETERMINERS.has(lw) && next(i) > 0) {
       let last = i + 1;
-      while (last < words.length && last - i <= 4 && /^\p{Ll}[\p{Ll}\d'’-]*$/u.test(w[last]!) && !FUNCTION_WORDS.has(lower[last]!) && !NUMBER_WORDS.has(lower[last]!)) {
+      while (
+        last < words.length &&
+        last - i <= 4 &&
+        /^\p{Ll}[\p{Ll}\d'’-]*$/u.test(w[last]!) &&
+        !FUNCTION_WORDS.has(lower[last]!) &&
+        !NUMBER_WORDS.has(lower[last]!)
+      ) {
         // a word in -s or -ed followed by a determiner, a number or a preposition is most likely the verb: the phrase ends before it
         const after = lower[last + 1] ?? '';
-        if (last > i + 1 && /(s|ed)$/.test(lower[last]!) && (DETERMINERS.has(after) || isNumber(after) || LEAD_PREPOSITIONS.has(after))) break;
+        if (last > i + 1 && /(s|ed)$/.test(lower[last]!) && (DETERMINERS.has(after) || isNumber(after) || LEAD_PREPOSITIONS.has(after)))
+          break;
         last++;
         if (last >= words.length || !joined(text, words[last - 1]!, words[last]!)) break;
       }

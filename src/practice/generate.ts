@@ -120,7 +120,17 @@ function clozeDrafts(passage: PracticePassage, sentences: Sentence[], random: ()
       if (onlyFunctionWords(sentence.words.slice(c.first, c.last).map((w) => w.text))) continue;
       const q = writeQuestion(passage.text, sentence, c, random, headIsName);
       if (!q) continue;
-      out.push({ passage, sentence: si, kind: 'cloze', answerKind: c.kind, question: q.question, start: q.start, end: q.end, context: passage.text, passageId: passage.id });
+      out.push({
+        passage,
+        sentence: si,
+        kind: 'cloze',
+        answerKind: c.kind,
+        question: q.question,
+        start: q.start,
+        end: q.end,
+        context: passage.text,
+        passageId: passage.id,
+      });
     }
   });
   return out;
@@ -135,7 +145,10 @@ function recurringDrafts(passage: PracticePassage, sentences: Sentence[], random
         const span = s.words.slice(i, i + len);
         // words joined by white space only: no comma or stop inside a recurring span
         if (span.some((w, k) => k > 0 && !/^\s+$/u.test(passage.text.slice(span[k - 1]!.end, w.start)))) continue;
-        const telling = span.some((w) => /\d/u.test(w.text) || (/^\p{Lu}/u.test(w.text) && i > 0) || (w.text.length >= 5 && !FUNCTION_WORDS.has(w.text.toLowerCase())));
+        const telling = span.some(
+          (w) =>
+            /\d/u.test(w.text) || (/^\p{Lu}/u.test(w.text) && i > 0) || (w.text.length >= 5 && !FUNCTION_WORDS.has(w.text.toLowerCase())),
+        );
         if (!telling || FUNCTION_WORDS.has(span[0]!.text.toLowerCase()) || FUNCTION_WORDS.has(span[len - 1]!.text.toLowerCase())) continue;
         const key = passage.text.slice(span[0]!.start, span[len - 1]!.end);
         const list = seen.get(key) ?? [];
@@ -163,7 +176,17 @@ function recurringDrafts(passage: PracticePassage, sentences: Sentence[], random
     const at = wordIndexOf(cut.text, key);
     if (at < 0) continue;
     used.add(pick.sentence);
-    out.push({ passage, sentence: pick.sentence, kind: 'recurring', answerKind: typed.kind, question: q.question, start: at, end: at + key.length, context: cut.text, passageId: `${passage.id}~without-s${pick.sentence}` });
+    out.push({
+      passage,
+      sentence: pick.sentence,
+      kind: 'recurring',
+      answerKind: typed.kind,
+      question: q.question,
+      start: at,
+      end: at + key.length,
+      context: cut.text,
+      passageId: `${passage.id}~without-s${pick.sentence}`,
+    });
   }
   return out;
 }
@@ -209,7 +232,14 @@ export function makePracticeQuestions(passages: readonly PracticePassage[], opti
     drafts.forEach((d, k) => {
       const text = d.context.slice(d.start, d.end);
       const id = `${passage.id}#p${k}`;
-      records.push({ id, passageId: d.passageId, context: d.context, question: d.question, answers: [{ text, start: d.start }], unanswerable: false });
+      records.push({
+        id,
+        passageId: d.passageId,
+        context: d.context,
+        question: d.question,
+        answers: [{ text, start: d.start }],
+        unanswerable: false,
+      });
       kinds.set(id, d.kind);
       byAnswerKind[d.answerKind] = (byAnswerKind[d.answerKind] ?? 0) + 1;
       // 4. the same question of a context without its answer
@@ -220,7 +250,8 @@ export function makePracticeQuestions(passages: readonly PracticePassage[], opti
       let kind: PracticeKind = 'no-answer-removed';
       if (random() < 0.5) {
         const cut = withoutSentence(passage.text, sentences[d.sentence]!);
-        if (!cut.text.toLowerCase().includes(answer) && cut.text.trim().length > 0) [context, passageId] = [cut.text, `${passage.id}~without-s${d.sentence}`];
+        if (!cut.text.toLowerCase().includes(answer) && cut.text.trim().length > 0)
+          [context, passageId] = [cut.text, `${passage.id}~without-s${d.sentence}`];
       }
       if (context === null && peers[pi]!.length > 1) {
         // the other passage that shares most of the question's content words
@@ -244,7 +275,8 @@ export function makePracticeQuestions(passages: readonly PracticePassage[], opti
   // the promises of this file, checked
   for (const r of records) {
     for (const a of r.answers) {
-      if (r.context.slice(a.start, a.start + a.text.length) !== a.text || a.text === '') throw new Error(`practice question ${r.id}: answer not at its offset (internal error)`);
+      if (r.context.slice(a.start, a.start + a.text.length) !== a.text || a.text === '')
+        throw new Error(`practice question ${r.id}: answer not at its offset (internal error)`);
     }
   }
   return { records, kinds, byAnswerKind, passages: passages.length, emptyPassages };

@@ -46,7 +46,12 @@ const capitalise = (s: string) => s.charAt(0).toUpperCase() + s.slice(1);
  * equivalent wordings. Returns the words and whether the answer should keep its lead
  * preposition ("How" answers "by a hydraulic winch").
  */
-export function questionWord(c: Candidate, leadWord: string | undefined, answerWords: readonly string[], coin: number): { words: string; keepLead: boolean } {
+export function questionWord(
+  c: Candidate,
+  leadWord: string | undefined,
+  answerWords: readonly string[],
+  coin: number,
+): { words: string; keepLead: boolean } {
   const lead = leadWord?.toLowerCase();
   const person = answerWords.some((w) => PERSON_HINTS.has(w.toLowerCase()));
   switch (c.kind) {
@@ -54,7 +59,8 @@ export function questionWord(c: Candidate, leadWord: string | undefined, answerW
       if (lead && lead !== 'at' && lead !== 'on' && lead !== 'in') return { words: `${lead} what time`, keepLead: false };
       return { words: coin < 0.5 ? 'what time' : 'when', keepLead: false };
     case 'date':
-      if (lead === 'by' || lead === 'until' || lead === 'before' || lead === 'after' || lead === 'since') return { words: coin < 0.5 ? `${lead} when` : `${lead} what date`, keepLead: false };
+      if (lead === 'by' || lead === 'until' || lead === 'before' || lead === 'after' || lead === 'since')
+        return { words: coin < 0.5 ? `${lead} when` : `${lead} what date`, keepLead: false };
       if (answerWords.length === 1) return { words: coin < 0.5 ? 'in what year' : 'when', keepLead: false };
       return { words: coin < 0.5 ? 'on what date' : 'when', keepLead: false };
     case 'money':
@@ -77,7 +83,8 @@ export function questionWord(c: Candidate, leadWord: string | undefined, answerW
       }
       return { words: coin < 0.5 ? 'what' : 'which', keepLead: false };
     case 'phrase':
-      if (lead === 'by' || lead === 'with') return person ? { words: lead === 'by' ? 'by whom' : 'with whom', keepLead: false } : { words: 'how', keepLead: true };
+      if (lead === 'by' || lead === 'with')
+        return person ? { words: lead === 'by' ? 'by whom' : 'with whom', keepLead: false } : { words: 'how', keepLead: true };
       if (person) return { words: 'who', keepLead: false };
       if (lead === 'in' || lead === 'on' || lead === 'at') return { words: coin < 0.5 ? 'where' : `${lead} what`, keepLead: false };
       if (lead) return { words: `${lead} what`, keepLead: false };
@@ -89,7 +96,13 @@ export function questionWord(c: Candidate, leadWord: string | undefined, answerW
  * One question about `candidate` in `sentence` of `text`, or null when too little of the
  * sentence is left to ask with. `random` is a seeded generator in [0, 1).
  */
-export function writeQuestion(text: string, sentence: Sentence, candidate: Candidate, random: () => number, headIsName: boolean): WrittenQuestion | null {
+export function writeQuestion(
+  text: string,
+  sentence: Sentence,
+  candidate: Candidate,
+  random: () => number,
+  headIsName: boolean,
+): WrittenQuestion | null {
   const words = sentence.words;
   const n = words.length;
   const ask = questionWord(
@@ -110,7 +123,9 @@ export function writeQuestion(text: string, sentence: Sentence, candidate: Candi
   // 2. window
   const left = 2 + Math.floor(random() * 9);
   const right = 2 + Math.floor(random() * 9);
-  const before = words.slice(Math.max(clauseStart, removeFrom - left), removeFrom).map((w, k, all) => ({ text: w.text, index: removeFrom - all.length + k }));
+  const before = words
+    .slice(Math.max(clauseStart, removeFrom - left), removeFrom)
+    .map((w, k, all) => ({ text: w.text, index: removeFrom - all.length + k }));
   const after = words.slice(removeTo, Math.min(clauseEnd, removeTo + right)).map((w, k) => ({ text: w.text, index: removeTo + k }));
   // 5. drop about one word in ten (never the question's only words)
   // only lower-case words go: names, numbers and codes are what a person keeps when asking

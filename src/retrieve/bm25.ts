@@ -21,7 +21,11 @@
  * digits (any script); everything else separates. Stop words are dropped when given.
  */
 export function retrievalTokens(text: string, stopWords?: ReadonlySet<string>): string[] {
-  const tokens = text.normalize('NFC').toLowerCase().match(/[\p{L}\p{M}\p{N}]+/gu) ?? [];
+  const tokens =
+    text
+      .normalize('NFC')
+      .toLowerCase()
+      .match(/[\p{L}\p{M}\p{N}]+/gu) ?? [];
   return stopWords ? tokens.filter((t) => !stopWords.has(t)) : tokens;
 }
 

@@ -117,7 +117,11 @@ const PRACTICE_NO_ANSWER_WINDOWS = 0.1;
  * Every share is a prefix of one order, so each smaller share lies inside each larger
  * one. Records keep their input order.
  */
-export function nestedShares(records: readonly QARecord[], shares: readonly number[], seed: number): Array<{ share: number; records: QARecord[]; passages: number }> {
+export function nestedShares(
+  records: readonly QARecord[],
+  shares: readonly number[],
+  seed: number,
+): Array<{ share: number; records: QARecord[]; passages: number }> {
   for (const share of shares) {
     if (!(share > 0 && share <= 1)) throw new RangeError(`learning curve: a share must be in (0, 1], got ${share}`);
   }
@@ -151,8 +155,9 @@ export function passagesOf(records: readonly QARecord[]): PracticePassage[] {
 
 /** What a model card says about word-match token types, for whoever feeds the exported model. */
 function matchNote(level: QuestionMatch): string {
-  const words = 'token_type_ids: 0 for [CLS] question [SEP]; for context tokens and the last [SEP] 1, or 2 for a word the question also holds';
-  const sentence = '; 3 and 4 likewise inside the sentence that holds the largest rarity-weighted share of the question\'s words';
+  const words =
+    'token_type_ids: 0 for [CLS] question [SEP]; for context tokens and the last [SEP] 1, or 2 for a word the question also holds';
+  const sentence = "; 3 and 4 likewise inside the sentence that holds the largest rarity-weighted share of the question's words";
   return `${words}${level === 'words+sentence' ? sentence : ''} (config.json "spanwright_question_match": "${level}"; src/text/features.ts computes them)`;
 }
 
@@ -181,7 +186,8 @@ export class ReaderSession {
     const b = this.base;
     if (choice === 'base') return b;
     if (choice === 'start') return this.startReader ?? b;
-    if (!this.tunedReader) throw new Error('there is no fine-tuned reader yet: train one, or restore a checkpoint on the Checkpoints screen');
+    if (!this.tunedReader)
+      throw new Error('there is no fine-tuned reader yet: train one, or restore a checkpoint on the Checkpoints screen');
     return this.tunedReader;
   }
 
@@ -216,10 +222,21 @@ export class ReaderSession {
 
   /** Makes these files the base reader; the start and fine-tuned readers go. */
   loadBase(args: { name: string; files: ModelFiles; names?: { config: string; weights: string; vocab: string } }): BaseInfo {
-    const names = args.names ?? { config: `${args.name}/config.json`, weights: `${args.name}/model.safetensors`, vocab: `${args.name}/${args.files.vocab.file}` };
+    const names = args.names ?? {
+      config: `${args.name}/config.json`,
+      weights: `${args.name}/model.safetensors`,
+      vocab: `${args.name}/${args.files.vocab.file}`,
+    };
     const loaded = loadCheckpointDir({ ...args.files, names });
     this.disposeReaders();
-    this.baseReader = { name: args.name, config: loaded.config, params: loaded.params, tokenizer: loaded.tokenizer, vocab: loaded.vocab, missing: loaded.report.missing };
+    this.baseReader = {
+      name: args.name,
+      config: loaded.config,
+      params: loaded.params,
+      tokenizer: loaded.tokenizer,
+      vocab: loaded.vocab,
+      missing: loaded.report.missing,
+    };
     return {
       name: args.name,
       config: loaded.config,
@@ -240,7 +257,10 @@ export class ReaderSession {
 
   /** A training config with its window fields resolved against the reader it trains. */
   private trainSettings(config: TrainConfig, reader: SessionReader): TrainConfig {
-    const { settings } = resolveWindows({ maxLength: config.maxLength, stride: config.stride, maxQueryLength: config.maxQueryLength }, reader.config);
+    const { settings } = resolveWindows(
+      { maxLength: config.maxLength, stride: config.stride, maxQueryLength: config.maxQueryLength },
+      reader.config,
+    );
     return { ...config, ...settings };
   }
 
@@ -263,19 +283,22 @@ export class ReaderSession {
     const byKind: PracticePreview['byKind'] = {};
     for (const k of made.kinds.values()) byKind[k] = (byKind[k] ?? 0) + 1;
     const order = shuffleInPlace([...made.records.keys()], mulberry32(args.questions?.seed ?? 1));
-    const sample = order.slice(0, args.sample ?? 20).sort((a, b) => a - b).map((i) => {
-      const r = made.records[i]!;
-      const a = r.answers[0];
-      return {
-        id: r.id,
-        passageId: r.passageId,
-        question: r.question,
-        answer: a?.text ?? '',
-        kind: made.kinds.get(r.id)!,
-        span: a ? { start: a.start, end: a.start + a.text.length } : null,
-        context: r.context,
-      };
-    });
+    const sample = order
+      .slice(0, args.sample ?? 20)
+      .sort((a, b) => a - b)
+      .map((i) => {
+        const r = made.records[i]!;
+        const a = r.answers[0];
+        return {
+          id: r.id,
+          passageId: r.passageId,
+          question: r.question,
+          answer: a?.text ?? '',
+          kind: made.kinds.get(r.id)!,
+          span: a ? { start: a.start, end: a.start + a.text.length } : null,
+          context: r.context,
+        };
+      });
     return {
       questions: made.records.length,
       unanswerable: made.records.filter((r) => r.unanswerable).length,
@@ -345,7 +368,8 @@ export class ReaderSession {
     let made: QARecord[];
     try {
       made = makePracticeQuestions(args.passages, args.questions).records;
-      if (made.length === 0) throw new Error('the passages gave no practice question: they need sentences with names, numbers, dates or phrases to ask about');
+      if (made.length === 0)
+        throw new Error('the passages gave no practice question: they need sentences with names, numbers, dates or phrases to ask about');
       if (args.questionMatch && start.config.questionMatch !== args.questionMatch) {
         const m = withQuestionMatch(start.config, start.params.toNamed(), args.questionMatch);
         from = { ...start, config: m.config, params: ReaderParams.fromNamed(m.config, m.named, { source: start.name }).params };
@@ -373,7 +397,12 @@ export class ReaderSession {
         PRACTICE_NO_ANSWER_WINDOWS,
       );
       if (this.startReader) this.startReader.params.dispose();
-      this.startReader = { name: `${start.name} + practice (run ${args.runId})`, config: from.config, params: ended.params, tokenizer: from.tokenizer };
+      this.startReader = {
+        name: `${start.name} + practice (run ${args.runId})`,
+        config: from.config,
+        params: ended.params,
+        tokenizer: from.tokenizer,
+      };
       return { ...ended.result, questions: made.length };
     } finally {
       if (from !== start) from.params.dispose();
@@ -387,17 +416,27 @@ export class ReaderSession {
    * timed updates give the step time, and the run takes as many whole passes as fit
    * (at least one). The result is the new start reader; its span head is untouched.
    */
-  async domainPretrain(args: RunHooks & { runId: string; passages: PracticePassage[]; config: TrainConfig; minutes: number; resumeFrom?: string; datasetHash?: string }): Promise<TrainEnded & { passes: number; rows: number }> {
+  async domainPretrain(
+    args: RunHooks & {
+      runId: string;
+      passages: PracticePassage[];
+      config: TrainConfig;
+      minutes: number;
+      resumeFrom?: string;
+      datasetHash?: string;
+    },
+  ): Promise<TrainEnded & { passes: number; rows: number }> {
     if (this.curve?.cancel) await this.curve.ended;
     if (!(args.minutes > 0)) throw new RangeError(`domainPretrain: minutes must be above 0, got ${args.minutes}`);
     const from = this.reader('start');
-    if (!from.params.variables.has('cls.predictions.bias')) throw new Error(`${from.name} has no MLM head, so it cannot be trained with masked-LM`);
+    if (!from.params.variables.has('cls.predictions.bias'))
+      throw new Error(`${from.name} has no MLM head, so it cannot be trained with masked-LM`);
     const texts = args.passages.map((p) => p.text);
     // rows no longer than the reader's position table
     const config = this.trainSettings(args.config, from);
     const datasetHash = args.datasetHash ?? `domain:${texts.length}:${texts.reduce((a, t) => a + t.length, 0)}`;
     const run = this.beginRun(args.runId);
-    let passes = config.epochs;
+    let passes: number;
     let rows = 0;
     try {
       if (args.resumeFrom !== undefined) {
@@ -428,16 +467,31 @@ export class ReaderSession {
     const ended = await this.train(
       run,
       from,
-      { runId: args.runId, train: [], validation: [], config: { ...config, epochs: passes }, datasetHash, resumeFrom: args.resumeFrom, onEvent: (e) => {
-        if (e.type === 'start') rows = e.plan.features;
-        args.onEvent?.(e);
-      }, shouldStop: args.shouldStop, signal: args.signal },
+      {
+        runId: args.runId,
+        train: [],
+        validation: [],
+        config: { ...config, epochs: passes },
+        datasetHash,
+        resumeFrom: args.resumeFrom,
+        onEvent: (e) => {
+          if (e.type === 'start') rows = e.plan.features;
+          args.onEvent?.(e);
+        },
+        shouldStop: args.shouldStop,
+        signal: args.signal,
+      },
       'domain',
       undefined,
       { texts },
     );
     if (this.startReader) this.startReader.params.dispose();
-    this.startReader = { name: `${from.name} + masked-LM on ${texts.length} passages (run ${args.runId})`, config: from.config, params: ended.params, tokenizer: from.tokenizer };
+    this.startReader = {
+      name: `${from.name} + masked-LM on ${texts.length} passages (run ${args.runId})`,
+      config: from.config,
+      params: ended.params,
+      tokenizer: from.tokenizer,
+    };
     return { ...ended.result, passes, rows };
   }
 
@@ -528,7 +582,9 @@ export class ReaderSession {
 
   /** The newest checkpoint of a dataset and stage, or null. */
   async latestCheckpoint(args: { datasetHash: string; stage?: RunStage }): Promise<CheckpointSummary<RunMeta> | null> {
-    const saved = (await this.needStore().list()).filter((c) => c.meta.datasetHash === args.datasetHash && (c.meta.stage ?? 'fine-tune') === (args.stage ?? 'fine-tune'));
+    const saved = (await this.needStore().list()).filter(
+      (c) => c.meta.datasetHash === args.datasetHash && (c.meta.stage ?? 'fine-tune') === (args.stage ?? 'fine-tune'),
+    );
     return saved[saved.length - 1] ?? null;
   }
 
@@ -569,7 +625,8 @@ export class ReaderSession {
     if (this.running) throw new Error(`run ${this.running.runId} is training; pause or stop it before drawing a learning curve`);
     if (this.curve) throw new Error('a learning curve is already being drawn');
     if (args.train.length === 0) throw new Error('a learning curve needs training questions: add some on the Data screen');
-    if (args.validation.length === 0) throw new Error('a learning curve needs validation questions to score: hold some out on the Data screen');
+    if (args.validation.length === 0)
+      throw new Error('a learning curve needs validation questions to score: hold some out on the Data screen');
     const subsets = nestedShares(args.train, args.shares, args.seed);
     let end = () => {};
     const drawing = { curveId: args.curveId, cancel: false, ended: new Promise<void>((resolve) => (end = resolve)) };
@@ -583,7 +640,8 @@ export class ReaderSession {
       const of = subsets.length;
       for (const [index, subset] of subsets.entries()) {
         if (drawing.cancel) break;
-        if (this.baseReader === null || this.reader('start') !== from) throw new Error('the base reader changed while the learning curve was drawn');
+        if (this.baseReader === null || this.reader('start') !== from)
+          throw new Error('the base reader changed while the learning curve was drawn');
         send({ type: 'share', index, of, share: subset.share, questions: subset.records.length, passages: subset.passages });
         // a throwaway run: a fresh copy of the start reader, no store, so no checkpoint is written
         const result = await fineTune({
@@ -602,7 +660,9 @@ export class ReaderSession {
         try {
           if (result.outcome.status === 'stopped') break;
           send({ type: 'scoring', index, of });
-          const { report } = evaluateRecords({ params: result.params, config: from.config, tokenizer: from.tokenizer }, args.validation, { windows });
+          const { report } = evaluateRecords({ params: result.params, config: from.config, tokenizer: from.tokenizer }, args.validation, {
+            windows,
+          });
           const point: CurvePoint = {
             share: subset.share,
             questions: subset.records.length,
@@ -637,7 +697,9 @@ export class ReaderSession {
   }
 
   /** EM/F1 by the SQuAD 2.0 rules and a per-question view, for one of the readers. */
-  evaluate(args: { model: ModelChoice; records: QARecord[]; onProgress?: (done: number, total: number) => void } & WindowArgs): EvaluationResult {
+  evaluate(
+    args: { model: ModelChoice; records: QARecord[]; onProgress?: (done: number, total: number) => void } & WindowArgs,
+  ): EvaluationResult {
     const r = this.reader(args.model);
     const { report, decoded } = evaluateRecords(r, args.records, { features: this.windows(args, r).features, onProgress: args.onProgress });
     const byId = new Map(args.records.map((rec) => [rec.id, rec]));
@@ -673,13 +735,19 @@ export class ReaderSession {
    * training questions) by the metric's best-threshold search: the honest counterpart of
    * the threshold tuned on the scored questions themselves.
    */
-  scoreWithTrainedCut(args: { model: ModelChoice; tuneOn: QARecord[]; records: QARecord[] } & WindowArgs): { threshold: number; summary: SquadScores } {
+  scoreWithTrainedCut(args: { model: ModelChoice; tuneOn: QARecord[]; records: QARecord[] } & WindowArgs): {
+    threshold: number;
+    summary: SquadScores;
+  } {
     const r = this.reader(args.model);
     const features = this.windows(args, r).features;
     const tune = predictRecords(r, args.tuneOn, { features });
     const threshold = findBestThresholds(goldFromRecords(args.tuneOn), tune.bestSpans, tune.scoreDiffs).bestF1Threshold;
     const held = predictRecords(r, args.records, { features });
-    return { threshold, summary: evaluate(goldFromRecords(args.records), applyNoAnswerThreshold(held.bestSpans, held.scoreDiffs, threshold)) };
+    return {
+      threshold,
+      summary: evaluate(goldFromRecords(args.records), applyNoAnswerThreshold(held.bestSpans, held.scoreDiffs, threshold)),
+    };
   }
 
   /** The word-overlap baseline (src/eval/lexical-baseline.ts) on `records`, its no-answer cut chosen on `tuneOn`. */
@@ -689,7 +757,14 @@ export class ReaderSession {
   }
 
   /** The id → answer map that `score` reads, and id → (null score − best span score), for one of the readers. */
-  predict(args: { model: ModelChoice; records: QARecord[]; nullThreshold?: number; onProgress?: (done: number, total: number) => void } & WindowArgs): {
+  predict(
+    args: {
+      model: ModelChoice;
+      records: QARecord[];
+      nullThreshold?: number;
+      onProgress?: (done: number, total: number) => void;
+    } & WindowArgs,
+  ): {
     predictions: Record<string, string>;
     scoreDiffs: Record<string, number>;
   } {
@@ -710,21 +785,25 @@ export class ReaderSession {
    *                 score by min–max normalisation (src/retrieve/combine.ts); with one
    *                 passage the reader's score alone ranks them
    */
-  ask(args: {
-    model: ModelChoice;
-    question: string;
-    passages: Array<{ id: string; text: string }>;
-    topPassages: number;
-    topAnswers: number;
-    /** weight of the retriever's score in the combined score, default 0.5 */
-    retrieverWeight?: number;
-  } & WindowArgs): AskResult {
+  ask(
+    args: {
+      model: ModelChoice;
+      question: string;
+      passages: Array<{ id: string; text: string }>;
+      topPassages: number;
+      topAnswers: number;
+      /** weight of the retriever's score in the combined score, default 0.5 */
+      retrieverWeight?: number;
+    } & WindowArgs,
+  ): AskResult {
     const r = this.reader(args.model);
     const question = args.question.trim();
     if (question === '') throw new Error('type a question first');
     if (args.passages.length === 0) throw new Error('there are no passages to ask: add some first');
-    if (!(Number.isInteger(args.topPassages) && args.topPassages >= 1)) throw new RangeError(`topPassages must be a whole number above 0, not ${args.topPassages}`);
-    if (!(Number.isInteger(args.topAnswers) && args.topAnswers >= 1)) throw new RangeError(`topAnswers must be a whole number above 0, not ${args.topAnswers}`);
+    if (!(Number.isInteger(args.topPassages) && args.topPassages >= 1))
+      throw new RangeError(`topPassages must be a whole number above 0, not ${args.topPassages}`);
+    if (!(Number.isInteger(args.topAnswers) && args.topAnswers >= 1))
+      throw new RangeError(`topAnswers must be a whole number above 0, not ${args.topAnswers}`);
     // 1. retrieval
     const single = args.passages.length === 1;
     const retrieved: Array<{ passageId: string; score: number | null }> = single
@@ -740,7 +819,10 @@ export class ReaderSession {
       answers: [],
       unanswerable: true,
     }));
-    const decoded = predictRecords(r, records, { features: this.windows(args, r).features, decode: { nBest: Math.max(5, args.topAnswers) } });
+    const decoded = predictRecords(r, records, {
+      features: this.windows(args, r).features,
+      decode: { nBest: Math.max(5, args.topAnswers) },
+    });
     // 3. ranking
     const candidates: Array<Omit<AnswerView, 'combinedScore'>> = [];
     let noAnswer = true;
@@ -765,8 +847,14 @@ export class ReaderSession {
       }
     });
     const ranked = single
-      ? combineScores(candidates.map((c) => ({ ...c, retrieverScore: 0 })), { retrieverWeight: 0 }).map((c) => ({ ...c, retrieverScore: null }))
-      : combineScores(candidates.map((c) => ({ ...c, retrieverScore: c.retrieverScore ?? 0 })), { retrieverWeight: args.retrieverWeight ?? 0.5 });
+      ? combineScores(
+          candidates.map((c) => ({ ...c, retrieverScore: 0 })),
+          { retrieverWeight: 0 },
+        ).map((c) => ({ ...c, retrieverScore: null }))
+      : combineScores(
+          candidates.map((c) => ({ ...c, retrieverScore: c.retrieverScore ?? 0 })),
+          { retrieverWeight: args.retrieverWeight ?? 0.5 },
+        );
     return { answers: ranked.slice(0, args.topAnswers), retrieved, noAnswer };
   }
 
@@ -797,7 +885,15 @@ export class ReaderSession {
     const quantized = args.int8 ? quantizeModel(named) : undefined;
     const int8: NonNullable<Parameters<typeof exportModel>[0]['card']['int8']> | undefined = quantized
       ? args.int8Check
-        ? { accuracy: int8AccuracyCost(r.config, named, quantized, args.int8Check.records, readerWindows(r, args.int8Check.records, this.windows(args.int8Check, r).features)) }
+        ? {
+            accuracy: int8AccuracyCost(
+              r.config,
+              named,
+              quantized,
+              args.int8Check.records,
+              readerWindows(r, args.int8Check.records, this.windows(args.int8Check, r).features),
+            ),
+          }
         : { drift: measureInt8Drift(r.config, named, quantized) }
       : undefined;
     const card: Omit<ModelCardInfo, 'config' | 'files' | 'int8'> = {
@@ -816,8 +912,17 @@ export class ReaderSession {
     if (args.card.scores) card.metrics = args.card.scores;
     else if (scores) card.metrics = { withoutThreshold: scores };
     const base = args.card.baseScores;
-    if (base) card.notes!.push(`the base reader scored EM ${base.em?.toFixed(1)} / F1 ${base.f1?.toFixed(1)} on the same validation questions`);
-    const { files } = exportModel({ config: r.config, tensors: named, vocab: b.vocab, fp16: args.fp16, int8: quantized, onnx: args.onnx, card: { ...card, int8 } });
+    if (base)
+      card.notes!.push(`the base reader scored EM ${base.em?.toFixed(1)} / F1 ${base.f1?.toFixed(1)} on the same validation questions`);
+    const { files } = exportModel({
+      config: r.config,
+      tensors: named,
+      vocab: b.vocab,
+      fp16: args.fp16,
+      int8: quantized,
+      onnx: args.onnx,
+      card: { ...card, int8 },
+    });
     return { files, notes: card.notes ?? [] };
   }
 

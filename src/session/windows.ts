@@ -43,10 +43,14 @@ export interface ResolvedWindows {
 }
 
 /** Throws a RangeError naming the setting when a value cannot work. */
-export function resolveWindows(asked: Partial<WindowSettings>, reader: Pick<ReaderConfig, 'maxPositions' | 'questionMatch'>): ResolvedWindows {
+export function resolveWindows(
+  asked: Partial<WindowSettings>,
+  reader: Pick<ReaderConfig, 'maxPositions' | 'questionMatch'>,
+): ResolvedWindows {
   const notes: string[] = [];
   const whole = (name: keyof WindowSettings, v: number | undefined, min: number) => {
-    if (v !== undefined && (!Number.isInteger(v) || v < min)) throw new RangeError(`${name} must be a whole number of at least ${min}, not ${v}`);
+    if (v !== undefined && (!Number.isInteger(v) || v < min))
+      throw new RangeError(`${name} must be a whole number of at least ${min}, not ${v}`);
   };
   whole('maxLength', asked.maxLength, 8);
   whole('stride', asked.stride, 0);
@@ -55,13 +59,19 @@ export function resolveWindows(asked: Partial<WindowSettings>, reader: Pick<Read
   let maxLength = asked.maxLength ?? DEFAULT_WINDOWS.maxLength;
   let cut = false;
   if (maxLength > reader.maxPositions) {
-    if (asked.maxLength !== undefined) notes.push(`the reader has ${reader.maxPositions} positions; windows are ${reader.maxPositions} tokens, not ${maxLength}`);
+    if (asked.maxLength !== undefined)
+      notes.push(`the reader has ${reader.maxPositions} positions; windows are ${reader.maxPositions} tokens, not ${maxLength}`);
     maxLength = reader.maxPositions;
     cut = true;
   }
   // 2. (a window cut to the position table cuts the asked question length with it)
   const third = Math.floor(maxLength / 3);
-  const maxQueryLength = asked.maxQueryLength === undefined ? Math.min(DEFAULT_WINDOWS.maxQueryLength, third) : cut ? Math.min(asked.maxQueryLength, third) : asked.maxQueryLength;
+  const maxQueryLength =
+    asked.maxQueryLength === undefined
+      ? Math.min(DEFAULT_WINDOWS.maxQueryLength, third)
+      : cut
+        ? Math.min(asked.maxQueryLength, third)
+        : asked.maxQueryLength;
   const room = maxLength - maxQueryLength - 3;
   if (room < 1) throw new RangeError(`maxQueryLength ${maxQueryLength} leaves no room for context in a window of ${maxLength} tokens`);
   // 3. (likewise the stride)
@@ -88,10 +98,9 @@ export function resolveWindows(asked: Partial<WindowSettings>, reader: Pick<Read
  * neighbouring windows, no evaluation (practice has no validation questions) and a
  * checkpoint every 200 updates, so a stopped stage loses little.
  */
-export function practiceTrainSettings<T extends WindowSettings & { epochs: number; batchSize: number; gradAccumulation: number; evalEvery: number; checkpointEvery: number }>(
-  base: T,
-  stage: { epochs: number; maxLength: number },
-): T {
+export function practiceTrainSettings<
+  T extends WindowSettings & { epochs: number; batchSize: number; gradAccumulation: number; evalEvery: number; checkpointEvery: number },
+>(base: T, stage: { epochs: number; maxLength: number }): T {
   const maxQueryLength = Math.min(48, Math.floor(stage.maxLength / 3));
   const room = stage.maxLength - maxQueryLength - 3;
   return {
@@ -115,6 +124,26 @@ export function practiceTrainSettings<T extends WindowSettings & { epochs: numbe
  * one pass (ReaderSession.domainPretrain sets the passes from its time budget), and a
  * checkpoint every 100 updates.
  */
-export function domainTrainSettings<T extends WindowSettings & { epochs: number; batchSize: number; gradAccumulation: number; evalEvery: number; checkpointEvery: number; learningRate: number }>(base: T): T {
-  return { ...base, maxLength: 128, stride: 32, maxQueryLength: 16, batchSize: 16, gradAccumulation: 1, learningRate: base.learningRate / 10, evalEvery: 0, checkpointEvery: 100, epochs: 1 };
+export function domainTrainSettings<
+  T extends WindowSettings & {
+    epochs: number;
+    batchSize: number;
+    gradAccumulation: number;
+    evalEvery: number;
+    checkpointEvery: number;
+    learningRate: number;
+  },
+>(base: T): T {
+  return {
+    ...base,
+    maxLength: 128,
+    stride: 32,
+    maxQueryLength: 16,
+    batchSize: 16,
+    gradAccumulation: 1,
+    learningRate: base.learningRate / 10,
+    evalEvery: 0,
+    checkpointEvery: 100,
+    epochs: 1,
+  };
 }

@@ -264,7 +264,7 @@ export class WordPieceTokenizer {
     this.count = 0;
     this.wLen = 0;
     this.wSimple = true;
-    for (let i = 0; i < n; ) {
+    for (let i = 0; i < n;) {
       const c = text.charCodeAt(i);
       if (c < 128) {
         const s = asciiOut[c]!;
@@ -283,7 +283,7 @@ export class WordPieceTokenizer {
       const cp = text.codePointAt(i)!;
       const len = cp > 0xffff ? 2 : 1;
       const s = table.normalized(cp);
-      for (let j = 0; j < s.length; ) {
+      for (let j = 0; j < s.length;) {
         const c2 = s.codePointAt(j)!;
         const l2 = c2 > 0xffff ? 2 : 1;
         const k = table.charClass(c2);

@@ -154,7 +154,12 @@ function batchShape(examples: readonly TokenExample[], trim: boolean, caller: st
   return { B: examples.length, T: trim ? Math.max(1, longest) : full };
 }
 
-function copyRow(ex: TokenExample, b: number, T: number, into: { inputIds: Int32Array; tokenTypeIds: Int32Array; attentionMask: Int32Array }): void {
+function copyRow(
+  ex: TokenExample,
+  b: number,
+  T: number,
+  into: { inputIds: Int32Array; tokenTypeIds: Int32Array; attentionMask: Int32Array },
+): void {
   into.inputIds.set(ex.inputIds.subarray(0, T), b * T);
   into.tokenTypeIds.set(ex.tokenTypeIds.subarray(0, T), b * T);
   into.attentionMask.set(ex.attentionMask.subarray(0, T), b * T);

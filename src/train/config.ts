@@ -126,9 +126,7 @@ export function checkTrainConfig(config: TrainConfig): void {
     const value = config[field];
     const ok = typeof value === 'number' && value >= low && (closedHigh ? value <= high : value < high);
     if (!ok) {
-      throw new RangeError(
-        `train config: ${field} must be in [${low}, ${high}${closedHigh ? ']' : ')'}, got ${String(value)}`,
-      );
+      throw new RangeError(`train config: ${field} must be in [${low}, ${high}${closedHigh ? ']' : ')'}, got ${String(value)}`);
     }
   };
   const nonNegativeInteger = (field: keyof TrainConfig) => {

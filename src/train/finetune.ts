@@ -140,7 +140,12 @@ export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
       }
     : undefined;
   try {
-    const outcome = await trainLoop(trainer, { kind: 'span', features }, { ...req.hooks, evaluate, saveCheckpoint: checkpointSaver(req) }, resume);
+    const outcome = await trainLoop(
+      trainer,
+      { kind: 'span', features },
+      { ...req.hooks, evaluate, saveCheckpoint: checkpointSaver(req) },
+      resume,
+    );
     return { outcome, params, plan, windows: features.length, metrics: lastMetrics };
   } catch (err) {
     params.dispose();
@@ -169,7 +174,12 @@ async function maskedLmRun(req: FineTuneRequest, texts: readonly string[]): Prom
   const { params, trainer, resume } = await startRun(req, plan);
   const masking = { maskId: tok.maskId!, vocabSize: req.base.config.vocabSize, specialIds: [tok.clsId, tok.sepId, tok.padId] };
   try {
-    const outcome = await trainLoop(trainer, { kind: 'mlm', sequences, masking }, { ...req.hooks, saveCheckpoint: checkpointSaver(req) }, resume);
+    const outcome = await trainLoop(
+      trainer,
+      { kind: 'mlm', sequences, masking },
+      { ...req.hooks, saveCheckpoint: checkpointSaver(req) },
+      resume,
+    );
     return { outcome, params, plan, windows: sequences.length, metrics: null };
   } catch (err) {
     params.dispose();
@@ -180,7 +190,10 @@ async function maskedLmRun(req: FineTuneRequest, texts: readonly string[]): Prom
 }
 
 /** Step 3: the weights to train (a copy of the base, or a checkpoint's), the trainer, and the run state to continue from. */
-async function startRun(req: FineTuneRequest, plan: TrainPlan): Promise<{ params: ReaderParams; trainer: Trainer; resume: RunState | undefined }> {
+async function startRun(
+  req: FineTuneRequest,
+  plan: TrainPlan,
+): Promise<{ params: ReaderParams; trainer: Trainer; resume: RunState | undefined }> {
   const { config } = req;
   let resume: RunState | undefined;
   let optimizer: AdamWState | undefined;
@@ -189,7 +202,9 @@ async function startRun(req: FineTuneRequest, plan: TrainPlan): Promise<{ params
     if (!req.store) throw new Error('resuming needs a checkpoint store');
     const ckpt = await req.store.load(req.resumeFrom);
     if (ckpt.meta.datasetHash !== req.datasetHash) {
-      throw new Error(`checkpoint "${req.resumeFrom}" was trained on other data (dataset hash ${ckpt.meta.datasetHash}, now ${req.datasetHash})`);
+      throw new Error(
+        `checkpoint "${req.resumeFrom}" was trained on other data (dataset hash ${ckpt.meta.datasetHash}, now ${req.datasetHash})`,
+      );
     }
     params = ReaderParams.fromNamed(req.base.config, weightsOf(ckpt.tensors), { source: `checkpoint ${req.resumeFrom}` }).params;
     resume = ckpt.meta.run;

@@ -128,11 +128,26 @@ export async function trainLoop(trainer: Trainer, task: TrainTask, hooks: LoopHo
     order = resume.order;
   }
   const startUpdate = trainer.updatesDone;
-  const state = (): RunState => ({ trainer: trainer.state(), order: { ...order }, totalUpdates: plan.totalUpdates, features: plan.features });
+  const state = (): RunState => ({
+    trainer: trainer.state(),
+    order: { ...order },
+    totalUpdates: plan.totalUpdates,
+    features: plan.features,
+  });
   const save = async (reason: CheckpointRequest['reason'], metrics: Metrics | null) => {
     if (hooks.saveCheckpoint === undefined) return;
-    const id = await hooks.saveCheckpoint({ reason, state: state(), metrics, weights: () => trainer.params.toNamed(), optimizer: () => trainer.optimizerState() });
-    emit(typeof id === 'string' ? { type: 'checkpoint', update: trainer.updatesDone, reason, id } : { type: 'checkpoint', update: trainer.updatesDone, reason });
+    const id = await hooks.saveCheckpoint({
+      reason,
+      state: state(),
+      metrics,
+      weights: () => trainer.params.toNamed(),
+      optimizer: () => trainer.optimizerState(),
+    });
+    emit(
+      typeof id === 'string'
+        ? { type: 'checkpoint', update: trainer.updatesDone, reason, id }
+        : { type: 'checkpoint', update: trainer.updatesDone, reason },
+    );
   };
   const evaluate = async (update: number): Promise<Metrics | null> => {
     if (hooks.evaluate === undefined) return null;
@@ -204,7 +219,13 @@ function stepper(trainer: Trainer, task: TrainTask): Stepper {
     const sampler = new UpdateSampler(task.features, trainer.plan, seed);
     return (order, _update, lr) => {
       const { groups, next } = sampler.take(order);
-      return { result: trainer.step(groups.map((group) => collateSpan(group, trimPadding)), lr), next };
+      return {
+        result: trainer.step(
+          groups.map((group) => collateSpan(group, trimPadding)),
+          lr,
+        ),
+        next,
+      };
     };
   }
   const sampler = new UpdateSampler(task.sequences, trainer.plan, seed);
@@ -226,7 +247,9 @@ function checkResume(resume: RunState, plan: TrainPlan, trainer: Trainer): void 
     );
   }
   if (resume.trainer.update !== trainer.updatesDone) {
-    throw new Error(`resume: the saved run is at update ${resume.trainer.update} but the trainer is at ${trainer.updatesDone}; call trainer.restore first`);
+    throw new Error(
+      `resume: the saved run is at update ${resume.trainer.update} but the trainer is at ${trainer.updatesDone}; call trainer.restore first`,
+    );
   }
   const expected = orderAtUpdate(plan, resume.trainer.update);
   if (resume.order.epoch !== expected.epoch || resume.order.index !== expected.index) {

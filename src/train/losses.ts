@@ -67,7 +67,8 @@ export function spanLoss(
   tokenTypeIds?: tf.Tensor2D,
 ): tf.Scalar {
   const [B, T] = start.shape;
-  if (end.shape[0] !== B || end.shape[1] !== T) throw new Error(`spanLoss: end logits [${end.shape}] differ from start logits [${start.shape}]`);
+  if (end.shape[0] !== B || end.shape[1] !== T)
+    throw new Error(`spanLoss: end logits [${end.shape}] differ from start logits [${start.shape}]`);
   if (startPositions.shape[0] !== B || endPositions.shape[0] !== B) {
     throw new Error(`spanLoss: ${startPositions.shape[0]} start and ${endPositions.shape[0]} end positions for a batch of ${B}`);
   }
@@ -90,7 +91,8 @@ export function spanLoss(
  */
 export function mlmLoss(logits: tf.Tensor3D, labels: tf.Tensor2D): tf.Scalar {
   const [B, T, V] = logits.shape;
-  if (labels.shape[0] !== B || labels.shape[1] !== T) throw new Error(`mlmLoss: labels [${labels.shape}] do not match logits [${logits.shape}]`);
+  if (labels.shape[0] !== B || labels.shape[1] !== T)
+    throw new Error(`mlmLoss: labels [${labels.shape}] do not match logits [${logits.shape}]`);
   return tf.tidy(() => {
     const flatLabels = tf.reshape(tf.cast(labels, 'int32'), [B * T]); // [B·T]
     const counted = tf.notEqual(flatLabels, -100); // [B·T]

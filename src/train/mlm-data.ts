@@ -43,10 +43,13 @@ export interface PackingIds {
 
 /** Packs the documents' token stream into `[CLS] … [SEP]` rows of `maxLength` tokens. */
 export function packDocuments(docs: DocumentTokens, maxLength: number, ids: PackingIds): PackedSequences {
-  if (!Number.isInteger(maxLength) || maxLength < 3) throw new RangeError(`packDocuments: maxLength must be an integer ≥ 3, got ${maxLength}`);
+  if (!Number.isInteger(maxLength) || maxLength < 3)
+    throw new RangeError(`packDocuments: maxLength must be an integer ≥ 3, got ${maxLength}`);
   const D = docs.starts.length - 1;
   if (D < 0 || docs.starts[0] !== 0 || docs.starts[D] !== docs.ids.length) {
-    throw new RangeError(`packDocuments: starts must run from 0 to ids.length (${docs.ids.length}), got ${docs.starts[0]} … ${docs.starts[D]}`);
+    throw new RangeError(
+      `packDocuments: starts must run from 0 to ids.length (${docs.ids.length}), got ${docs.starts[0]} … ${docs.starts[D]}`,
+    );
   }
   const body = maxLength - 2; // tokens between [CLS] and the closing [SEP]
 

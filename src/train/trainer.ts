@@ -159,7 +159,10 @@ export class Trainer {
       const positions = maskedPositions(batch);
       const labels = new Int32Array(positions.length);
       positions.forEach((at, k) => (labels[k] = batch.labels[at]!));
-      const logits = mlmLogitsAt(this.params, this.modelConfig, readerInputs(batch), tf.tensor1d(positions, 'int32'), { training: true, dropoutSeed: seed }); // [M, V]
+      const logits = mlmLogitsAt(this.params, this.modelConfig, readerInputs(batch), tf.tensor1d(positions, 'int32'), {
+        training: true,
+        dropoutSeed: seed,
+      }); // [M, V]
       return mlmLoss(tf.expandDims(logits, 0) as tf.Tensor3D, tf.tensor2d(labels, [1, positions.length], 'int32'));
     });
   }
@@ -289,7 +292,13 @@ export function swapLinearAxes(tensors: NamedTensors, linear: ReadonlyMap<string
 }
 
 /** Int32 [B, T] tensors of one batch (created inside the caller's scope). */
-function readerInputs(batch: { size: number; seqLen: number; inputIds: Int32Array; tokenTypeIds: Int32Array; attentionMask: Int32Array }): ReaderInputs {
+function readerInputs(batch: {
+  size: number;
+  seqLen: number;
+  inputIds: Int32Array;
+  tokenTypeIds: Int32Array;
+  attentionMask: Int32Array;
+}): ReaderInputs {
   const shape: [number, number] = [batch.size, batch.seqLen];
   return {
     inputIds: tf.tensor2d(batch.inputIds, shape, 'int32'),

@@ -74,9 +74,23 @@ function readJsonl(file: string): QARecord[] {
 export function sets(): SetSpec[] {
   const fb = buildFactbookQa({ seed: 20240917, heldOutFraction: 0.2 });
   return [
-    { name: 'demo', train: readJsonl('tiny-models/demo/train.jsonl'), heldOut: readJsonl('tiny-models/demo/validation.jsonl'), windows: { maxLength: 384, stride: 128, maxQueryLength: 64 }, fineTune: { epochs: 2 }, practiceMaxLength: 256 },
+    {
+      name: 'demo',
+      train: readJsonl('tiny-models/demo/train.jsonl'),
+      heldOut: readJsonl('tiny-models/demo/validation.jsonl'),
+      windows: { maxLength: 384, stride: 128, maxQueryLength: 64 },
+      fineTune: { epochs: 2 },
+      practiceMaxLength: 256,
+    },
     // the factbook check's own settings (tests/external/factbook.test.ts)
-    { name: 'factbook', train: fb.train, heldOut: fb.heldOut, windows: { maxLength: 128, stride: 64, maxQueryLength: 32 }, fineTune: { epochs: 6, batchSize: 16, gradAccumulation: 1 }, practiceMaxLength: 128 },
+    {
+      name: 'factbook',
+      train: fb.train,
+      heldOut: fb.heldOut,
+      windows: { maxLength: 128, stride: 64, maxQueryLength: 32 },
+      fineTune: { epochs: 6, batchSize: 16, gradAccumulation: 1 },
+      practiceMaxLength: 128,
+    },
   ];
 }
 
@@ -94,13 +108,25 @@ export async function runOnce(row: AblationRow, set: SetSpec, seed: number, log:
     { train: set.train, heldOut: set.heldOut },
     { windows: set.windows, fineTune: set.fineTune, practiceMaxLength: set.practiceMaxLength, seed },
   );
-  const score = { f1: r.scores.f1 ?? 0, answerableF1: r.scores.answerable.f1 ?? 0, unanswerableF1: r.scores.unanswerable.f1 ?? 0, minutes: r.minutes };
-  log(`${row.name} ${set.name} seed ${seed}: F1 ${score.f1.toFixed(1)} (answerable ${score.answerableF1.toFixed(1)}, unanswerable ${score.unanswerableF1.toFixed(1)}), ${score.minutes.toFixed(1)} min`);
+  const score = {
+    f1: r.scores.f1 ?? 0,
+    answerableF1: r.scores.answerable.f1 ?? 0,
+    unanswerableF1: r.scores.unanswerable.f1 ?? 0,
+    minutes: r.minutes,
+  };
+  log(
+    `${row.name} ${set.name} seed ${seed}: F1 ${score.f1.toFixed(1)} (answerable ${score.answerableF1.toFixed(1)}, unanswerable ${score.unanswerableF1.toFixed(1)}), ${score.minutes.toFixed(1)} min`,
+  );
   return score;
 }
 
 const mean = (xs: number[]) => xs.reduce((a, x) => a + x, 0) / xs.length;
-const cell = (xs: number[]) => (xs.length === 0 ? '–' : xs.length === 1 ? xs[0]!.toFixed(1) : `${mean(xs).toFixed(1)} [${Math.min(...xs).toFixed(1)}–${Math.max(...xs).toFixed(1)}]`);
+const cell = (xs: number[]) =>
+  xs.length === 0
+    ? '–'
+    : xs.length === 1
+      ? xs[0]!.toFixed(1)
+      : `${mean(xs).toFixed(1)} [${Math.min(...xs).toFixed(1)}–${Math.max(...xs).toFixed(1)}]`;
 
 export async function main(argv: string[]): Promise<void> {
   const arg = (flag: string) => {
@@ -119,7 +145,9 @@ export async function main(argv: string[]): Promise<void> {
   await useBackend('wasm');
   const chosen = sets().filter((s) => setNames.includes(s.name));
   const { lexicalBaselineScores } = await import('../../src/eval/lexical-baseline.js');
-  const baselines = new Map<string, SquadScores>(chosen.map((s) => [s.name, lexicalBaselineScores(s.train.slice(0, 400), s.heldOut).scores]));
+  const baselines = new Map<string, SquadScores>(
+    chosen.map((s) => [s.name, lexicalBaselineScores(s.train.slice(0, 400), s.heldOut).scores]),
+  );
   const results: Array<{ row: string; set: string; seeds: RunScore[] }> = [];
   for (const row of rows) {
     for (const set of chosen) {
@@ -139,7 +167,9 @@ export async function main(argv: string[]): Promise<void> {
       return `| ${row.name} | ${cell(d.map((s) => s.answerableF1))} | ${cell(d.map((s) => s.f1))} | ${cell(f.map((s) => s.f1))} | ${cell([...d, ...f].map((s) => s.minutes))} |`;
     }),
   ];
-  console.log(`\nablation (${seeds} seed${seeds === 1 ? '' : 's'}: mean [range]; no-answer cut chosen on training questions)\n${lines.join('\n')}`);
+  console.log(
+    `\nablation (${seeds} seed${seeds === 1 ? '' : 's'}: mean [range]; no-answer cut chosen on training questions)\n${lines.join('\n')}`,
+  );
   if (argv.includes('--json')) console.log(JSON.stringify({ ablation: { seeds, baselines: Object.fromEntries(baselines), results } }));
 }
 

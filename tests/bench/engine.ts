@@ -182,9 +182,20 @@ function torchTokensPerS(config: ReaderConfig, bc: BenchConfig): { tokensPerS: n
   if (probe.status !== 0) return { tokensPerS: null, stepMs: null, note: 'python3-torch is not installed (apt-get install python3-torch)' };
   const args = [
     join(here, 'torch_step.py'),
-    '--layers', String(config.numLayers), '--hidden', String(config.hiddenSize), '--heads', String(config.numHeads),
-    '--intermediate', String(config.intermediateSize), '--seq', String(bc.seqLen), '--batch', String(bc.batch),
-    '--vocab', String(config.vocabSize),
+    '--layers',
+    String(config.numLayers),
+    '--hidden',
+    String(config.hiddenSize),
+    '--heads',
+    String(config.numHeads),
+    '--intermediate',
+    String(config.intermediateSize),
+    '--seq',
+    String(bc.seqLen),
+    '--batch',
+    String(bc.batch),
+    '--vocab',
+    String(config.vocabSize),
   ];
   const run = spawnSync(python, args, { encoding: 'utf8', env: { ...process.env, OMP_NUM_THREADS: '1' } });
   const line = run.stdout.trim().split('\n').pop() ?? '';

@@ -31,7 +31,15 @@ await tf.ready();
 registerFastKernels();
 
 const config = presetConfig(bench.preset, 30522);
-const tc = trainConfig({ batchSize: bench.B, gradAccumulation: 1, maxLength: bench.T, stride: bench.T / 4, maxQueryLength: bench.T / 4, epochs: 1, trimPadding: false });
+const tc = trainConfig({
+  batchSize: bench.B,
+  gradAccumulation: 1,
+  maxLength: bench.T,
+  stride: bench.T / 4,
+  maxQueryLength: bench.T / 4,
+  epochs: 1,
+  trimPadding: false,
+});
 const params = ReaderParams.init(config, 1);
 const trainer = new Trainer(params, config, tc, planTraining(tc, 1000 * bench.B));
 const { B, T } = bench;
@@ -66,7 +74,9 @@ for (const k of info.kernels) {
   perKernel.set(k.name, row);
   inKernels += ms;
 }
-console.log(`${name}: one profiled step ${wall.toFixed(0)} ms wall (profiling adds overhead), ${inKernels.toFixed(0)} ms in kernels, peak ${(info.peakBytes / 2 ** 20).toFixed(0)} MiB`);
+console.log(
+  `${name}: one profiled step ${wall.toFixed(0)} ms wall (profiling adds overhead), ${inKernels.toFixed(0)} ms in kernels, peak ${(info.peakBytes / 2 ** 20).toFixed(0)} MiB`,
+);
 console.log('kernel                      ms   calls');
 for (const [kernel, row] of [...perKernel].sort((a, b) => b[1].ms - a[1].ms).slice(0, top)) {
   console.log(`${kernel.padEnd(24)}${row.ms.toFixed(1).padStart(7)}${String(row.calls).padStart(8)}`);

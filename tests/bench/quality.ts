@@ -30,7 +30,13 @@ import { parseDataset } from '../../src/data/load.js';
 import { mulberry32, shuffleInPlace } from '../../src/data/random.js';
 import type { QARecord } from '../../src/data/record.js';
 import { buildFactbookQa } from '../external/factbook-qa.js';
-import { fineTuneReader, lexicalBaselineScores, loadBaseReader, scoreReaderTuned, type WindowSettings } from '../external/reader-measure.js';
+import {
+  fineTuneReader,
+  lexicalBaselineScores,
+  loadBaseReader,
+  scoreReaderTuned,
+  type WindowSettings,
+} from '../external/reader-measure.js';
 import { useBackend } from '../helpers/backend.js';
 
 const here = dirname(fileURLToPath(import.meta.url));
@@ -87,7 +93,10 @@ function readDemo(file: string): QARecord[] {
   const path = join(demoDir, file);
   const { records, problems } = parseDataset(readFileSync(path, 'utf8'), path);
   const errors = problems.filter((p) => p.severity === 'error');
-  if (errors.length > 0) throw new Error(`${path}: ${errors.length} bad record(s), first: record ${errors[0]!.record} field ${errors[0]!.field}: ${errors[0]!.message}`);
+  if (errors.length > 0)
+    throw new Error(
+      `${path}: ${errors.length} bad record(s), first: record ${errors[0]!.record} field ${errors[0]!.field}: ${errors[0]!.message}`,
+    );
   return records;
 }
 
@@ -100,7 +109,12 @@ export async function runQualityBench(options: QualityOptions = {}): Promise<Qua
 
   const sets: Array<{ dataset: QualityCurve['dataset']; source: string; train: QARecord[]; heldOut: QARecord[] }> = [];
   if (options.only !== 'factbook') {
-    sets.push({ dataset: 'demo', source: 'tiny-models/demo (invented; display only)', train: readDemo('train.jsonl'), heldOut: readDemo('validation.jsonl') });
+    sets.push({
+      dataset: 'demo',
+      source: 'tiny-models/demo (invented; display only)',
+      train: readDemo('train.jsonl'),
+      heldOut: readDemo('validation.jsonl'),
+    });
   }
   if (options.only !== 'demo') {
     const qa = buildFactbookQa({ seed, heldOutFraction: 0.2 });
@@ -134,9 +148,19 @@ export async function runQualityBench(options: QualityOptions = {}): Promise<Qua
         unanswerableF1: s.unanswerable.f1,
         trainSeconds,
       });
-      log(`${set.dataset} ${Math.round(fraction * 100)}%: ${subset.length} questions, ${run.updates} updates, F1 ${(s.f1 ?? 0).toFixed(1)} (${trainSeconds.toFixed(0)} s)`);
+      log(
+        `${set.dataset} ${Math.round(fraction * 100)}%: ${subset.length} questions, ${run.updates} updates, F1 ${(s.f1 ?? 0).toFixed(1)} (${trainSeconds.toFixed(0)} s)`,
+      );
     }
-    curves.push({ dataset: set.dataset, source: set.source, trainQuestions: set.train.length, heldOutQuestions: set.heldOut.length, baseF1, lexicalF1, points });
+    curves.push({
+      dataset: set.dataset,
+      source: set.source,
+      trainQuestions: set.train.length,
+      heldOutQuestions: set.heldOut.length,
+      baseF1,
+      lexicalF1,
+      points,
+    });
   }
   base.params.dispose();
   return { base: base.name, seed, epochs, windows: WINDOWS, curves };
@@ -145,7 +169,9 @@ export async function runQualityBench(options: QualityOptions = {}): Promise<Qua
 const pct = (x: number | null) => (x === null ? '—' : x.toFixed(1));
 
 export function printQualityTable(r: QualityResult): void {
-  console.log(`learning curves: ${r.base} fine-tuned ${r.epochs} epoch(s), seed ${r.seed}, max length ${r.windows.maxLength}, stride ${r.windows.stride}`);
+  console.log(
+    `learning curves: ${r.base} fine-tuned ${r.epochs} epoch(s), seed ${r.seed}, max length ${r.windows.maxLength}, stride ${r.windows.stride}`,
+  );
   for (const c of r.curves) {
     console.log(`\n${c.dataset} — ${c.source}: ${c.trainQuestions} training questions, ${c.heldOutQuestions} held out`);
     console.log(`  base reader F1 ${pct(c.baseF1)}   lexical baseline F1 ${pct(c.lexicalF1)}`);
@@ -165,7 +191,8 @@ export async function main(argv: string[]): Promise<QualityResult> {
     return i >= 0 ? argv[i + 1] : undefined;
   };
   const epochs = value('--epochs') === undefined ? undefined : Number(value('--epochs'));
-  if (epochs !== undefined && !(Number.isInteger(epochs) && epochs > 0)) throw new Error(`--epochs: a whole number above 0, got ${value('--epochs')}`);
+  if (epochs !== undefined && !(Number.isInteger(epochs) && epochs > 0))
+    throw new Error(`--epochs: a whole number above 0, got ${value('--epochs')}`);
   const only = value('--only');
   if (only !== undefined && only !== 'demo' && only !== 'factbook') throw new Error(`--only: demo or factbook, got ${only}`);
   const result = await runQualityBench({ epochs, only, baseDir: value('--base') });

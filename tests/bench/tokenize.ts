@@ -64,7 +64,9 @@ async function best(rounds: number, fn: () => Promise<unknown> | unknown): Promi
 export async function benchTokenize(rounds = 5): Promise<TokenizeBenchResult> {
   const parts = mobyDickFiles().map((f) => readFileSync(f, 'utf8'));
   const vocabPath = fileURLToPath(new URL('../../tiny-models/vocab-demo/vocab.txt', import.meta.url));
-  const vocab = readFileSync(vocabPath, 'utf8').split('\n').filter((l, i, all) => l !== '' || i < all.length - 1);
+  const vocab = readFileSync(vocabPath, 'utf8')
+    .split('\n')
+    .filter((l, i, all) => l !== '' || i < all.length - 1);
   const ours = WordPieceTokenizer.fromVocabTxt(vocab.join('\n'), { lowercase: true });
   const native = referenceTokenizer(vocab, true);
   const characters = parts.reduce((n, p) => n + p.length, 0);
@@ -135,6 +137,10 @@ if (process.argv[1] !== undefined && import.meta.url === pathToFileURL(process.a
   const r = await benchTokenize();
   const f = (x: number) => x.toFixed(0).padStart(10);
   console.log(`tokenizer bench: ${r.characters} characters, ${r.tokens} tokens, ${r.windows} windows (Moby-Dick, demo vocabulary)`);
-  console.log(`  tokenize  chars/s   ours ${f(r.oursTokenize)}   native ${f(r.nativeTokenize)}   ratio ${r.tokenizeRatio.toFixed(2)} (target ≥ 0.25)`);
-  console.log(`  features  windows/s ours ${f(r.oursFeatures)}   native ${f(r.nativeFeatures)}   ratio ${r.featuresRatio.toFixed(2)} (target ≥ 0.25)`);
+  console.log(
+    `  tokenize  chars/s   ours ${f(r.oursTokenize)}   native ${f(r.nativeTokenize)}   ratio ${r.tokenizeRatio.toFixed(2)} (target ≥ 0.25)`,
+  );
+  console.log(
+    `  features  windows/s ours ${f(r.oursFeatures)}   native ${f(r.nativeFeatures)}   ratio ${r.featuresRatio.toFixed(2)} (target ≥ 0.25)`,
+  );
 }

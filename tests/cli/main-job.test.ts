@@ -35,7 +35,23 @@ describe('train, eval, predict, score, ask', () => {
   beforeAll(async () => {
     dir = await mkdtemp(join(tmpdir(), 'spanwright-cli-'));
     model = join(dir, 'model');
-    const r = await cli(['train', '--train', DATA, '--eval', DATA, '--base', BASE, '--out', model, '--epochs', '2', '--batch', '4', ...WINDOW, '--json']);
+    const r = await cli([
+      'train',
+      '--train',
+      DATA,
+      '--eval',
+      DATA,
+      '--base',
+      BASE,
+      '--out',
+      model,
+      '--epochs',
+      '2',
+      '--batch',
+      '4',
+      ...WINDOW,
+      '--json',
+    ]);
     expect(r.code, r.stderr).toBe(0);
     trained = lastJson(r.stdout);
   }, 120_000);
@@ -84,7 +100,18 @@ describe('train, eval, predict, score, ask', () => {
     // examples/mini.jsonl is a question file, not a passage file: each line has no "text"
     expect(r.code).toBe(1);
     expect(r.stderr).toMatch(/line 1, field "text"/);
-    const ok = await cli(['ask', '--model', model, '--passages', 'tiny-models/demo/passages', '--question', 'When did the first vessel enter service?', '--top', '2', '--json']);
+    const ok = await cli([
+      'ask',
+      '--model',
+      model,
+      '--passages',
+      'tiny-models/demo/passages',
+      '--question',
+      'When did the first vessel enter service?',
+      '--top',
+      '2',
+      '--json',
+    ]);
     expect(ok.code, ok.stderr).toBe(0);
     const out = lastJson(ok.stdout);
     expect(out.answers).toHaveLength(2);

@@ -14,7 +14,9 @@ describe('the output-folder lock', () => {
   it('refuses a second run while the first holds the folder, and frees it on release', async () => {
     const first = await lockOutputFolder(join(dir, 'a'));
     expect(JSON.parse(readFileSync(join(dir, 'a', LOCK_FILE), 'utf8'))).toMatchObject({ pid: process.pid, what: 'training' });
-    await expect(lockOutputFolder(join(dir, 'a'))).rejects.toThrow(new RegExp(`is in use: another training \\(process ${process.pid}, since .*Give this run its own --out`));
+    await expect(lockOutputFolder(join(dir, 'a'))).rejects.toThrow(
+      new RegExp(`is in use: another training \\(process ${process.pid}, since .*Give this run its own --out`),
+    );
     await first.release();
     expect(existsSync(join(dir, 'a', LOCK_FILE))).toBe(false);
     const again = await lockOutputFolder(join(dir, 'a'));

@@ -42,8 +42,23 @@ afterAll(async () => {
 describe('the static server', () => {
   it('answers folders, odd paths and methods without ending, and keeps serving files', async () => {
     const odd = [
-      '/assets', '/base', '/demo', '/tfjs-wasm', '/empty', '/empty/', '/assets/', '/base/', '/nothing', '/%', '/%E0%A4%A',
-      '/../../etc/passwd', '/%2e%2e/%2e%2e/etc/passwd', '//', '/index.html/', '/assets/app.js/x', `/${'a'.repeat(2000)}`,
+      '/assets',
+      '/base',
+      '/demo',
+      '/tfjs-wasm',
+      '/empty',
+      '/empty/',
+      '/assets/',
+      '/base/',
+      '/nothing',
+      '/%',
+      '/%E0%A4%A',
+      '/../../etc/passwd',
+      '/%2e%2e/%2e%2e/etc/passwd',
+      '//',
+      '/index.html/',
+      '/assets/app.js/x',
+      `/${'a'.repeat(2000)}`,
     ];
     const started = Date.now();
     for (let round = 0; round < 3; round++) {

@@ -19,10 +19,12 @@ describe('writing files', () => {
       { name: 'model.safetensors', bytes: new Uint8Array([1, 2, 3]) },
     ]);
     // the second file's folder does not exist: its write fails after the first was written
-    await expect(writeFilesAtomically(out, [
-      { name: 'config.json', bytes: 'new config' },
-      { name: 'missing/model.safetensors', bytes: new Uint8Array(1000) },
-    ])).rejects.toThrow(/cannot write .*missing\/model\.safetensors \(1000 bytes\): its folder does not exist \(ENOENT\)/);
+    await expect(
+      writeFilesAtomically(out, [
+        { name: 'config.json', bytes: 'new config' },
+        { name: 'missing/model.safetensors', bytes: new Uint8Array(1000) },
+      ]),
+    ).rejects.toThrow(/cannot write .*missing\/model\.safetensors \(1000 bytes\): its folder does not exist \(ENOENT\)/);
     expect(readFileSync(join(out, 'config.json'), 'utf8')).toBe('old config');
     expect(readdirSync(out).sort()).toEqual(['config.json', 'model.safetensors']);
   });
@@ -33,7 +35,9 @@ describe('writing files', () => {
     expect(message).toMatch(/^cannot write .*x\.safetensors \(3\.0 MiB\): the disk is full \(ENOSPC; [\d.]+ (MiB|KiB|bytes) free\)$/);
     // a real failure of the same path: a folder stands where the file should go
     mkdirSync(join(dir, 'taken'));
-    await expect(writeFileAtomically(join(dir, 'taken'), 'x')).rejects.toThrow(/cannot write .*taken \(1 bytes\): a folder has that name \(EISDIR\)|cannot write .*taken/);
+    await expect(writeFileAtomically(join(dir, 'taken'), 'x')).rejects.toThrow(
+      /cannot write .*taken \(1 bytes\): a folder has that name \(EISDIR\)|cannot write .*taken/,
+    );
     expect(readdirSync(dir).filter((n) => n.includes('.tmp-'))).toEqual([]);
   });
 });

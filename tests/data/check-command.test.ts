@@ -27,7 +27,13 @@ async function check(...args: string[]): Promise<{ code: number; stdout: string;
 const ctx = 'The tram depot opens at six. Night trams stop at one.';
 const line = (o: object): string => `${JSON.stringify(o)}\n`;
 const good = line({ id: 'a', passage_id: 'depot', context: ctx, question: 'When does it open?', answers: [{ text: 'six', start: 24 }] });
-const repaired = line({ id: 'b', passage_id: 'depot', context: ctx, question: 'When do night trams stop?', answers: [{ text: 'one', start: 2 }] });
+const repaired = line({
+  id: 'b',
+  passage_id: 'depot',
+  context: ctx,
+  question: 'When do night trams stop?',
+  answers: [{ text: 'one', start: 2 }],
+});
 const broken = line({ id: 'c', passage_id: 'depot', context: ctx, question: 'Where?', answers: [{ text: 'six', start: '24' }] });
 
 describe('spanwright check', () => {

@@ -7,9 +7,26 @@ import type { QARecord } from '../../src/data/record.js';
 
 const ctx = 'Boats, kayaks and "rafts" launch from the slip,\nnot the beach.';
 const records: QARecord[] = [
-  { id: 'k1', passageId: 'slip', context: ctx, question: 'What launches?', answers: [{ text: 'Boats, kayaks', start: 0 }, { text: '"rafts"', start: 18 }], unanswerable: false },
+  {
+    id: 'k1',
+    passageId: 'slip',
+    context: ctx,
+    question: 'What launches?',
+    answers: [
+      { text: 'Boats, kayaks', start: 0 },
+      { text: '"rafts"', start: 18 },
+    ],
+    unanswerable: false,
+  },
   { id: 'k2', passageId: 'slip', context: ctx, question: 'Who owns the slip?', answers: [], unanswerable: true },
-  { id: 'k3', passageId: 'other', context: 'Tabs\tand 日本語 text.', question: 'Which script?', answers: [{ text: '日本語', start: 9 }], unanswerable: false },
+  {
+    id: 'k3',
+    passageId: 'other',
+    context: 'Tabs\tand 日本語 text.',
+    question: 'Which script?',
+    answers: [{ text: '日本語', start: 9 }],
+    unanswerable: false,
+  },
 ];
 const header = CSV_COLUMNS.join(',');
 
@@ -42,7 +59,9 @@ describe('CSV', () => {
   });
 
   it('reads unanswerable as true/false, yes/no, 1/0 and names a bad value', () => {
-    const rows = ['yes', 'NO', '1', 'maybe'].map((flag, i) => `q${i},Text here.,Q${i}?,${flag.toLowerCase().startsWith('n') ? 'Text' : ''},,${flag}`);
+    const rows = ['yes', 'NO', '1', 'maybe'].map(
+      (flag, i) => `q${i},Text here.,Q${i}?,${flag.toLowerCase().startsWith('n') ? 'Text' : ''},,${flag}`,
+    );
     const r = parseDataset(`id,context,question,answer,answer_start,unanswerable\n${rows.join('\n')}\n`, 'x.csv');
     expect(r.records.map((x) => [x.id, x.unanswerable])).toEqual([
       ['q0', true],

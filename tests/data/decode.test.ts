@@ -73,7 +73,11 @@ describe('decodeText', () => {
 
   it('decodes UTF-16 LE and BE after their marks', () => {
     expect(decodeText(bytes(0xff, 0xfe, 0x68, 0x00, 0xe9, 0x00))).toMatchObject({ ok: true, text: 'hé', encoding: 'utf-16le' });
-    expect(decodeText(bytes(0xfe, 0xff, 0x00, 0x68, 0xd8, 0x3d, 0xde, 0x42))).toMatchObject({ ok: true, text: 'h🙂', encoding: 'utf-16be' });
+    expect(decodeText(bytes(0xfe, 0xff, 0x00, 0x68, 0xd8, 0x3d, 0xde, 0x42))).toMatchObject({
+      ok: true,
+      text: 'h🙂',
+      encoding: 'utf-16be',
+    });
   });
 
   it('reports invalid UTF-8 with its byte offset and line', () => {

@@ -7,7 +7,14 @@ import { parseDataset, writeDataset } from '../../src/data/load.js';
 import type { QARecord } from '../../src/data/record.js';
 
 const records: QARecord[] = [
-  { id: 'b', passageId: 'p', context: 'Gate B opens at ten. 🚪', question: 'When?', answers: [{ text: 'ten', start: 16 }], unanswerable: false },
+  {
+    id: 'b',
+    passageId: 'p',
+    context: 'Gate B opens at ten. 🚪',
+    question: 'When?',
+    answers: [{ text: 'ten', start: 16 }],
+    unanswerable: false,
+  },
   { id: 'a', passageId: 'p', context: 'Gate B opens at ten. 🚪', question: 'Who?', answers: [], unanswerable: true },
 ];
 const sha256 = (s: string): string => createHash('sha256').update(s, 'utf8').digest('hex');

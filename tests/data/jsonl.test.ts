@@ -50,13 +50,26 @@ describe('JSONL', () => {
     const r = parseDataset(`${JSON.stringify({ id: 1, context: ctx, question: 'When?', answers: [{ text: 'dusk' }] })}\n`, 'x.jsonl');
     expect(r.problems).toEqual([]);
     expect(r.records).toEqual([
-      { id: '1', passageId: contextPassageId(ctx), context: ctx, question: 'When?', answers: [{ text: 'dusk', start: 17 }], unanswerable: false },
+      {
+        id: '1',
+        passageId: contextPassageId(ctx),
+        context: ctx,
+        question: 'When?',
+        answers: [{ text: 'dusk', start: 17 }],
+        unanswerable: false,
+      },
     ]);
   });
 
   it('warns once per unknown field name, naming the first line', () => {
     const line = (id: string): string =>
-      JSON.stringify({ id, context: 'Lamps are lit at dusk.', question: `When ${id}?`, answers: [{ text: 'dusk', answer_start: 17 }], title: 't' });
+      JSON.stringify({
+        id,
+        context: 'Lamps are lit at dusk.',
+        question: `When ${id}?`,
+        answers: [{ text: 'dusk', answer_start: 17 }],
+        title: 't',
+      });
     const r = parseDataset(`${line('a')}\n${line('b')}\n`, 'x.jsonl');
     expect(r.problems.map((p) => [p.severity, p.code, p.record, p.field])).toEqual([
       ['warning', 'unknown-field', 0, 'title'],
@@ -69,7 +82,9 @@ describe('JSONL', () => {
   it('a line that is not an object is an error for that record only', () => {
     const good = JSON.stringify({ id: 'g', context: 'Lamps are lit at dusk.', question: 'When?', answers: [{ text: 'dusk', start: 17 }] });
     const r = parseDataset(`[1, 2]\n${good}\n`, 'x.jsonl');
-    expect(r.problems.map((p) => [p.record, p.code, p.message])).toEqual([[0, 'layout', 'line 1: each line must be one JSON object (one question)']]);
+    expect(r.problems.map((p) => [p.record, p.code, p.message])).toEqual([
+      [0, 'layout', 'line 1: each line must be one JSON object (one question)'],
+    ]);
     expect(r.records.map((x) => x.id)).toEqual(['g']);
   });
 });

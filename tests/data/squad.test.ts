@@ -20,7 +20,12 @@ const squad2 = {
         {
           context: harbour,
           qas: [
-            { id: 'h1', question: 'How much does the crane lift?', answers: [{ text: 'twelve tonnes', answer_start: 24 }], is_impossible: false },
+            {
+              id: 'h1',
+              question: 'How much does the crane lift?',
+              answers: [{ text: 'twelve tonnes', answer_start: 24 }],
+              is_impossible: false,
+            },
             {
               id: 'h2',
               question: 'Who painted the crane?',
@@ -30,7 +35,17 @@ const squad2 = {
             },
           ],
         },
-        { context: station, qas: [{ id: 'h3', question: 'How often is rain recorded?', answers: [{ text: 'every hour', answer_start: 33 }], is_impossible: false }] },
+        {
+          context: station,
+          qas: [
+            {
+              id: 'h3',
+              question: 'How often is rain recorded?',
+              answers: [{ text: 'every hour', answer_start: 33 }],
+              is_impossible: false,
+            },
+          ],
+        },
       ],
     },
   ],
@@ -42,9 +57,23 @@ describe('SQuAD reader', () => {
     expect(r.format).toBe('squad');
     expect(r.problems).toEqual([]);
     expect(r.records).toEqual<QARecord[]>([
-      { id: 'h1', passageId: 'Harbour/p0', context: harbour, question: 'How much does the crane lift?', answers: [{ text: 'twelve tonnes', start: 24 }], unanswerable: false },
+      {
+        id: 'h1',
+        passageId: 'Harbour/p0',
+        context: harbour,
+        question: 'How much does the crane lift?',
+        answers: [{ text: 'twelve tonnes', start: 24 }],
+        unanswerable: false,
+      },
       { id: 'h2', passageId: 'Harbour/p0', context: harbour, question: 'Who painted the crane?', answers: [], unanswerable: true },
-      { id: 'h3', passageId: 'Harbour/p1', context: station, question: 'How often is rain recorded?', answers: [{ text: 'every hour', start: 33 }], unanswerable: false },
+      {
+        id: 'h3',
+        passageId: 'Harbour/p1',
+        context: station,
+        question: 'How often is rain recorded?',
+        answers: [{ text: 'every hour', start: 33 }],
+        unanswerable: false,
+      },
     ]);
   });
 
@@ -57,7 +86,16 @@ describe('SQuAD reader', () => {
           paragraphs: [
             {
               context: station,
-              qas: [{ id: 's1', question: 'What is recorded?', answers: [{ text: 'rain', answer_start: 28 }, { text: 'rain every hour', answer_start: 28 }] }],
+              qas: [
+                {
+                  id: 's1',
+                  question: 'What is recorded?',
+                  answers: [
+                    { text: 'rain', answer_start: 28 },
+                    { text: 'rain every hour', answer_start: 28 },
+                  ],
+                },
+              ],
             },
           ],
         },
@@ -75,9 +113,23 @@ describe('SQuAD reader', () => {
   it('gives articles that share a title their article index, and honours passage_id', () => {
     const doc = {
       data: [
-        { title: 'Same', paragraphs: [{ context: harbour, qas: [{ id: 'a', question: 'Lift?', answers: [{ text: 'twelve', answer_start: 24 }] }] }] },
-        { title: 'Same', paragraphs: [{ context: station, qas: [{ id: 'b', question: 'Rain?', answers: [{ text: 'rain', answer_start: 28 }] }] }] },
-        { paragraphs: [{ passage_id: 'my-own', context: station, qas: [{ id: 'c', question: 'Rain?', answers: [{ text: 'rain', answer_start: 28 }] }] }] },
+        {
+          title: 'Same',
+          paragraphs: [{ context: harbour, qas: [{ id: 'a', question: 'Lift?', answers: [{ text: 'twelve', answer_start: 24 }] }] }],
+        },
+        {
+          title: 'Same',
+          paragraphs: [{ context: station, qas: [{ id: 'b', question: 'Rain?', answers: [{ text: 'rain', answer_start: 28 }] }] }],
+        },
+        {
+          paragraphs: [
+            {
+              passage_id: 'my-own',
+              context: station,
+              qas: [{ id: 'c', question: 'Rain?', answers: [{ text: 'rain', answer_start: 28 }] }],
+            },
+          ],
+        },
       ],
     };
     const r = parseDataset(JSON.stringify(doc), 'x.json');
@@ -96,7 +148,15 @@ describe('SQuAD reader', () => {
 
   it('reports a paragraph without qas and a question that is not an object, and goes on', () => {
     const doc = {
-      data: [{ title: 'T', paragraphs: [{ context: station }, { context: station, qas: ['q?', { id: 'ok', question: 'Rain?', answers: [{ text: 'rain', answer_start: 28 }] }] }] }],
+      data: [
+        {
+          title: 'T',
+          paragraphs: [
+            { context: station },
+            { context: station, qas: ['q?', { id: 'ok', question: 'Rain?', answers: [{ text: 'rain', answer_start: 28 }] }] },
+          ],
+        },
+      ],
     };
     const r = parseDataset(JSON.stringify(doc), 'x.json');
     expect(r.problems.map((p) => [p.record, p.field, p.code])).toEqual([
@@ -118,9 +178,23 @@ describe('SQuAD writer', () => {
 
   it('keeps passage ids that cannot be derived, and groups passages into articles by title', () => {
     const recs: QARecord[] = [
-      { id: '1', passageId: 'Harbour/p3', context: harbour, question: 'Lift?', answers: [{ text: 'twelve', start: 24 }], unanswerable: false },
+      {
+        id: '1',
+        passageId: 'Harbour/p3',
+        context: harbour,
+        question: 'Lift?',
+        answers: [{ text: 'twelve', start: 24 }],
+        unanswerable: false,
+      },
       { id: '2', passageId: 'ctx-0011', context: station, question: 'Rain?', answers: [], unanswerable: true },
-      { id: '3', passageId: 'Harbour/p0', context: station, question: 'When?', answers: [{ text: 'every hour', start: 33 }], unanswerable: false },
+      {
+        id: '3',
+        passageId: 'Harbour/p0',
+        context: station,
+        question: 'When?',
+        answers: [{ text: 'every hour', start: 33 }],
+        unanswerable: false,
+      },
     ];
     const text = writeSquad(recs);
     const doc = JSON.parse(text) as { version: string; data: Array<{ title: string; paragraphs: unknown[] }> };

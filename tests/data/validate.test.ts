@@ -204,9 +204,9 @@ describe('report helpers', () => {
   });
 
   it('formatProblem names file, record, id and field', () => {
-    expect(
-      formatProblem({ severity: 'error', file: 'a.csv', record: 3, id: 'q4', field: 'answer_start', message: 'row 5: bad' }),
-    ).toBe('a.csv: record 3 (id q4), answer_start: error: row 5: bad');
+    expect(formatProblem({ severity: 'error', file: 'a.csv', record: 3, id: 'q4', field: 'answer_start', message: 'row 5: bad' })).toBe(
+      'a.csv: record 3 (id q4), answer_start: error: row 5: bad',
+    );
     expect(formatProblem({ severity: 'error', file: 'a.json', record: -1, field: '', message: 'bad JSON' })).toBe(
       'a.json: error: bad JSON',
     );

@@ -7,7 +7,15 @@ import { chromium, type BrowserContext } from 'playwright-core';
 
 export const CHROMIUM = process.env.CHROMIUM_PATH ?? '/usr/bin/chromium';
 
-const FLAGS = ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run'];
+const FLAGS = [
+  '--headless',
+  '--no-sandbox',
+  '--disable-gpu',
+  '--disable-background-networking',
+  '--disable-component-update',
+  '--disable-sync',
+  '--no-first-run',
+];
 
 export interface OpenBrowser {
   context: BrowserContext;

@@ -128,7 +128,9 @@ describe('the browser workbench', () => {
     await page.locator('#import-files').setInputFiles(join(DEMO, 'validation.jsonl'));
     const report = page.locator('.import-report[data-file="validation.jsonl"]');
     await report.waitFor();
-    const lines = readFileSync(join(DEMO, 'validation.jsonl'), 'utf8').split('\n').filter((l) => l.trim() !== '').length;
+    const lines = readFileSync(join(DEMO, 'validation.jsonl'), 'utf8')
+      .split('\n')
+      .filter((l) => l.trim() !== '').length;
     await expect(report.textContent()).resolves.toMatch(new RegExp(`${lines} question\\(s\\) added,\\s+0 error\\(s\\)`));
     await expect(page.locator('#stat-questions').textContent()).resolves.toBe(String(lines));
     await shot('data', true);
@@ -173,7 +175,9 @@ describe('the browser workbench', () => {
     await page.locator('#model-files').setInputFiles(['config.json', 'model.safetensors', 'vocab.txt'].map((f) => join(FIXTURE, f)));
     await page.locator('#param-count').waitFor();
     const config = JSON.parse(readFileSync(join(FIXTURE, 'config.json'), 'utf8')) as { hidden_size: number; num_hidden_layers: number };
-    await expect(page.locator('#base-info').textContent()).resolves.toContain(`${config.num_hidden_layers} layers, hidden ${config.hidden_size}`);
+    await expect(page.locator('#base-info').textContent()).resolves.toContain(
+      `${config.num_hidden_layers} layers, hidden ${config.hidden_size}`,
+    );
     await shot('base-reader', true);
   });
 
@@ -191,38 +195,66 @@ describe('the browser workbench', () => {
     await fill('practice-domain-minutes', 0.05);
     await page.locator('#practice-preview').click();
     await page.locator('#practice-sample tbody tr').first().waitFor({ timeout: 60_000 });
-    const rows = await page.locator('#practice-sample tbody tr').evaluateAll((trs) => trs.map((tr) => [...tr.querySelectorAll('td')].map((td) => td.textContent?.trim() ?? '')));
+    const rows = await page
+      .locator('#practice-sample tbody tr')
+      .evaluateAll((trs) => trs.map((tr) => [...tr.querySelectorAll('td')].map((td) => td.textContent?.trim() ?? '')));
     expect(rows.length).toBeGreaterThan(5);
     // every question is a question, and an answered one has its answer marked in the passage beside it
     for (const [question, answer] of rows) {
       expect(question).toMatch(/\?$/);
       expect(answer!.length).toBeGreaterThan(0);
     }
-    const marked = await page.locator('#practice-sample marked-passage').evaluateAll((els) => els.map((el) => el.shadowRoot?.querySelector('mark')?.textContent ?? null));
+    const marked = await page
+      .locator('#practice-sample marked-passage')
+      .evaluateAll((els) => els.map((el) => el.shadowRoot?.querySelector('mark')?.textContent ?? null));
     const answers = rows.map((r) => r[1]);
     marked.forEach((m, i) => {
       if (answers[i] !== 'no answer') expect(m).toBe(answers[i]);
     });
     await page.locator('#practice-start').click();
     await page.locator('#run-status[data-status="running"]').waitFor({ timeout: 60_000 });
-    await page.locator('#practice-done, #run-error').first().waitFor({ timeout: 180_000 }).catch(async (err) => {
-      await shot('practice-timeout');
-      throw err;
-    });
-    if ((await page.locator('#run-error').count()) > 0) throw new Error(`the practice run failed: ${await page.locator('#run-error').textContent()}`);
+    await page
+      .locator('#practice-done, #run-error')
+      .first()
+      .waitFor({ timeout: 180_000 })
+      .catch(async (err) => {
+        await shot('practice-timeout');
+        throw err;
+      });
+    if ((await page.locator('#run-error').count()) > 0)
+      throw new Error(`the practice run failed: ${await page.locator('#run-error').textContent()}`);
     await expect(page.locator('#run-status').getAttribute('data-status')).resolves.toBe('finished');
     await expect(page.locator('#run-start-from').textContent()).resolves.toMatch(/the practised reader/);
   });
 
   it('trains, survives a reload mid-run, continues from the checkpoint and pauses', async () => {
     await screen('training');
-    for (const [name, value] of [['maxLength', 32], ['stride', 4], ['maxQueryLength', 12], ['batchSize', 4], ['gradAccumulation', 1], ['epochs', 1], ['evalEvery', 3]] as const) {
+    for (const [name, value] of [
+      ['maxLength', 32],
+      ['stride', 4],
+      ['maxQueryLength', 12],
+      ['batchSize', 4],
+      ['gradAccumulation', 1],
+      ['epochs', 1],
+      ['evalEvery', 3],
+    ] as const) {
       await setField(name, value);
     }
     await expect(page.locator('#settings-error').count()).resolves.toBe(0);
     await page.locator('#start-run').click();
     trainingSince = await now();
-    await page.waitForFunction(() => Number(document.querySelector('spanwright-app')?.shadowRoot?.querySelector('training-screen')?.shadowRoot?.querySelector('#chart-loss')?.getAttribute('data-points') ?? 0) >= 4, null, { timeout: 120_000 });
+    await page.waitForFunction(
+      () =>
+        Number(
+          document
+            .querySelector('spanwright-app')
+            ?.shadowRoot?.querySelector('training-screen')
+            ?.shadowRoot?.querySelector('#chart-loss')
+            ?.getAttribute('data-points') ?? 0,
+        ) >= 4,
+      null,
+      { timeout: 120_000 },
+    );
     await page.locator('#run-status', { hasText: 'last checkpoint at update' }).waitFor({ timeout: 120_000 });
     expect(await chartPoints('chart-lr')).toBeGreaterThanOrEqual(4);
     expect(await chartPoints('chart-speed')).toBeGreaterThanOrEqual(4);
@@ -245,7 +277,15 @@ describe('the browser workbench', () => {
     trainingSince = await now();
     await page.locator(`#run-status[data-status="running"]`).waitFor();
     await page.waitForFunction(
-      (s) => Number(document.querySelector('spanwright-app')?.shadowRoot?.querySelector('training-screen')?.shadowRoot?.querySelector('#run-status')?.getAttribute('data-update') ?? 0) >= s + 3,
+      (s) =>
+        Number(
+          document
+            .querySelector('spanwright-app')
+            ?.shadowRoot?.querySelector('training-screen')
+            ?.shadowRoot?.querySelector('#run-status')
+            ?.getAttribute('data-update') ?? 0,
+        ) >=
+        s + 3,
       step,
       { timeout: 120_000 },
     );
@@ -261,7 +301,7 @@ describe('the browser workbench', () => {
     checkpointRows = await page.locator('#checkpoint-table tbody tr').count();
     expect(checkpointRows).toBeGreaterThan(0);
     // the stages before fine-tuning kept their own checkpoints: pruning a run touches only its own
-    const stages = new Set(await page.locator('#checkpoint-table tbody td.stage').allTextContents());
+    const stages = new Set((await page.locator('#checkpoint-table tbody td.stage').allTextContents()).map((t) => t.trim()));
     expect([...stages].sort()).toEqual(['fine-tuning', 'masked-LM', 'practice']);
     await expect(page.locator('#storage').textContent()).resolves.toMatch(/Checkpoints take\s+[\d.]+ MB/);
     await shot('checkpoints');
@@ -287,7 +327,9 @@ describe('the browser workbench', () => {
     expect(trainQuestions).toBeGreaterThan(0);
     // a share takes whole passages until it reaches round(share × all), so it overshoots by less than one passage
     const perPassage = new Map<string, number>();
-    for (const line of readFileSync(join(DEMO, 'validation.jsonl'), 'utf8').split('\n').filter((l) => l.trim() !== '')) {
+    for (const line of readFileSync(join(DEMO, 'validation.jsonl'), 'utf8')
+      .split('\n')
+      .filter((l) => l.trim() !== '')) {
       const id = (JSON.parse(line) as { passage_id: string }).passage_id;
       perPassage.set(id, (perPassage.get(id) ?? 0) + 1);
     }
@@ -309,7 +351,11 @@ describe('the browser workbench', () => {
     await collectLongTasks(since, await now());
     expect(await page.locator('learning-curve [role="alert"]').allTextContents()).toEqual([]);
     const rows = await page.locator('#curve-table tbody tr').evaluateAll((trs) =>
-      trs.map((tr) => ({ share: Number(tr.getAttribute('data-share')), questions: Number(tr.getAttribute('data-questions')), f1: tr.getAttribute('data-f1') })),
+      trs.map((tr) => ({
+        share: Number(tr.getAttribute('data-share')),
+        questions: Number(tr.getAttribute('data-questions')),
+        f1: tr.getAttribute('data-f1'),
+      })),
     );
     expect(rows.map((r) => r.share)).toEqual([0.25, 0.5, 1]);
     expect(rows[2]!.questions).toBe(trainQuestions);
@@ -342,7 +388,7 @@ describe('the browser workbench', () => {
     await shot('ask', true);
   });
 
-  it('exports the fine-tuned model: the download parses as safetensors, and model.onnx runs to the engine\'s logits', async () => {
+  it("exports the fine-tuned model: the download parses as safetensors, and model.onnx runs to the engine's logits", async () => {
     await screen('export');
     await page.locator('#export-fp32').click();
     const link = page.locator('a[data-file="model.safetensors"]');
@@ -386,11 +432,19 @@ describe('the browser workbench', () => {
     const { params } = ReaderParams.fromNamed(config, exported);
     const want = tf.tidy(() => {
       const int = (v: number[]) => tf.tensor2d(v, [2, 10], 'int32');
-      const { start, end } = spanLogits(params, config, { inputIds: int(ids), attentionMask: int(mask), tokenTypeIds: int(types) }, { training: false });
+      const { start, end } = spanLogits(
+        params,
+        config,
+        { inputIds: int(ids), attentionMask: int(mask), tokenTypeIds: int(types) },
+        { training: false },
+      );
       return { start: start.dataSync(), end: end.dataSync() };
     });
     params.dispose();
-    for (const [name, engine] of [['start_logits', want.start], ['end_logits', want.end]] as const) {
+    for (const [name, engine] of [
+      ['start_logits', want.start],
+      ['end_logits', want.end],
+    ] as const) {
       const onnx = got[name]!.data as Float32Array;
       expect(onnx.length).toBe(engine.length);
       expect(Math.max(...engine) - Math.min(...engine)).toBeGreaterThan(0.5); // something to compare: measured spread 2.1 (start), 1.6 (end)
@@ -416,7 +470,9 @@ describe('the browser workbench', () => {
     await page.locator('#use-shipped').click();
     await page.locator('#base-info h3').filter({ hasNotText: before }).waitFor({ timeout: 60_000 });
     expect(await page.locator('#base-error').count()).toBe(0);
-    const want = paramCount(configFromHf(JSON.parse(readFileSync(join(SHIPPED, 'config.json'), 'utf8')), 'tiny-models/base/config.json')).total;
+    const want = paramCount(
+      configFromHf(JSON.parse(readFileSync(join(SHIPPED, 'config.json'), 'utf8')), 'tiny-models/base/config.json'),
+    ).total;
     const shown = Number(/^[\d,]+/.exec(((await page.locator('#param-count').textContent()) ?? '').trim())?.[0].replace(/,/g, ''));
     expect(shown).toBe(want);
     await shot('base-reader-shipped');

@@ -165,7 +165,9 @@ describe('decodeQuestion', () => {
 
   it('names the record and window when logits do not fit the window', () => {
     const w = makeWindow('q7', 2, CONTEXT, 0, 10);
-    expect(() => decodeQuestion(CONTEXT, [w], [makeLogits(15, {}, {})])).toThrow(/record "q7" window 2: startLogits has 15 values, expected 16/);
+    expect(() => decodeQuestion(CONTEXT, [w], [makeLogits(15, {}, {})])).toThrow(
+      /record "q7" window 2: startLogits has 15 values, expected 16/,
+    );
   });
 });
 
@@ -178,11 +180,7 @@ describe('predictAll', () => {
   ];
 
   it('groups windows by record and returns answers, best spans and score differences', () => {
-    const features = [
-      makeWindow('r1', 0, CONTEXT, 0, 6),
-      makeWindow('r2', 0, other, 0, 5),
-      makeWindow('r1', 1, CONTEXT, 4, 10),
-    ];
+    const features = [makeWindow('r1', 0, CONTEXT, 0, 6), makeWindow('r2', 0, other, 0, 5), makeWindow('r1', 1, CONTEXT, 4, 10)];
     const logits = [
       makeLogits(16, { 0: 0 }, { 0: 0 }), // r1 window 0: null 0, nothing better than −10
       // r2: "100 degrees" (words 3, 4) 3 + 3 = 6 but null 4 + 4 = 8 → diff 2 → ""

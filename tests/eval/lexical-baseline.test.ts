@@ -6,8 +6,7 @@ import { contextSentences, lexicalAnswer, lexicalPredictions } from '../../src/e
 import type { QARecord } from '../../src/data/record.js';
 
 const CONTEXT =
-  'The harbour opens at six. The night ferry leaves from pier four at midnight! Tickets are sold on board?\n' +
-  'Dogs travel free';
+  'The harbour opens at six. The night ferry leaves from pier four at midnight! Tickets are sold on board?\n' + 'Dogs travel free';
 
 describe('contextSentences', () => {
   it('cuts at . ! ? before white space and at line breaks, trimmed', () => {
@@ -91,10 +90,19 @@ describe('lexicalAnswer', () => {
 });
 
 describe('lexicalPredictions', () => {
-  const record = (id: string, question: string): QARecord => ({ id, passageId: 'p', context: CONTEXT, question, answers: [], unanswerable: true });
+  const record = (id: string, question: string): QARecord => ({
+    id,
+    passageId: 'p',
+    context: CONTEXT,
+    question,
+    answers: [],
+    unanswerable: true,
+  });
 
   it('scores records, with minCoverage − coverage as the score difference', () => {
-    const out = lexicalPredictions([record('a', 'When does the night ferry leave from pier four?'), record('b', 'What is it?')], { minCoverage: 0.4 });
+    const out = lexicalPredictions([record('a', 'When does the night ferry leave from pier four?'), record('b', 'What is it?')], {
+      minCoverage: 0.4,
+    });
     expect(out.predictions).toEqual({ a: 'midnight', b: '' });
     expect(out.bestSpans['a']).toBe('midnight');
     expect(out.scoreDiffs['b']).toBeCloseTo(0.4, 12);

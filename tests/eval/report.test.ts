@@ -73,7 +73,10 @@ describe('buildReport', () => {
 
   it('the tuned threshold can change the outcome counts', () => {
     // one answerable question whose right span sits behind a null score 1 higher
-    const g: ReportQuestion[] = [{ id: 'a', answers: ['x'] }, { id: 'b', answers: [] }];
+    const g: ReportQuestion[] = [
+      { id: 'a', answers: ['x'] },
+      { id: 'b', answers: [] },
+    ];
     // all "": EM 1 (b); pass a (diff 1) → 2; pass b (diff 3) → 1. Best 2 at threshold 1.
     const r = buildReport(g, { a: '', b: '' }, { bestSpans: { a: 'x', b: 'y' }, scoreDiffs: { a: 1, b: 3 } });
     expect(r.counts['false-no-answer']).toBe(1);

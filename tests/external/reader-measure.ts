@@ -36,14 +36,19 @@ export function loadBaseReader(dir = BASE_DIR): Reader {
   const name = dir === BASE_DIR ? 'tiny-models/base' : dir;
   const absent = files.filter((f) => !existsSync(join(dir, f)));
   if (absent.length > 0) {
-    throw new Error(`${name} is missing (${absent.join(', ')} not found in ${dir}); build it with the recipe in tiny-models/recipe/build-base.ts`);
+    throw new Error(
+      `${name} is missing (${absent.join(', ')} not found in ${dir}); build it with the recipe in tiny-models/recipe/build-base.ts`,
+    );
   }
-  const { params, config, tokenizer } = loadCheckpointDir({
-    configJson: readFileSync(join(dir, 'config.json'), 'utf8'),
-    safetensors: new Uint8Array(readFileSync(join(dir, 'model.safetensors'))),
-    vocab: { file: 'vocab.txt', text: readFileSync(join(dir, 'vocab.txt'), 'utf8') },
-    names: { config: join(dir, 'config.json'), weights: join(dir, 'model.safetensors'), vocab: join(dir, 'vocab.txt') },
-  }, { seed: 1 });
+  const { params, config, tokenizer } = loadCheckpointDir(
+    {
+      configJson: readFileSync(join(dir, 'config.json'), 'utf8'),
+      safetensors: new Uint8Array(readFileSync(join(dir, 'model.safetensors'))),
+      vocab: { file: 'vocab.txt', text: readFileSync(join(dir, 'vocab.txt'), 'utf8') },
+      names: { config: join(dir, 'config.json'), weights: join(dir, 'model.safetensors'), vocab: join(dir, 'vocab.txt') },
+    },
+    { seed: 1 },
+  );
   return { params, config, tokenizer, name };
 }
 
@@ -154,19 +159,40 @@ export async function measureStages(
         vocab: { file: 'vocab.txt', text: readFileSync(file('vocab.txt'), 'utf8') },
       },
     });
-    const config = trainConfig({ ...settings.windows, learningRate: suggestedLearningRate(info.config.hiddenSize), ...settings.fineTune, seed: settings.seed });
+    const config = trainConfig({
+      ...settings.windows,
+      learningRate: suggestedLearningRate(info.config.hiddenSize),
+      ...settings.fineTune,
+      seed: settings.seed,
+    });
     const passages = passagesOf([...data.train]);
     const updates = { domain: 0, practice: 0, fineTune: 0 };
     if (choice.match) session.setQuestionMatch({ level: 'words+sentence' });
     if (choice.domainMinutes > 0) {
-      updates.domain = (await session.domainPretrain({ runId: 'domain', passages, config: trainConfig(domainTrainSettings(config)), minutes: choice.domainMinutes })).totalUpdates;
+      updates.domain = (
+        await session.domainPretrain({
+          runId: 'domain',
+          passages,
+          config: trainConfig(domainTrainSettings(config)),
+          minutes: choice.domainMinutes,
+        })
+      ).totalUpdates;
     }
     if (choice.practice) {
       const practice = trainConfig(practiceTrainSettings(config, { epochs: 1, maxLength: settings.practiceMaxLength }));
-      updates.practice = (await session.practice({ runId: 'practice', passages, questions: { perPassage: 40, seed: settings.seed }, config: practice })).totalUpdates;
+      updates.practice = (
+        await session.practice({ runId: 'practice', passages, questions: { perPassage: 40, seed: settings.seed }, config: practice })
+      ).totalUpdates;
     }
-    updates.fineTune = (await session.fineTune({ runId: 'fine-tune', train: [...data.train], validation: [], config, datasetHash: 'not-stored' })).totalUpdates;
-    const { summary, threshold } = session.scoreWithTrainedCut({ model: 'tuned', tuneOn: data.train.slice(0, 400), records: [...data.heldOut], ...settings.windows });
+    updates.fineTune = (
+      await session.fineTune({ runId: 'fine-tune', train: [...data.train], validation: [], config, datasetHash: 'not-stored' })
+    ).totalUpdates;
+    const { summary, threshold } = session.scoreWithTrainedCut({
+      model: 'tuned',
+      tuneOn: data.train.slice(0, 400),
+      records: [...data.heldOut],
+      ...settings.windows,
+    });
     return { scores: summary, threshold, updates, minutes: (performance.now() - started) / 60000 };
   } finally {
     session.dispose();

@@ -24,7 +24,9 @@ beforeAll(async () => {
 });
 
 /** A directory made here: the engine's own fresh weights, optionally altered by `edit`. */
-function madeDir(edit: (files: CheckpointDirFiles, named: Map<string, { shape: number[]; data: Float32Array }>) => void = () => {}): CheckpointDirFiles {
+function madeDir(
+  edit: (files: CheckpointDirFiles, named: Map<string, { shape: number[]; data: Float32Array }>) => void = () => {},
+): CheckpointDirFiles {
   const config = presetConfig('tiny', VOCAB.length, { hiddenSize: 16, numHeads: 2, intermediateSize: 32, maxPositions: 16 });
   const params = ReaderParams.init(config, 2);
   const named = params.toNamed();
@@ -64,7 +66,12 @@ describe('checkpoint directory import', () => {
       const [B, T] = expected.start_logits.shape as [number, number];
       const input = (k: keyof typeof expected.inputs) => tf.tensor2d(expected.inputs[k].flat(), [B, T], 'int32');
       const [start, end] = tf.tidy(() => {
-        const out = spanLogits(params, config, { inputIds: input('input_ids'), tokenTypeIds: input('token_type_ids'), attentionMask: input('attention_mask') }, { training: false });
+        const out = spanLogits(
+          params,
+          config,
+          { inputIds: input('input_ids'), tokenTypeIds: input('token_type_ids'), attentionMask: input('attention_mask') },
+          { training: false },
+        );
         return [Array.from(out.start.dataSync()), Array.from(out.end.dataSync())];
       });
       const firstOff = (got: number[], want: number[]) => {
@@ -116,7 +123,9 @@ describe('checkpoint directory import', () => {
     const files = madeDir((_, named) => {
       named.set('bert.encoder.layer.1.output.dense.weight', { shape: [16, 16], data: new Float32Array(256) });
     });
-    expect(() => loadCheckpointDir(files)).toThrow(/tensor "bert\.encoder\.layer\.1\.output\.dense\.weight" has shape \[16, 16\], the config expects \[16, 32\]/);
+    expect(() => loadCheckpointDir(files)).toThrow(
+      /tensor "bert\.encoder\.layer\.1\.output\.dense\.weight" has shape \[16, 16\], the config expects \[16, 32\]/,
+    );
   });
 
   it('refuses absurd sizes in config.json, and a layer count the weights do not hold, before building anything', () => {
@@ -145,7 +154,9 @@ describe('checkpoint directory import', () => {
       named.set('bert.encoder.layer.0.attention.self.query.weight', { shape: t.shape, data });
     });
     files.names = { weights: 'mine/model.safetensors' };
-    expect(() => loadCheckpointDir(files)).toThrow(/^mine\/model\.safetensors: tensor "bert\.encoder\.layer\.0\.attention\.self\.query\.weight" holds 2 value\(s\) that are NaN or infinite \(the first at index 5\)/);
+    expect(() => loadCheckpointDir(files)).toThrow(
+      /^mine\/model\.safetensors: tensor "bert\.encoder\.layer\.0\.attention\.self\.query\.weight" holds 2 value\(s\) that are NaN or infinite \(the first at index 5\)/,
+    );
   });
 
   it('a damaged safetensors file is named in the error', () => {

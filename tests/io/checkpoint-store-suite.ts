@@ -69,7 +69,9 @@ export function checkpointStoreSuite(name: string, makeHarness: () => Promise<St
         const { id } = await h.store.save(sampleCheckpoint(3));
         await h.corrupt(id);
         await expect(h.store.load(id)).rejects.toThrow(CheckpointError);
-        await expect(h.store.load(id)).rejects.toThrow(new RegExp(`checkpoint "${id}": checksum mismatch: stored SHA-256 [0-9a-f]{64}, the data now hashes to [0-9a-f]{64}`));
+        await expect(h.store.load(id)).rejects.toThrow(
+          new RegExp(`checkpoint "${id}": checksum mismatch: stored SHA-256 [0-9a-f]{64}, the data now hashes to [0-9a-f]{64}`),
+        );
       }),
     );
 

@@ -63,7 +63,11 @@ describe('SHA-256', () => {
 
   it('prune choices: ties in F1 keep the later step; unranked checkpoints rank last', async () => {
     const summaries = await Promise.all(
-      [[1, 50], [2, 50], [3, undefined]].map(async ([step, f1], i) => (await encodeCheckpoint(`s${i}`, sampleCheckpoint(step!, f1))).summary),
+      [
+        [1, 50],
+        [2, 50],
+        [3, undefined],
+      ].map(async ([step, f1], i) => (await encodeCheckpoint(`s${i}`, sampleCheckpoint(step!, f1))).summary),
     );
     expect(choosePrunable(summaries, { keepBest: 1 })).toEqual(['s0', 's2']);
     expect(() => choosePrunable(summaries, { keepLast: -1 })).toThrow(/keepLast must be a non-negative integer/);
@@ -126,7 +130,9 @@ describe('IndexedDB store: quota', () => {
 
   it('refuses before writing when the storage estimate shows too little room', async () => {
     const store = new IdbCheckpointStore({ dbName: 'test-estimate', estimate: async () => ({ usage: 1000, quota: 1200 }) });
-    await expect(store.save(sampleCheckpoint(1))).rejects.toThrow(/not enough browser storage: the checkpoint needs .* MB, 0\.0 MB of the 0\.0 MB quota is free/);
+    await expect(store.save(sampleCheckpoint(1))).rejects.toThrow(
+      /not enough browser storage: the checkpoint needs .* MB, 0\.0 MB of the 0\.0 MB quota is free/,
+    );
     expect(await store.list()).toEqual([]);
     const roomy = new IdbCheckpointStore({ dbName: 'test-estimate', estimate: async () => ({ usage: 0, quota: 1e9 }) });
     await roomy.save(sampleCheckpoint(1));

@@ -16,7 +16,11 @@ const CHECKPOINT = join(ROOT, 'tests', 'reference', 'fixtures', 'checkpoint');
 
 async function cli(...args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
   try {
-    const { stdout, stderr } = await run(process.execPath, [join(ROOT, 'node_modules', 'tsx', 'dist', 'cli.mjs'), join(ROOT, 'src', 'cli', 'main.ts'), ...args], { cwd: ROOT });
+    const { stdout, stderr } = await run(
+      process.execPath,
+      [join(ROOT, 'node_modules', 'tsx', 'dist', 'cli.mjs'), join(ROOT, 'src', 'cli', 'main.ts'), ...args],
+      { cwd: ROOT },
+    );
     return { code: 0, stdout, stderr };
   } catch (err) {
     const e = err as { code: number; stdout: string; stderr: string };
@@ -43,7 +47,9 @@ describe('spanwright inspect', () => {
     // a sparse file: a header for one F32 tensor of 640 M values (2.56 GB), the data all zeros on no disk blocks
     const huge = join(work, 'huge.safetensors');
     const values = 640_000_000;
-    const header = new TextEncoder().encode(JSON.stringify({ w: { dtype: 'F32', shape: [values], data_offsets: [0, values * 4] } }).padEnd(64, ' '));
+    const header = new TextEncoder().encode(
+      JSON.stringify({ w: { dtype: 'F32', shape: [values], data_offsets: [0, values * 4] } }).padEnd(64, ' '),
+    );
     const head = new Uint8Array(8 + header.length);
     new DataView(head.buffer).setBigUint64(0, BigInt(header.length), true);
     head.set(header, 8);
@@ -51,13 +57,24 @@ describe('spanwright inspect', () => {
     await truncate(huge, 8 + header.length + values * 4);
     const r = await cli('inspect', huge, '--json');
     expect(r.stderr).toBe('');
-    expect(JSON.parse(r.stdout.trim().split('\n').pop()!)).toMatchObject({ bytes: 8 + header.length + values * 4, tensorCount: 1, parameterCount: values });
+    expect(JSON.parse(r.stdout.trim().split('\n').pop()!)).toMatchObject({
+      bytes: 8 + header.length + values * 4,
+      tensorCount: 1,
+      parameterCount: values,
+    });
     await rm(huge);
   });
 
   it('lists a header of 300 000 tensors (more than a spread call takes) and survives a closed pipe', async () => {
     const many = join(work, 'many.safetensors');
-    const entries = Array.from({ length: 300_000 }, (_, i) => [`t${i}`, { dtype: 'F32', shape: [0], data: new Float32Array(0) }] as [string, { dtype: 'F32'; shape: number[]; data: Float32Array }]);
+    const entries = Array.from(
+      { length: 300_000 },
+      (_, i) =>
+        [`t${i}`, { dtype: 'F32', shape: [0], data: new Float32Array(0) }] as [
+          string,
+          { dtype: 'F32'; shape: number[]; data: Float32Array },
+        ],
+    );
     await writeFile(many, writeSafetensors(entries));
     const spanwright = `"${process.execPath}" "${join(ROOT, 'node_modules', 'tsx', 'dist', 'cli.mjs')}" "${join(ROOT, 'src', 'cli', 'main.ts')}"`;
     const r = await runShell(`${spanwright} inspect "${many}" --json`);
@@ -82,7 +99,12 @@ describe('spanwright inspect', () => {
     );
     const ok = await cli('inspect', good, '--json');
     expect(ok.code).toBe(0);
-    const listing = JSON.parse(ok.stdout.trim().split('\n').pop()!) as { tensorCount: number; parameterCount: number; metadata: object; tensors: Array<{ name: string; dtype: string; shape: number[]; bytes: number }> };
+    const listing = JSON.parse(ok.stdout.trim().split('\n').pop()!) as {
+      tensorCount: number;
+      parameterCount: number;
+      metadata: object;
+      tensors: Array<{ name: string; dtype: string; shape: number[]; bytes: number }>;
+    };
     expect(listing.tensorCount).toBe(2);
     expect(listing.parameterCount).toBe(8);
     expect(listing.metadata).toEqual({ note: 'hello' });
@@ -96,28 +118,45 @@ describe('spanwright inspect', () => {
     await writeFile(bad, bytes.subarray(0, bytes.length - 4)); // cut short
     const failed = await cli('inspect', bad);
     expect(failed.code).toBe(1);
-    expect(failed.stderr).toMatch(/spanwright: .*bad\.safetensors: tensor "a\.weight\.scale", field data_offsets: end 20 is past the data section's 16 bytes/);
+    expect(failed.stderr).toMatch(
+      /spanwright: .*bad\.safetensors: tensor "a\.weight\.scale", field data_offsets: end 20 is past the data section's 16 bytes/,
+    );
   });
 });
 
 describe('spanwright export', () => {
-  it.skipIf(!existsSync(join(CHECKPOINT, 'model.safetensors')))('exports the PyTorch-written checkpoint with fp16, int8 and ONNX', async () => {
-    const out = join(work, 'exported');
-    const res = await cli('export', '--model', CHECKPOINT, '--out', out, '--fp16', '--int8', '--onnx', '--json');
-    expect(res.stderr).not.toMatch(/internal error/);
-    expect(res.code).toBe(0);
-    const report = JSON.parse(res.stdout.trim().split('\n').pop()!) as { files: Array<{ name: string }>; int8: { maxAbsError: number; drift: { maxAbsLogitDiff: number } }; notices: string[] };
-    expect((await readdir(out)).sort()).toEqual(
-      ['MODEL_CARD.md', 'config.json', 'model.int8.onnx', 'model.int8.safetensors', 'model.onnx', 'model.safetensors', 'vocab.txt'].sort(),
-    );
-    expect(report.int8.maxAbsError).toBeGreaterThan(0);
-    expect(report.int8.drift.maxAbsLogitDiff).toBeGreaterThan(0);
-    expect(report.notices.join(' ')).toMatch(/no MLM head/); // the fixture carries no cls.* tensors
-    const header = readSafetensorsHeader(new Uint8Array(await readFile(join(out, 'model.safetensors'))));
-    expect(new Set(header.entries.map((e) => e.dtype))).toEqual(new Set(['F16']));
-    // refuses to overwrite without --force
-    const again = await cli('export', '--model', CHECKPOINT, '--out', out);
-    expect(again.code).toBe(1);
-    expect(again.stderr).toMatch(/already holds config\.json.*pass --force/);
-  });
+  it.skipIf(!existsSync(join(CHECKPOINT, 'model.safetensors')))(
+    'exports the PyTorch-written checkpoint with fp16, int8 and ONNX',
+    async () => {
+      const out = join(work, 'exported');
+      const res = await cli('export', '--model', CHECKPOINT, '--out', out, '--fp16', '--int8', '--onnx', '--json');
+      expect(res.stderr).not.toMatch(/internal error/);
+      expect(res.code).toBe(0);
+      const report = JSON.parse(res.stdout.trim().split('\n').pop()!) as {
+        files: Array<{ name: string }>;
+        int8: { maxAbsError: number; drift: { maxAbsLogitDiff: number } };
+        notices: string[];
+      };
+      expect((await readdir(out)).sort()).toEqual(
+        [
+          'MODEL_CARD.md',
+          'config.json',
+          'model.int8.onnx',
+          'model.int8.safetensors',
+          'model.onnx',
+          'model.safetensors',
+          'vocab.txt',
+        ].sort(),
+      );
+      expect(report.int8.maxAbsError).toBeGreaterThan(0);
+      expect(report.int8.drift.maxAbsLogitDiff).toBeGreaterThan(0);
+      expect(report.notices.join(' ')).toMatch(/no MLM head/); // the fixture carries no cls.* tensors
+      const header = readSafetensorsHeader(new Uint8Array(await readFile(join(out, 'model.safetensors'))));
+      expect(new Set(header.entries.map((e) => e.dtype))).toEqual(new Set(['F16']));
+      // refuses to overwrite without --force
+      const again = await cli('export', '--model', CHECKPOINT, '--out', out);
+      expect(again.code).toBe(1);
+      expect(again.stderr).toMatch(/already holds config\.json.*pass --force/);
+    },
+  );
 });

@@ -75,14 +75,24 @@ describe('exportModel', () => {
       card: { baseModel: 'tiny test reader', date: '2025-01-02T03:04:05Z', int8: { drift } },
     });
     const byName = new Map(files.map((f) => [f.name, f.bytes]));
-    expect([...byName.keys()]).toEqual(['config.json', 'model.safetensors', 'vocab.txt', 'model.int8.safetensors', 'model.onnx', 'model.int8.onnx', 'MODEL_CARD.md']);
+    expect([...byName.keys()]).toEqual([
+      'config.json',
+      'model.safetensors',
+      'vocab.txt',
+      'model.int8.safetensors',
+      'model.onnx',
+      'model.int8.onnx',
+      'MODEL_CARD.md',
+    ]);
     const fp16 = readSafetensors(byName.get('model.safetensors')!);
     expect(new Set(fp16.dtypes.values())).toEqual(new Set(['F16']));
     const w = named.get('bert.encoder.layer.0.intermediate.dense.weight')!;
     const w16 = fp16.tensors.get('bert.encoder.layer.0.intermediate.dense.weight')!;
     w.data.forEach((v, i) => expect(Math.abs(w16.data[i]! - v)).toBeLessThanOrEqual(Math.abs(v) * 2 ** -11 + 2 ** -25)); // binary16 rounding
     const int8 = readInt8Safetensors(byName.get('model.int8.safetensors')!);
-    expect(Array.from(dequantizeModel(int8).get('qa_outputs.weight')!.data)).toEqual(Array.from(dequantizeModel(quantized).get('qa_outputs.weight')!.data));
+    expect(Array.from(dequantizeModel(int8).get('qa_outputs.weight')!.data)).toEqual(
+      Array.from(dequantizeModel(quantized).get('qa_outputs.weight')!.data),
+    );
     expect(report.int8!.length).toBe(quantized.report.length);
     for (const name of ['model.onnx', 'model.int8.onnx']) {
       const session = await ort.InferenceSession.create(byName.get(name)!, { logSeverityLevel: 3 });

@@ -30,8 +30,22 @@ describe('int8 measurements', () => {
   const exact = dequantizeModel(quantizeModel(fp32));
 
   const records: QARecord[] = [
-    { id: 'q1', passageId: 'p1', context: 'the old stone bridge was built in 1 7 2 0 .', question: 'when was the bridge built ?', answers: [{ text: '1 7 2 0', start: 34 }], unanswerable: false },
-    { id: 'q2', passageId: 'p1', context: 'the old stone bridge was built in 1 7 2 0 .', question: 'who built the tower ?', answers: [], unanswerable: true },
+    {
+      id: 'q1',
+      passageId: 'p1',
+      context: 'the old stone bridge was built in 1 7 2 0 .',
+      question: 'when was the bridge built ?',
+      answers: [{ text: '1 7 2 0', start: 34 }],
+      unanswerable: false,
+    },
+    {
+      id: 'q2',
+      passageId: 'p1',
+      context: 'the old stone bridge was built in 1 7 2 0 .',
+      question: 'who built the tower ?',
+      answers: [],
+      unanswerable: true,
+    },
   ];
   const builder = new FeatureBuilder(tokenizer, { maxLen: 24, stride: 4, maxQueryTokens: 8 });
   const windows = records.flatMap((r) => builder.build(r).features);

@@ -55,7 +55,9 @@ describe('int8 quantization', () => {
     expect(r!.maxAbsError).toBeGreaterThan(0);
     expect(r!.maxAbsError).toBeLessThanOrEqual(r!.bound * (1 + 1e-6));
     // the biases pass through untouched
-    expect(dequantizeModel(model).get('bert.encoder.layer.0.intermediate.dense.bias')).toBe(named.get('bert.encoder.layer.0.intermediate.dense.bias'));
+    expect(dequantizeModel(model).get('bert.encoder.layer.0.intermediate.dense.bias')).toBe(
+      named.get('bert.encoder.layer.0.intermediate.dense.bias'),
+    );
   });
 
   it('quantizes exactly the Linear weights and embedding tables of the reader', () => {
@@ -92,7 +94,9 @@ describe('int8 quantization', () => {
     expect(header.metadata['spanwright.quantization']).toBe('int8-per-row-symmetric');
     expect(Array.from(tensors.get('qa_outputs.weight')!.data as Int8Array)).toEqual([64, -127, 21, 127, 64, -64]);
     const back = readInt8Safetensors(bytes);
-    expect(Array.from(dequantizeModel(back).get('qa_outputs.weight')!.data)).toEqual(Array.from(dequantizeModel(model).get('qa_outputs.weight')!.data));
+    expect(Array.from(dequantizeModel(back).get('qa_outputs.weight')!.data)).toEqual(
+      Array.from(dequantizeModel(model).get('qa_outputs.weight')!.data),
+    );
   });
 
   it('names the missing or misshapen scale tensor of a damaged int8 file', () => {
@@ -100,7 +104,12 @@ describe('int8 quantization', () => {
     expect(() => readInt8Safetensors(writeSafetensors([['a.weight', q]]), 'bad.safetensors')).toThrow(
       'bad.safetensors: tensor "a.weight" is I8 but "a.weight.scale" (F32) is missing',
     );
-    const wrongScale = writeSafetensors([['a.weight', q], ['a.weight.scale', { dtype: 'F32', shape: [3], data: new Float32Array(3) }]]);
-    expect(() => readInt8Safetensors(wrongScale, 'bad.safetensors')).toThrow(/"a.weight.scale" has shape \[3\], expected \[2\] \(one scale per row\)/);
+    const wrongScale = writeSafetensors([
+      ['a.weight', q],
+      ['a.weight.scale', { dtype: 'F32', shape: [3], data: new Float32Array(3) }],
+    ]);
+    expect(() => readInt8Safetensors(wrongScale, 'bad.safetensors')).toThrow(
+      /"a.weight.scale" has shape \[3\], expected \[2\] \(one scale per row\)/,
+    );
   });
 });

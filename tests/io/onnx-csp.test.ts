@@ -92,11 +92,15 @@ describe('ONNX export without run-time code generation', () => {
         `writeFileSync(dir + '/model.onnx', exportOnnx(config, named));`,
         `writeFileSync(dir + '/model.int8.onnx', exportOnnx(config, named, { int8: true }));`,
       ].join('\n');
-      const run = spawnSync(process.execPath, ['--disallow-code-generation-from-strings', '--import', 'tsx', '--input-type=module', '-e', child], {
-        cwd: ROOT,
-        encoding: 'utf8',
-        timeout: 60_000,
-      });
+      const run = spawnSync(
+        process.execPath,
+        ['--disallow-code-generation-from-strings', '--import', 'tsx', '--input-type=module', '-e', child],
+        {
+          cwd: ROOT,
+          encoding: 'utf8',
+          timeout: 60_000,
+        },
+      );
       expect(run.stderr).toBe('');
       expect(run.status).toBe(0);
       const here = { fp32: exportOnnx(config, named), int8: exportOnnx(config, named, { int8: true }) };

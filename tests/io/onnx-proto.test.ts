@@ -203,7 +203,9 @@ describe('ONNX writer read back by protobufjs reflection', () => {
     spec.initializers = [{ name: 't', dims: [2, 3], dataType: DataType.FLOAT, rawData: new Uint8Array(24) }];
     const bytes = encodeModelProto(spec);
     // TensorProto.dims = 1, wire type 2: key 0x0a, length 2, then the varints 2 and 3
-    const at = bytes.findIndex((_, i) => bytes[i] === 0x0a && bytes[i + 1] === 2 && bytes[i + 2] === 2 && bytes[i + 3] === 3 && bytes[i + 4] === 0x10);
+    const at = bytes.findIndex(
+      (_, i) => bytes[i] === 0x0a && bytes[i + 1] === 2 && bytes[i + 2] === 2 && bytes[i + 3] === 3 && bytes[i + 4] === 0x10,
+    );
     expect(at).toBeGreaterThan(0);
   });
 

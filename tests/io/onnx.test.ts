@@ -13,7 +13,14 @@ import type { NamedTensors } from '../../src/io/tensors.js';
 
 /** A small reader with weights spread wider than the init's σ = 0.02, so every layer matters. */
 function testModel(activation: ReaderConfig['activation']): { config: ReaderConfig; named: NamedTensors } {
-  const config = presetConfig('tiny', 64, { hiddenSize: 32, numHeads: 4, intermediateSize: 64, numLayers: 2, maxPositions: 24, activation });
+  const config = presetConfig('tiny', 64, {
+    hiddenSize: 32,
+    numHeads: 4,
+    intermediateSize: 64,
+    numLayers: 2,
+    maxPositions: 24,
+    activation,
+  });
   const params = ReaderParams.init(config, 11);
   const named = params.toNamed();
   params.dispose();
@@ -53,7 +60,10 @@ function engineLogits(config: ReaderConfig, named: NamedTensors): { start: Float
   }
 }
 
-async function onnxLogits(bytes: Uint8Array, options: ort.InferenceSession.SessionOptions = {}): Promise<{ start: Float32Array; end: Float32Array }> {
+async function onnxLogits(
+  bytes: Uint8Array,
+  options: ort.InferenceSession.SessionOptions = {},
+): Promise<{ start: Float32Array; end: Float32Array }> {
   const session = await ort.InferenceSession.create(bytes, { logSeverityLevel: 3, ...options });
   const feed = (v: number[]) => new ort.Tensor('int64', BigInt64Array.from(v.map(BigInt)), [B, T]);
   const out = await session.run({ input_ids: feed(ids), attention_mask: feed(mask), token_type_ids: feed(types) });

@@ -60,7 +60,11 @@ describe('safetensors: bad files fail with a located error', () => {
     ['entry not an object', () => craft({ w: [1, 2] }), /tensor "w": must be an object/],
     ['unknown dtype', () => craft({ w: t('F8', [1], [0, 1]) }, 1), /tensor "w", field dtype: unknown dtype "F8"/],
     ['dtype missing', () => craft({ w: { shape: [1], data_offsets: [0, 4] } }, 4), /tensor "w", field dtype: missing/],
-    ['negative dimension', () => craft({ w: t('F32', [-1], [0, 4]) }, 4), /field shape: dimensions must be non-negative integers, found -1/],
+    [
+      'negative dimension',
+      () => craft({ w: t('F32', [-1], [0, 4]) }, 4),
+      /field shape: dimensions must be non-negative integers, found -1/,
+    ],
     ['fractional dimension', () => craft({ w: t('F32', [1.5], [0, 4]) }, 4), /field shape: .* found 1.5/],
     ['dimension a string', () => craft({ w: t('F32', ['2'], [0, 8]) }, 8), /field shape: .* found "2"/],
     ['shape not an array', () => craft({ w: t('F32', 4, [0, 16]) }, 16), /field shape: missing or not an array/],
@@ -102,7 +106,10 @@ describe('safetensors: bad files fail with a located error', () => {
   }
 
   it('accepts a header padded with trailing spaces, an empty tensor and metadata', () => {
-    const bytes = craft(`{"__metadata__":{"format":"pt"},"e":{"dtype":"F32","shape":[0,3],"data_offsets":[0,0]},"w":{"dtype":"I8","shape":[2],"data_offsets":[0,2]}}    `, new Uint8Array([0xff, 0x02]));
+    const bytes = craft(
+      `{"__metadata__":{"format":"pt"},"e":{"dtype":"F32","shape":[0,3],"data_offsets":[0,0]},"w":{"dtype":"I8","shape":[2],"data_offsets":[0,2]}}    `,
+      new Uint8Array([0xff, 0x02]),
+    );
     const { header, tensors } = readSafetensorsRaw(bytes);
     expect(header.metadata).toEqual({ format: 'pt' });
     expect(tensors.get('e')!.data.length).toBe(0);
@@ -112,7 +119,9 @@ describe('safetensors: bad files fail with a located error', () => {
   it('refuses a header nested deeper than the format needs, however deep, without exhausting the stack', () => {
     // crafted: 200 000 levels of arrays inside one tensor entry (a probe of issue 15, item 6)
     const deep = `{"w":{"dtype":"F32","shape":${'['.repeat(200_000)}${']'.repeat(200_000)},"data_offsets":[0,0]}}`;
-    expect(() => readSafetensorsRaw(craft(deep), 'deep.safetensors')).toThrow(/deep\.safetensors: .*nests 200002 levels deep; a safetensors header has at most 3/);
+    expect(() => readSafetensorsRaw(craft(deep), 'deep.safetensors')).toThrow(
+      /deep\.safetensors: .*nests 200002 levels deep; a safetensors header has at most 3/,
+    );
     // brackets inside strings are text, not nesting
     const named = craft('{"__metadata__":{"note":"[[[[{{{{"},"e":{"dtype":"F32","shape":[0],"data_offsets":[0,0]}}');
     expect(readSafetensorsRaw(named).header.metadata).toEqual({ note: '[[[[{{{{' });
@@ -185,7 +194,9 @@ describe('safetensors: round trips', () => {
   });
 
   it('refuses to write a shape that does not match the data', () => {
-    expect(() => writeSafetensors([['w', { dtype: 'F32', shape: [3], data: new Float32Array(2) }]])).toThrow(/shape \[3\] does not match its 2 values/);
+    expect(() => writeSafetensors([['w', { dtype: 'F32', shape: [3], data: new Float32Array(2) }]])).toThrow(
+      /shape \[3\] does not match its 2 values/,
+    );
   });
 });
 

@@ -33,7 +33,12 @@ describe('adamwUpdate: wasm kernel vs the plain-tfjs op on cpu', () => {
   });
 
   for (const n of [1, 7, 130]) {
-    for (const [t, gradScale, decay] of [[1, 1, true], [1, 0.37, false], [50, 0.5, true], [1000, 1, false]] as const) {
+    for (const [t, gradScale, decay] of [
+      [1, 1, true],
+      [1, 0.37, false],
+      [50, 0.5, true],
+      [1000, 1, false],
+    ] as const) {
       it(`${n} values, step ${t}, gradient scale ${gradScale}, decay ${decay}: p, m, v`, () => {
         const p = uniform(n, 1 + n);
         const g = uniform(n, 2 + n).map((x) => 0.1 * x);

@@ -69,7 +69,8 @@ function runCase(backend: 'cpu' | 'wasm', c: Case): { context: Float32Array; dq:
       runOn(backend, () => {
         const t = tensors();
         const dy = tf.tensor2d(x.dy, [x.rows, x.H]);
-        const f = (q: tf.Tensor, k: tf.Tensor, v: tf.Tensor) => tf.sum(tf.mul(attention(q as tf.Tensor2D, k as tf.Tensor2D, v as tf.Tensor2D, t.bias, opts(c)), dy));
+        const f = (q: tf.Tensor, k: tf.Tensor, v: tf.Tensor) =>
+          tf.sum(tf.mul(attention(q as tf.Tensor2D, k as tf.Tensor2D, v as tf.Tensor2D, t.bias, opts(c)), dy));
         return tf.grads(f)([t.q, t.k, t.v])[which];
       }).values as Float32Array,
     );
@@ -116,15 +117,31 @@ describe('fused attention kernels vs the plain-tfjs op on cpu', () => {
     const other = x.v.slice();
     for (let t = 5; t < 8; t++) for (let h = 0; h < x.H; h++) other[(8 + t) * x.H + h] += 3;
     const run = (v: Float32Array) =>
-      runOn('wasm', () => attention(tf.tensor2d(x.q, [x.rows, x.H]), tf.tensor2d(x.k, [x.rows, x.H]), tf.tensor2d(v, [x.rows, x.H]), tf.tensor2d(x.bias, [c.B, c.T]), opts(c))).values;
+      runOn('wasm', () =>
+        attention(
+          tf.tensor2d(x.q, [x.rows, x.H]),
+          tf.tensor2d(x.k, [x.rows, x.H]),
+          tf.tensor2d(v, [x.rows, x.H]),
+          tf.tensor2d(x.bias, [c.B, c.T]),
+          opts(c),
+        ),
+      ).values;
     expect(maxAbsDiff(run(x.v), run(other)).max).toBeLessThan(1e-6);
   });
 
   it('inference (no gradient recorded) gives the same context as the recorded path, and nothing leaks', () => {
     const c = CASES[3];
     const x = inputsOf(c);
-    const plain = runOn('wasm', () => attention(tf.tensor2d(x.q, [x.rows, x.H]), tf.tensor2d(x.k, [x.rows, x.H]), tf.tensor2d(x.v, [x.rows, x.H]), tf.tensor2d(x.bias, [c.B, c.T]), opts(c))).values;
-    tf.setBackend('wasm');
+    const plain = runOn('wasm', () =>
+      attention(
+        tf.tensor2d(x.q, [x.rows, x.H]),
+        tf.tensor2d(x.k, [x.rows, x.H]),
+        tf.tensor2d(x.v, [x.rows, x.H]),
+        tf.tensor2d(x.bias, [c.B, c.T]),
+        opts(c),
+      ),
+    ).values;
+    void tf.setBackend('wasm');
     const before = tf.memory().numTensors;
     const v = tf.tidy(() => tf.variable(tf.tensor2d(x.v, [x.rows, x.H]), true, 'attention-test-v'));
     const q = tf.tensor2d(x.q, [x.rows, x.H]);
@@ -154,9 +171,13 @@ describe('fused attention kernels vs the plain-tfjs op on cpu', () => {
   it('names the shape that does not fit', () => {
     const q = tf.zeros([6, 4]) as tf.Tensor2D;
     const bias = tf.zeros([2, 4]) as tf.Tensor2D;
-    expect(() => attention(q, q, q, bias, { numHeads: 2, dropoutRate: 0, dropoutSeed: 0 })).toThrow('attention: q has shape [6,4], expected [8, 4]');
+    expect(() => attention(q, q, q, bias, { numHeads: 2, dropoutRate: 0, dropoutSeed: 0 })).toThrow(
+      'attention: q has shape [6,4], expected [8, 4]',
+    );
     const q8 = tf.zeros([8, 4]) as tf.Tensor2D;
-    expect(() => attention(q8, q8, q8, bias, { numHeads: 3, dropoutRate: 0, dropoutSeed: 0 })).toThrow('hidden size 4 is not a multiple of numHeads 3');
+    expect(() => attention(q8, q8, q8, bias, { numHeads: 3, dropoutRate: 0, dropoutSeed: 0 })).toThrow(
+      'hidden size 4 is not a multiple of numHeads 3',
+    );
     expect(() => attention(q8, q8, q8, bias, { numHeads: 2, dropoutRate: 1, dropoutSeed: 0 })).toThrow('dropout rate must be in [0, 1)');
     tf.dispose([q, bias, q8]);
   });

@@ -19,19 +19,16 @@ export async function readyBoth(): Promise<void> {
 }
 
 /** Runs `f` on `backend` and returns its result's values and shape. */
-export function runOn(
-  backend: 'cpu' | 'wasm',
-  f: () => tf.Tensor,
-): { values: Float32Array | Int32Array; shape: number[] } {
+export function runOn(backend: 'cpu' | 'wasm', f: () => tf.Tensor): { values: Float32Array | Int32Array; shape: number[] } {
   const previous = tf.getBackend();
-  tf.setBackend(backend);
+  void tf.setBackend(backend);
   try {
     return tf.tidy(() => {
       const t = f();
       return { values: t.dataSync() as Float32Array | Int32Array, shape: t.shape };
     });
   } finally {
-    tf.setBackend(previous);
+    void tf.setBackend(previous);
   }
 }
 

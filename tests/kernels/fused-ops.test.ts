@@ -41,7 +41,12 @@ describe('biasGelu: wasm kernels vs the plain-tfjs op on cpu', () => {
     expect(tf.getKernel(BIAS_GELU, 'cpu')).toBeUndefined();
   });
 
-  for (const [R, I] of [[3, 1], [5, 7], [17, 33], [64, 512]] as const) {
+  for (const [R, I] of [
+    [3, 1],
+    [5, 7],
+    [17, 33],
+    [64, 512],
+  ] as const) {
     it(`[${R}, ${I}]: y, dx and db`, () => {
       const x = uniform(R * I, R + I).map((v) => 4 * v); // u across ±5: both erf branches
       const b = uniform(I, 3 * I);
@@ -49,7 +54,10 @@ describe('biasGelu: wasm kernels vs the plain-tfjs op on cpu', () => {
       const fwd = () => biasGelu(tf.tensor2d(x, [R, I]), tf.tensor1d(b));
       expectClose(runOn('wasm', fwd).values, runOn('cpu', fwd).values, 2e-6, 2e-6, 'y');
       for (const which of [0, 1]) {
-        const g = () => tf.grads((xs: tf.Tensor, bs: tf.Tensor) => tf.sum(tf.mul(biasGelu(xs as tf.Tensor2D, bs as tf.Tensor1D), tf.tensor2d(dy, [R, I]))))([tf.tensor2d(x, [R, I]), tf.tensor1d(b)])[which];
+        const g = () =>
+          tf.grads((xs: tf.Tensor, bs: tf.Tensor) =>
+            tf.sum(tf.mul(biasGelu(xs as tf.Tensor2D, bs as tf.Tensor1D), tf.tensor2d(dy, [R, I]))),
+          )([tf.tensor2d(x, [R, I]), tf.tensor1d(b)])[which];
         const want = runOn('cpu', g).values;
         const got = runOn('wasm', g).values;
         if (which === 0) expectClose(got, want, 2e-6, 2e-6, 'dx');
@@ -72,7 +80,12 @@ describe('layerNorm: wasm kernels vs the plain-tfjs op on cpu', () => {
     expect(tf.getKernel(LAYER_NORM, 'cpu')).toBeUndefined();
   });
 
-  for (const [R, H, eps] of [[4, 1, 1e-5], [6, 5, 1e-12], [33, 36, 1e-12], [128, 128, 1e-12]] as const) {
+  for (const [R, H, eps] of [
+    [4, 1, 1e-5],
+    [6, 5, 1e-12],
+    [33, 36, 1e-12],
+    [128, 128, 1e-12],
+  ] as const) {
     it(`[${R}, ${H}], eps ${eps}: y, dx, dγ and dβ`, () => {
       const x = uniform(R * H, R * H).map((v, i) => 3 * v + (i % 7) * 0.5); // offset rows: centring matters
       const gamma = uniform(H, 5).map((v) => 1 + 0.5 * v);
@@ -86,7 +99,10 @@ describe('layerNorm: wasm kernels vs the plain-tfjs op on cpu', () => {
       expectClose(runOn('wasm', fwd).values, runOn('cpu', fwd).values, 2e-5, 1e-5, 'y');
       const dyMax = maxAbs(dy);
       for (const which of [0, 1, 2]) {
-        const g = () => tf.grads((a: tf.Tensor, gg: tf.Tensor, bb: tf.Tensor) => tf.sum(tf.mul(layerNorm(a as tf.Tensor2D, gg as tf.Tensor1D, bb as tf.Tensor1D, eps), tf.tensor2d(dy, [R, H]))))([...args()])[which];
+        const g = () =>
+          tf.grads((a: tf.Tensor, gg: tf.Tensor, bb: tf.Tensor) =>
+            tf.sum(tf.mul(layerNorm(a as tf.Tensor2D, gg as tf.Tensor1D, bb as tf.Tensor1D, eps), tf.tensor2d(dy, [R, H]))),
+          )([...args()])[which];
         const want = runOn('cpu', g).values;
         const got = runOn('wasm', g).values;
         if (which === 0) expectClose(got, want, 2e-5 * (H === 1 ? 1 : Math.max(1, maxAbs(want))), 1e-5, 'dx');
@@ -96,13 +112,17 @@ describe('layerNorm: wasm kernels vs the plain-tfjs op on cpu', () => {
   }
 
   it('inference (no tape) equals the recorded path, and nothing leaks', () => {
-    tf.setBackend('wasm');
+    void tf.setBackend('wasm');
     const x = tf.tensor2d(uniform(40 * 24, 2), [40, 24]);
     const w = tf.tidy(() => tf.variable(tf.ones([24]), true, 'fused-ops-test-gamma')) as unknown as tf.Tensor1D;
     const beta = tf.zeros([24]) as tf.Tensor1D;
     const b = tf.tensor1d(uniform(24, 3));
     const before = tf.memory().numTensors;
-    const plain = tf.tidy(() => biasGelu(layerNorm(x, w, beta, 1e-12), b).dataSync().slice());
+    const plain = tf.tidy(() =>
+      biasGelu(layerNorm(x, w, beta, 1e-12), b)
+        .dataSync()
+        .slice(),
+    );
     let recorded: ArrayLike<number> = [];
     const { value, grads } = tf.variableGrads(() => {
       const y = biasGelu(layerNorm(x, w, beta, 1e-12), b);
@@ -122,7 +142,11 @@ describe('dropout: the wasm kernel vs the plain-tfjs op on cpu', () => {
     expect(tf.getKernel(DROPOUT, 'cpu')).toBeUndefined();
   });
 
-  for (const [shape, rate] of [[[7], 0.5], [[33, 5], 0.1], [[4, 3, 129], 0.3]] as const) {
+  for (const [shape, rate] of [
+    [[7], 0.5],
+    [[33, 5], 0.1],
+    [[4, 3, 129], 0.3],
+  ] as const) {
     it(`shape [${shape}], rate ${rate}: the same values and gradient (the same mask), exactly`, () => {
       const n = shape.reduce((p: number, d: number) => p * d, 1);
       const x = uniform(n, n).map((v) => v + 2); // never 0: a dropped value shows as 0
@@ -142,7 +166,7 @@ describe('dropout: the wasm kernel vs the plain-tfjs op on cpu', () => {
   }
 
   it('rate 0 is the identity; another seed gives another mask', () => {
-    tf.setBackend('wasm');
+    void tf.setBackend('wasm');
     const x = tf.ones([1000]);
     expect(dropout(x, 0, 5)).toBe(x);
     const a = dropout(x, 0.5, 5).dataSync();

@@ -13,8 +13,11 @@ beforeAll(readyBoth);
 
 describe('Identity and Cast without copies on wasm', () => {
   it('a clone shares the data, and either side survives disposing the other', () => {
-    tf.setBackend('wasm');
-    const x = tf.tensor2d([[1, 2, 3], [4, 5, 6]]);
+    void tf.setBackend('wasm');
+    const x = tf.tensor2d([
+      [1, 2, 3],
+      [4, 5, 6],
+    ]);
     const y = tf.clone(x);
     const z = tf.cast(x, 'float32');
     const backend = tf.backend() as unknown as { refCount(id: object): number };
@@ -41,7 +44,7 @@ describe('Identity and Cast without copies on wasm', () => {
   });
 
   it('string tensors keep the stock Identity', () => {
-    tf.setBackend('wasm');
+    void tf.setBackend('wasm');
     const s = tf.tensor1d(['a', 'bc'], 'string');
     const c = tf.clone(s);
     expect(c.dataSync()).toEqual(['a', 'bc']);
@@ -53,12 +56,30 @@ describe('Transpose without moving data', () => {
   it('permutations that keep the axes of size > 1 in order share the data; others transpose as on cpu', () => {
     const values = Array.from({ length: 24 }, (_, i) => i);
     for (const [shape, perm] of [
-      [[4, 6], [0, 1]],
-      [[1, 4, 6], [1, 0, 2]],
-      [[4, 1, 6], [0, 2, 1]],
-      [[4, 6], [1, 0]],
-      [[2, 3, 4], [2, 0, 1]],
-      [[2, 1, 12], [2, 1, 0]],
+      [
+        [4, 6],
+        [0, 1],
+      ],
+      [
+        [1, 4, 6],
+        [1, 0, 2],
+      ],
+      [
+        [4, 1, 6],
+        [0, 2, 1],
+      ],
+      [
+        [4, 6],
+        [1, 0],
+      ],
+      [
+        [2, 3, 4],
+        [2, 0, 1],
+      ],
+      [
+        [2, 1, 12],
+        [2, 1, 0],
+      ],
     ] as const) {
       const f = () => tf.transpose(tf.tensor(values, [...shape]), [...perm]);
       const got = runOn('wasm', f);
@@ -66,7 +87,7 @@ describe('Transpose without moving data', () => {
       expect(got.shape).toEqual(want.shape);
       expect(Array.from(got.values)).toEqual(Array.from(want.values));
     }
-    tf.setBackend('wasm');
+    void tf.setBackend('wasm');
     const x = tf.tensor(values, [1, 4, 6]);
     const y = tf.transpose(x, [1, 0, 2]);
     expect((tf.backend() as unknown as { refCount(id: object): number }).refCount(x.dataId)).toBe(2);

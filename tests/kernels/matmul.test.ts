@@ -20,8 +20,14 @@ function operandShape(batch: number[], rows: number, cols: number, transposed: b
 function check(batchA: number[], batchB: number[], M: number, K: number, N: number, ta: boolean, tb: boolean): void {
   const sa = operandShape(batchA, M, K, ta);
   const sb = operandShape(batchB, K, N, tb);
-  const va = uniform(sa.reduce((p, d) => p * d, 1), 7 + M);
-  const vb = uniform(sb.reduce((p, d) => p * d, 1), 11 + N);
+  const va = uniform(
+    sa.reduce((p, d) => p * d, 1),
+    7 + M,
+  );
+  const vb = uniform(
+    sb.reduce((p, d) => p * d, 1),
+    11 + N,
+  );
   const f = () => tf.matMul(tf.tensor(va, sa), tf.tensor(vb, sb), ta, tb);
   const want = runOn('cpu', f);
   const got = runOn('wasm', f);
@@ -29,15 +35,21 @@ function check(batchA: number[], batchB: number[], M: number, K: number, N: numb
   const d = maxAbsDiff(got.values, want.values);
   const tol = 1e-6 * K + 1e-6;
   if (d.max > tol) {
-    throw new Error(
-      `A ${sa} × B ${sb} (tA=${ta}, tB=${tb}): |diff| ${d.max} > ${tol} at ${d.at}: got ${d.got}, cpu ${d.want}`,
-    );
+    throw new Error(`A ${sa} × B ${sb} (tA=${ta}, tB=${tb}): |diff| ${d.max} > ${tol} at ${d.at}: got ${d.got}, cpu ${d.want}`);
   }
 }
 
 const SIZES: [number, number, number][] = [
-  [1, 1, 1], [1, 7, 1], [5, 3, 7], [6, 8, 8], [7, 9, 9], [13, 1, 17], [33, 31, 16],
-  [75, 40, 24], [12, 257, 10], [64, 300, 33],
+  [1, 1, 1],
+  [1, 7, 1],
+  [5, 3, 7],
+  [6, 8, 8],
+  [7, 9, 9],
+  [13, 1, 17],
+  [33, 31, 16],
+  [75, 40, 24],
+  [12, 257, 10],
+  [64, 300, 33],
 ];
 
 describe('BatchMatMul fast path vs tfjs cpu', () => {
@@ -93,7 +105,12 @@ describe('BatchMatMul fast path vs tfjs cpu', () => {
     const dy = uniform(2 * 9 * 6, 9);
     for (const which of [0, 1]) {
       const f = () => {
-        const g = tf.grads((a: tf.Tensor, b: tf.Tensor) => tf.matMul(a, b).mul(tf.tensor(dy, [2, 9, 6])).sum());
+        const g = tf.grads((a: tf.Tensor, b: tf.Tensor) =>
+          tf
+            .matMul(a, b)
+            .mul(tf.tensor(dy, [2, 9, 6]))
+            .sum(),
+        );
         return g([tf.tensor(va, sa), tf.tensor(vb, sb)])[which];
       };
       const d = maxAbsDiff(runOn('wasm', f).values, runOn('cpu', f).values);

@@ -51,7 +51,7 @@ describe('fast kernel registration', () => {
     expect(Array.from(tf.matMul(tf.tensor2d([[1, 2]]), tf.tensor2d([[3], [4]])).dataSync())).toEqual([11]);
   });
 
-  it('the fused ops\' kernels come and go with the fast paths; stock Sum, GatherV2, Identity, Cast, Transpose come back', () => {
+  it("the fused ops' kernels come and go with the fast paths; stock Sum, GatherV2, Identity, Cast, Transpose come back", () => {
     const stock = [tf.Sum, tf.GatherV2, tf.Identity, tf.Cast, tf.Transpose].map((name) => tf.getKernel(name, 'wasm'));
     for (const name of FUSED) expect(tf.getKernel(name, 'wasm'), name).toBeUndefined();
     registerFastKernels();

@@ -31,7 +31,9 @@ describe('UnsortedSegmentSum fast path vs tfjs cpu', () => {
     // tfjs cpu 4.22 takes only 1-D ids, so its reference gets the flattened operands
     const ids = [0, 2, 2, 1, 0, 2];
     const x = uniform(2 * 3 * 4, 8);
-    const got = runOn('wasm', () => tf.unsortedSegmentSum(tf.tensor(x, [2, 3, 4]), tf.tensor2d(ids, [2, 3], 'int32') as unknown as tf.Tensor1D, 3)); // the op's type says 1-D; the kernel takes any prefix rank
+    const got = runOn('wasm', () =>
+      tf.unsortedSegmentSum(tf.tensor(x, [2, 3, 4]), tf.tensor2d(ids, [2, 3], 'int32') as unknown as tf.Tensor1D, 3),
+    ); // the op's type says 1-D; the kernel takes any prefix rank
     const want = runOn('cpu', () => tf.unsortedSegmentSum(tf.tensor(x, [6, 4]), tf.tensor1d(ids, 'int32'), 3));
     expect(got.shape).toEqual([3, 4]);
     expect(maxAbsDiff(got.values, want.values).max).toBeLessThan(1e-6);
@@ -46,9 +48,12 @@ describe('UnsortedSegmentSum fast path vs tfjs cpu', () => {
     const ids = [4, 4, 0, 10, 4, 7, 0, 1];
     const dy = uniform(2 * 4 * 6, 3);
     const f = () =>
-      tf.grad((t: tf.Tensor) => tf.gather(t, tf.tensor2d(ids, [2, 4], 'int32')).mul(tf.tensor(dy, [2, 4, 6])).sum())(
-        tf.tensor(table, [11, 6]),
-      );
+      tf.grad((t: tf.Tensor) =>
+        tf
+          .gather(t, tf.tensor2d(ids, [2, 4], 'int32'))
+          .mul(tf.tensor(dy, [2, 4, 6]))
+          .sum(),
+      )(tf.tensor(table, [11, 6]));
     const got = runOn('wasm', f);
     expect(got.shape).toEqual([11, 6]);
     expect(maxAbsDiff(got.values, runOn('cpu', f).values).max).toBeLessThan(1e-6);

@@ -13,7 +13,10 @@ import { maxAbsDiff, readyBoth, runOn, uniform } from './backends.js';
 beforeAll(readyBoth);
 
 function check(shape: number[], axis: number | number[] | null, keepDims = false): void {
-  const values = uniform(shape.reduce((p, d) => p * d, 1), 17 + shape.length);
+  const values = uniform(
+    shape.reduce((p, d) => p * d, 1),
+    17 + shape.length,
+  );
   const f = () => tf.sum(tf.tensor(values, shape), axis ?? undefined, keepDims);
   const want = runOn('cpu', f);
   const got = runOn('wasm', f);
@@ -44,9 +47,31 @@ describe('Sum over leading axes vs tfjs cpu', () => {
     check([3, 4, 5], [0, 2]);
     check([5, 8], null);
     check([5, 8], [0, 1]);
-    const ints = () => tf.sum(tf.tensor2d([[1, 2, 3], [4, 5, 6]], undefined, 'int32'), 0);
+    const ints = () =>
+      tf.sum(
+        tf.tensor2d(
+          [
+            [1, 2, 3],
+            [4, 5, 6],
+          ],
+          undefined,
+          'int32',
+        ),
+        0,
+      );
     expect(Array.from(runOn('wasm', ints).values)).toEqual([5, 7, 9]);
-    const bools = () => tf.sum(tf.tensor2d([[true, false], [true, true]], undefined, 'bool'), 0);
+    const bools = () =>
+      tf.sum(
+        tf.tensor2d(
+          [
+            [true, false],
+            [true, true],
+          ],
+          undefined,
+          'bool',
+        ),
+        0,
+      );
     expect(Array.from(runOn('wasm', bools).values)).toEqual(Array.from(runOn('cpu', bools).values));
   });
 

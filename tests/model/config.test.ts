@@ -7,8 +7,20 @@ import { FIXTURES, loadFixture, type JsonTensor } from './fixtures.js';
 
 describe('presets', () => {
   it('tiny and small have the stated sizes and take the vocabulary size given', () => {
-    expect(presetConfig('tiny', 8000)).toMatchObject({ numLayers: 2, hiddenSize: 128, numHeads: 2, intermediateSize: 512, vocabSize: 8000 });
-    expect(presetConfig('small', 8000)).toMatchObject({ numLayers: 4, hiddenSize: 256, numHeads: 4, intermediateSize: 1024, vocabSize: 8000 });
+    expect(presetConfig('tiny', 8000)).toMatchObject({
+      numLayers: 2,
+      hiddenSize: 128,
+      numHeads: 2,
+      intermediateSize: 512,
+      vocabSize: 8000,
+    });
+    expect(presetConfig('small', 8000)).toMatchObject({
+      numLayers: 4,
+      hiddenSize: 256,
+      numHeads: 4,
+      intermediateSize: 1024,
+      vocabSize: 8000,
+    });
     expect(presetConfig('tiny', 8000, { activation: 'gelu_sigmoid' }).activation).toBe('gelu_sigmoid');
   });
 });
@@ -55,16 +67,26 @@ describe('HF-style config.json', () => {
     expect(hf.spanwright_question_match).toBe('words+sentence');
     expect(configFromHf(JSON.parse(JSON.stringify(hf)))).toEqual(on);
     expect('spanwright_question_match' in configToHf(presetConfig('tiny', 100))).toBe(false);
-    expect(() => presetConfig('tiny', 100, { typeVocabSize: 3, questionMatch: 'words+sentence' })).toThrow(/needs typeVocabSize of at least 5/);
-    expect(() => configFromHf({ ...configToHf(presetConfig('tiny', 100)), spanwright_question_match: true }, 'c.json')).toThrow(/c\.json: "spanwright_question_match" must be "words" or "words\+sentence"/);
+    expect(() => presetConfig('tiny', 100, { typeVocabSize: 3, questionMatch: 'words+sentence' })).toThrow(
+      /needs typeVocabSize of at least 5/,
+    );
+    expect(() => configFromHf({ ...configToHf(presetConfig('tiny', 100)), spanwright_question_match: true }, 'c.json')).toThrow(
+      /c\.json: "spanwright_question_match" must be "words" or "words\+sentence"/,
+    );
   });
 
   it('fills optional keys with BERT defaults and rejects missing sizes and unknown activations, naming file and key', () => {
     const minimal = { vocab_size: 100, hidden_size: 64, num_hidden_layers: 1, num_attention_heads: 2, intermediate_size: 128 };
     expect(configFromHf(minimal)).toMatchObject({ maxPositions: 512, typeVocabSize: 2, layerNormEps: 1e-12, activation: 'gelu' });
-    expect(() => configFromHf({ ...minimal, hidden_size: undefined }, 'my/config.json')).toThrow('my/config.json: missing required key "hidden_size"');
-    expect(() => configFromHf({ ...minimal, hidden_act: 'relu' }, 'my/config.json')).toThrow(/my\/config\.json: "hidden_act" "relu" is not supported/);
-    expect(() => configFromHf({ ...minimal, layer_norm_eps: '1e-12' }, 'c.json')).toThrow('c.json: "layer_norm_eps" must be a number, got "1e-12"');
+    expect(() => configFromHf({ ...minimal, hidden_size: undefined }, 'my/config.json')).toThrow(
+      'my/config.json: missing required key "hidden_size"',
+    );
+    expect(() => configFromHf({ ...minimal, hidden_act: 'relu' }, 'my/config.json')).toThrow(
+      /my\/config\.json: "hidden_act" "relu" is not supported/,
+    );
+    expect(() => configFromHf({ ...minimal, layer_norm_eps: '1e-12' }, 'c.json')).toThrow(
+      'c.json: "layer_norm_eps" must be a number, got "1e-12"',
+    );
     expect(() => configFromHf([], 'c.json')).toThrow('c.json: expected a JSON object');
   });
 });

@@ -54,7 +54,11 @@ describe('tensor discipline', () => {
   it('leaves the tensor count unchanged across repeated forward and gradient calls', () => {
     const sp = tf.tensor1d([5, 0], 'int32');
     const ep = tf.tensor1d([7, 0], 'int32');
-    const labels = tf.tensor2d([[-100, 10, -100, -100, -100, 21, -100, -100, -100, -100, -100, -100], new Array(12).fill(-100)], undefined, 'int32');
+    const labels = tf.tensor2d(
+      [[-100, 10, -100, -100, -100, 21, -100, -100, -100, -100, -100, -100], new Array(12).fill(-100)],
+      undefined,
+      'int32',
+    );
     const before = tf.memory().numTensors;
     for (let step = 0; step < 3; step++) {
       // a block body: tf.tidy keeps what its function returns
@@ -66,7 +70,10 @@ describe('tensor discipline', () => {
       });
       const { value, grads } = params.variableGrads(() => {
         const { start, end } = spanLogits(params, config, inputs, { training: true, dropoutSeed: step });
-        return tf.add(spanLoss(start, end, sp, ep, inputs.attentionMask, inputs.tokenTypeIds), mlmLoss(mlmLogits(params, config, inputs, { training: false }), labels)) as tf.Scalar;
+        return tf.add(
+          spanLoss(start, end, sp, ep, inputs.attentionMask, inputs.tokenTypeIds),
+          mlmLoss(mlmLogits(params, config, inputs, { training: false }), labels),
+        ) as tf.Scalar;
       });
       tf.dispose([value, ...grads.values()]);
       expect(tf.memory().numTensors).toBe(before);
@@ -132,13 +139,19 @@ describe('architecture properties', () => {
 describe('bad input', () => {
   it('names the field with a wrong dtype or shape, and sequences longer than maxPositions', () => {
     const floatIds = { ...inputs, inputIds: tf.cast(inputs.inputIds, 'float32') as tf.Tensor2D };
-    expect(() => tf.tidy(() => spanLogits(params, config, floatIds, { training: false }))).toThrow('reader inputs: inputIds must be int32, got float32');
+    expect(() => tf.tidy(() => spanLogits(params, config, floatIds, { training: false }))).toThrow(
+      'reader inputs: inputIds must be int32, got float32',
+    );
     floatIds.inputIds.dispose();
     const shortMask = { ...inputs, attentionMask: tf.ones([2, 5], 'int32') as tf.Tensor2D };
-    expect(() => tf.tidy(() => spanLogits(params, config, shortMask, { training: false }))).toThrow('reader inputs: attentionMask has shape [2, 5], expected [2, 12]');
+    expect(() => tf.tidy(() => spanLogits(params, config, shortMask, { training: false }))).toThrow(
+      'reader inputs: attentionMask has shape [2, 5], expected [2, 12]',
+    );
     shortMask.attentionMask.dispose();
     const tooLong = batch(70);
-    expect(() => tf.tidy(() => spanLogits(params, config, tooLong, { training: false }))).toThrow('reader: 70 tokens per sequence exceed maxPositions (64)');
+    expect(() => tf.tidy(() => spanLogits(params, config, tooLong, { training: false }))).toThrow(
+      'reader: 70 tokens per sequence exceed maxPositions (64)',
+    );
     tf.dispose(Object.values(tooLong));
   });
 });

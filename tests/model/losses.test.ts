@@ -39,7 +39,12 @@ describe('spanLoss', () => {
 
 describe('mlmLoss', () => {
   it('averages only over labelled positions and is 0 when none is labelled', () => {
-    const logits = tf.tensor3d([[[2, 0, 0], [0, 0, 5]]]);
+    const logits = tf.tensor3d([
+      [
+        [2, 0, 0],
+        [0, 0, 5],
+      ],
+    ]);
     const one = tf.tensor2d([[0, -100]], undefined, 'int32');
     const none = tf.tensor2d([[-100, -100]], undefined, 'int32');
     expect(mlmLoss(logits, one).dataSync()[0]).toBeCloseTo(-Math.log(Math.exp(2) / (Math.exp(2) + 2)), 5);

@@ -49,8 +49,16 @@ describe('ReaderParams.init', () => {
       for (const [name, spec] of parameterShapes(config)) {
         const data = named.get(name)!.data;
         if (spec.init === 'normal') expect(stats(data).maxAbs, name).toBeLessThanOrEqual(2 * 0.02 * (1 + 1e-6));
-        if (spec.init === 'zeros') expect(data.every((v) => v === 0), name).toBe(true);
-        if (spec.init === 'ones') expect(data.every((v) => v === 1), name).toBe(true);
+        if (spec.init === 'zeros')
+          expect(
+            data.every((v) => v === 0),
+            name,
+          ).toBe(true);
+        if (spec.init === 'ones')
+          expect(
+            data.every((v) => v === 1),
+            name,
+          ).toBe(true);
       }
       expect(named.get('bert.embeddings.LayerNorm.weight')!.data.every((v) => v === 1)).toBe(true);
       expect(named.get('qa_outputs.bias')!.data.every((v) => v === 0)).toBe(true);
@@ -145,11 +153,16 @@ describe('ReaderParams.fromNamed', () => {
   it('initialises a missing span head and MLM head afresh, with notices; reports unexpected tensors', () => {
     const named = clone(reference);
     for (const name of [...named.keys()]) if (name.startsWith('qa_outputs') || name.startsWith('cls.')) named.delete(name);
-    named.set('bert.pooler.dense.weight', { shape: [config.hiddenSize, config.hiddenSize], data: new Float32Array(config.hiddenSize ** 2) });
+    named.set('bert.pooler.dense.weight', {
+      shape: [config.hiddenSize, config.hiddenSize],
+      data: new Float32Array(config.hiddenSize ** 2),
+    });
     named.set('cls.predictions.decoder.weight', reference.get('bert.embeddings.word_embeddings.weight')!); // tied: ignored
     const { params, report } = ReaderParams.fromNamed(config, named, { seed: 5, source: 'my-model.safetensors' });
     try {
-      expect(report.missing.sort()).toEqual([...parameterShapes(config).keys()].filter((n) => n.startsWith('qa_outputs') || n.startsWith('cls.')).sort());
+      expect(report.missing.sort()).toEqual(
+        [...parameterShapes(config).keys()].filter((n) => n.startsWith('qa_outputs') || n.startsWith('cls.')).sort(),
+      );
       expect(report.unexpected).toEqual(['bert.pooler.dense.weight']);
       expect(report.notices).toHaveLength(2);
       expect(report.notices[0]).toMatch(/my-model\.safetensors has no span head \(qa_outputs\)/);
@@ -164,7 +177,10 @@ describe('ReaderParams.fromNamed', () => {
 
   it('rejects a shape mismatch, naming the tensor and both shapes', () => {
     const named = clone(reference);
-    named.set('bert.encoder.layer.1.output.dense.weight', { shape: [config.intermediateSize, config.hiddenSize], data: new Float32Array(config.intermediateSize * config.hiddenSize) });
+    named.set('bert.encoder.layer.1.output.dense.weight', {
+      shape: [config.intermediateSize, config.hiddenSize],
+      data: new Float32Array(config.intermediateSize * config.hiddenSize),
+    });
     const before = tf.memory().numTensors;
     expect(() => ReaderParams.fromNamed(config, named, { source: 'ck.safetensors' })).toThrow(
       'ck.safetensors: tensor "bert.encoder.layer.1.output.dense.weight" has shape [512, 128], the config expects [128, 512]',
@@ -175,7 +191,9 @@ describe('ReaderParams.fromNamed', () => {
   it('rejects a checkpoint missing an encoder tensor, naming it', () => {
     const named = clone(reference);
     named.delete('bert.encoder.layer.1.attention.self.value.bias');
-    expect(() => ReaderParams.fromNamed(config, named)).toThrow(/missing encoder tensor\(s\): bert\.encoder\.layer\.1\.attention\.self\.value\.bias/);
+    expect(() => ReaderParams.fromNamed(config, named)).toThrow(
+      /missing encoder tensor\(s\): bert\.encoder\.layer\.1\.attention\.self\.value\.bias/,
+    );
   });
 
   it('rejects data whose length disagrees with its shape', () => {

@@ -44,7 +44,12 @@ describe('withQuestionMatch', () => {
     const run = (p: ReaderParams, c: typeof config, types: number[]) =>
       tf.tidy(() => {
         const t = (v: number[]) => tf.tensor2d(v, [1, v.length], 'int32');
-        const { start, end } = spanLogits(p, c, { inputIds: t(ids), tokenTypeIds: t(types), attentionMask: t(ids.map(() => 1)) }, { training: false });
+        const { start, end } = spanLogits(
+          p,
+          c,
+          { inputIds: t(ids), tokenTypeIds: t(types), attentionMask: t(ids.map(() => 1)) },
+          { training: false },
+        );
         return [...start.dataSync(), ...end.dataSync()];
       });
     const a = run(plain, config, plainTypes);

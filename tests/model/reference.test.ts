@@ -85,7 +85,10 @@ function gradsInCheckpointLayout(config: ReaderConfig, grads: Map<string, tf.Ten
 function readSafetensors(bytes: Uint8Array): NamedTensors {
   const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   const headerLength = Number(view.getBigUint64(0, true));
-  const header = JSON.parse(new TextDecoder().decode(bytes.subarray(8, 8 + headerLength))) as Record<string, { dtype: string; shape: number[]; data_offsets: [number, number] }>;
+  const header = JSON.parse(new TextDecoder().decode(bytes.subarray(8, 8 + headerLength))) as Record<
+    string,
+    { dtype: string; shape: number[]; data_offsets: [number, number] }
+  >;
   const base = 8 + headerLength;
   const named: NamedTensors = new Map();
   for (const [name, entry] of Object.entries(header)) {

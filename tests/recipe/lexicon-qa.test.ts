@@ -18,7 +18,12 @@ describe('lexicon questions for the span stage', () => {
     expect(fold?.facts.get('other-name')).toBe('folding');
     expect(fold?.facts.get('example')).toBe('he gave the napkins a double fold');
     expect(entries.length).toBeGreaterThan(50_000);
-    for (const e of entries.slice(0, 500)) for (const k of e.facts.keys()) expect(RELATIONS.some((r) => r.key === k), k).toBe(true);
+    for (const e of entries.slice(0, 500))
+      for (const k of e.facts.keys())
+        expect(
+          RELATIONS.some((r) => r.key === k),
+          k,
+        ).toBe(true);
   });
 
   it('repeats for a seed and differs for another', () => {

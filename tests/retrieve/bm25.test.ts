@@ -75,14 +75,21 @@ describe('Bm25Index', () => {
 
   it('IDF stays positive for a term in every passage (Lucene variant)', () => {
     // n = N = 3: ln(1 + 0.5/3.5) = ln(8/7) = 0.133531 > 0 (the classic RSJ weight would be < 0)
-    const index = new Bm25Index([{ id: 'a', text: 'x y' }, { id: 'b', text: 'x' }, { id: 'c', text: 'x z' }]);
+    const index = new Bm25Index([
+      { id: 'a', text: 'x y' },
+      { id: 'b', text: 'x' },
+      { id: 'c', text: 'x z' },
+    ]);
     expect(index.idf('x')).toBeCloseTo(Math.log(8 / 7), 12);
     expect(index.search('x').every((h) => h.score > 0)).toBe(true);
   });
 
   it('stop words are ignored in passages and queries alike', () => {
     const index = new Bm25Index(
-      [{ id: 'a', text: 'The capital of France is Paris' }, { id: 'b', text: 'the the the of of' }],
+      [
+        { id: 'a', text: 'The capital of France is Paris' },
+        { id: 'b', text: 'the the the of of' },
+      ],
       { stopWords: ENGLISH_STOP_WORDS },
     );
     expect(index.search('the capital').map((h) => h.passageId)).toEqual(['a']);
@@ -91,7 +98,13 @@ describe('Bm25Index', () => {
 
   it('handles an empty collection and rejects duplicate ids and bad settings', () => {
     expect(new Bm25Index([]).search('anything')).toEqual([]);
-    expect(() => new Bm25Index([{ id: 'a', text: 'x' }, { id: 'a', text: 'y' }])).toThrow(/passage 1: id "a" appears twice/);
+    expect(
+      () =>
+        new Bm25Index([
+          { id: 'a', text: 'x' },
+          { id: 'a', text: 'y' },
+        ]),
+    ).toThrow(/passage 1: id "a" appears twice/);
     expect(() => new Bm25Index(CORPUS, { b: 1.5 })).toThrow(/b must be in \[0, 1\]/);
     expect(() => new Bm25Index(CORPUS).search('x', -1)).toThrow(/topK/);
   });

@@ -42,8 +42,22 @@ function records(): QARecord[] {
   return passages.flatMap((p) => {
     const m = /\b(1[89]\d\d|20\d\d)\b/.exec(p.text)!;
     return [
-      { id: `${p.id}/year`, passageId: p.id, context: p.text, question: `What happened in ${p.text.slice(Math.max(0, m.index - 30), m.index).trim()}?`, answers: [{ text: m[0], start: m.index }], unanswerable: false },
-      { id: `${p.id}/none`, passageId: p.id, context: p.text, question: 'Which of its rivers is the longest?', answers: [], unanswerable: true },
+      {
+        id: `${p.id}/year`,
+        passageId: p.id,
+        context: p.text,
+        question: `What happened in ${p.text.slice(Math.max(0, m.index - 30), m.index).trim()}?`,
+        answers: [{ text: m[0], start: m.index }],
+        unanswerable: false,
+      },
+      {
+        id: `${p.id}/none`,
+        passageId: p.id,
+        context: p.text,
+        question: 'Which of its rivers is the longest?',
+        answers: [],
+        unanswerable: true,
+      },
     ];
   });
 }
@@ -63,7 +77,14 @@ describe('window settings (resolveWindows)', () => {
 });
 
 describe('nested shares of the training questions', () => {
-  const recs = Array.from({ length: 40 }, (_, i) => ({ id: `q${i}`, passageId: `p${i % 8}`, context: '', question: '', answers: [], unanswerable: true }));
+  const recs = Array.from({ length: 40 }, (_, i) => ({
+    id: `q${i}`,
+    passageId: `p${i % 8}`,
+    context: '',
+    question: '',
+    answers: [],
+    unanswerable: true,
+  }));
   it('take whole passages, each share inside the next, whatever the record order', () => {
     const shares = nestedShares(recs, [0.25, 0.5, 1], 3);
     const sets = shares.map((s) => new Set(s.records.map((r) => r.passageId)));
@@ -94,7 +115,15 @@ describe('the session use-cases', () => {
   });
 
   it('asks one passage by the reader alone, and several through BM25 with combined scores', () => {
-    const one = session.ask({ model: 'base', question: 'When did Austria enter the European Union?', passages: passages.slice(0, 1), topPassages: 3, topAnswers: 4, maxLength: 96, stride: 16 });
+    const one = session.ask({
+      model: 'base',
+      question: 'When did Austria enter the European Union?',
+      passages: passages.slice(0, 1),
+      topPassages: 3,
+      topAnswers: 4,
+      maxLength: 96,
+      stride: 16,
+    });
     expect(one.retrieved).toEqual([{ passageId: 'europe/au', score: null }]);
     expect(one.answers.length).toBe(4);
     for (const a of one.answers) {
@@ -104,7 +133,15 @@ describe('the session use-cases', () => {
     }
     const scores = one.answers.map((a) => a.readerScore);
     expect([...scores].sort((x, y) => y - x)).toEqual(scores);
-    const many = session.ask({ model: 'base', question: 'When did Austria enter the European Union?', passages, topPassages: 2, topAnswers: 3, maxLength: 96, stride: 16 });
+    const many = session.ask({
+      model: 'base',
+      question: 'When did Austria enter the European Union?',
+      passages,
+      topPassages: 2,
+      topAnswers: 3,
+      maxLength: 96,
+      stride: 16,
+    });
     expect(many.retrieved.length).toBe(2);
     expect(many.retrieved[0]!.passageId).toBe('europe/au'); // BM25: the only passage naming Austria
     expect(many.answers.length).toBe(3);
@@ -118,7 +155,15 @@ describe('the session use-cases', () => {
   });
 
   it('hands the practice stage on to fine-tuning, word-match types and all, and exports them', async () => {
-    const config = trainConfig({ maxLength: 96, stride: 16, maxQueryLength: 24, batchSize: 4, gradAccumulation: 1, epochs: 1, learningRate: 1e-3 });
+    const config = trainConfig({
+      maxLength: 96,
+      stride: 16,
+      maxQueryLength: 24,
+      batchSize: 4,
+      gradAccumulation: 1,
+      epochs: 1,
+      learningRate: 1e-3,
+    });
     const events: string[] = [];
     const practised = await session.practice({
       runId: 'p1',

@@ -19,11 +19,30 @@ function run(...args: string[]) {
 
 const chapter = bookParts()[3]!; // chapter 1: ~2 600 tokens, so 10 windows at 384 / 128
 const words = [...chapter.matchAll(/[A-Za-z]+/g)];
-const lines = words.slice(0, 400).filter((_, i) => i % 40 === 0).map((m, k) =>
-  JSON.stringify({ id: `q${k}`, passage_id: 'c1', context: chapter, question: `word ${k}?`, answers: [{ text: m[0], start: m.index }], unanswerable: false }),
-);
+const lines = words
+  .slice(0, 400)
+  .filter((_, i) => i % 40 === 0)
+  .map((m, k) =>
+    JSON.stringify({
+      id: `q${k}`,
+      passage_id: 'c1',
+      context: chapter,
+      question: `word ${k}?`,
+      answers: [{ text: m[0], start: m.index }],
+      unanswerable: false,
+    }),
+  );
 const cut = chapter.indexOf('Ishmael') + 1;
-lines.push(JSON.stringify({ id: 'cut', passage_id: 'c1', context: chapter, question: 'cut?', answers: [{ text: chapter.slice(cut, cut + 5), start: cut }], unanswerable: false }));
+lines.push(
+  JSON.stringify({
+    id: 'cut',
+    passage_id: 'c1',
+    context: chapter,
+    question: 'cut?',
+    answers: [{ text: chapter.slice(cut, cut + 5), start: cut }],
+    unanswerable: false,
+  }),
+);
 lines.push(JSON.stringify({ id: 'none', passage_id: 'c1', context: chapter, question: 'nothing?', answers: [], unanswerable: true }));
 const file = join(dir, 'questions.jsonl');
 writeFileSync(file, `${lines.join('\n')}\n`);

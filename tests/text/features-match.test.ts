@@ -22,7 +22,10 @@ function records(): QARecord[] {
     const sentences = context.split(/(?<=[.!?])\s+/).filter((s) => s.split(' ').length > 6);
     const sentence = sentences[Math.floor(random() * sentences.length)]!;
     // at most 15 words: the question stays within the 40 tokens a window keeps, so every word of it counts
-    const words = shuffleInPlace(sentence.match(/[\p{L}\p{N}]+/gu)!.filter(() => random() > 0.3), random).slice(0, 15);
+    const words = shuffleInPlace(
+      sentence.match(/[\p{L}\p{N}]+/gu)!.filter(() => random() > 0.3),
+      random,
+    ).slice(0, 15);
     out.push({ id: `m${i}`, passageId: `m${i}`, context, question: `${words.join(' ')}?`, answers: [], unanswerable: true });
   }
   return out;

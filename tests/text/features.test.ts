@@ -10,9 +10,7 @@ import { FeatureBuilder, tokenSpanToCharSpan, windowStarts, type Feature } from 
 import { WordPieceTokenizer } from '../../src/text/wordpiece.js';
 import { bookParts } from './reference-setup.js';
 
-const tokenizer = WordPieceTokenizer.fromVocabTxt(
-  readFileSync(new URL('../../tiny-models/vocab-demo/vocab.txt', import.meta.url), 'utf8'),
-);
+const tokenizer = WordPieceTokenizer.fromVocabTxt(readFileSync(new URL('../../tiny-models/vocab-demo/vocab.txt', import.meta.url), 'utf8'));
 
 /** A small seeded generator (mulberry32), so that every run draws the same records. */
 function random(seed: number): () => number {

@@ -17,7 +17,8 @@ const pre = bertPreTokenizer();
 const OTHER = /^[\p{Cc}\p{Cf}\p{Cs}\p{Co}]$/u;
 const MN = /^\p{Mn}$/u;
 const PUNCT = /^\p{P}$/u;
-const asciiPunct = (cp: number) => (cp >= 0x21 && cp <= 0x2f) || (cp >= 0x3a && cp <= 0x40) || (cp >= 0x5b && cp <= 0x60) || (cp >= 0x7b && cp <= 0x7e);
+const asciiPunct = (cp: number) =>
+  (cp >= 0x21 && cp <= 0x2f) || (cp >= 0x3a && cp <= 0x40) || (cp >= 0x5b && cp <= 0x60) || (cp >= 0x7b && cp <= 0x7e);
 
 const lists: Record<string, number[]> = { NOT_OTHER: [], OTHER: [], NOT_MN: [], MN: [], NOT_DECOMPOSED: [], NOT_PUNCT: [], PUNCT: [] };
 for (let cp = 0; cp < 0x110000; cp++) {
@@ -47,7 +48,7 @@ for (let cp = 0; cp < 0x110000; cp++) {
 const hex = (n: number) => `0x${n.toString(16)}`;
 for (const [name, cps] of Object.entries(lists)) {
   const ranges: string[] = [];
-  for (let i = 0; i < cps.length; ) {
+  for (let i = 0; i < cps.length;) {
     let j = i;
     while (j + 1 < cps.length && cps[j + 1] === cps[j]! + 1) j++;
     ranges.push(`${hex(cps[i]!)}, ${hex(cps[j]!)}`);

@@ -47,9 +47,15 @@ export const EDGE_OUTSIDE_TRAINING = [
   'Thai สวัสดีชาวโลก Devanagari नमस्ते दुनिया Cyrillic Привет мир Georgian ᲐᲑᲒ Cherokee ᏣᎳᎩ',
   'Mathematical 𝐇𝐞𝐥𝐥𝐨 𝔚𝔥𝔞𝔩𝔢 astral 𠀀𠀁 ideographs 葛\u{E0100} variation',
   '\uFFFD replacement \u0000 nul \uE000 private \u0378 unassigned \u{E0041} tag \u2E4F cornish',
-  'don\'t can\'t O\'Neill e-mail self-driving U.S.A. Mr. Starbuck\'s “Ahab” — the whale',
+  "don't can't O'Neill e-mail self-driving U.S.A. Mr. Starbuck's “Ahab” — the whale",
   'Greek question mark\u037E ano teleia\u0387 Hangul 한 ᄒ ᅡ ᆫ',
-  '', ' ', '\u200B', '\t\n', 'x', '.', '中',
+  '',
+  ' ',
+  '\u200B',
+  '\t\n',
+  'x',
+  '.',
+  '中',
 ];
 
 /** Every non-empty line of the later chapters (31 on): the varied text sample. */
@@ -125,11 +131,11 @@ export function firstDifference(
     const ob = theirs.offsets[k];
     if (a !== b || oa?.[0] !== ob?.[0] || oa?.[1] !== ob?.[1]) {
       const show = (id: number | undefined, o: [number, number] | undefined) =>
-        id === undefined ? '(none)' : `${id} ${JSON.stringify(idToToken(id))} [${o![0]}, ${o![1]}) ${JSON.stringify(text.slice(o![0], o![1]))}`;
+        id === undefined
+          ? '(none)'
+          : `${id} ${JSON.stringify(idToToken(id))} [${o![0]}, ${o![1]}) ${JSON.stringify(text.slice(o![0], o![1]))}`;
       const from = Math.max(0, (oa ?? ob)![0] - 20);
-      return (
-        `token ${k} of ${JSON.stringify(text.slice(from, from + 60))}…: ` + `ours ${show(a, oa)}, tokenizers ${show(b, ob)}`
-      );
+      return `token ${k} of ${JSON.stringify(text.slice(from, from + 60))}…: ` + `ours ${show(a, oa)}, tokenizers ${show(b, ob)}`;
     }
   }
   return null;

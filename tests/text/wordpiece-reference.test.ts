@@ -82,7 +82,9 @@ for (const lowercase of [true, false]) {
         if (theirs !== ourText) {
           let k = 0;
           while (theirs[k] === ourText[k]) k++;
-          expect.fail(`block U+${base.toString(16)}: first difference near ${JSON.stringify(theirs.slice(k - 4, k + 4))} (tokenizers) vs ${JSON.stringify(ourText.slice(k - 4, k + 4))} (ours)`);
+          expect.fail(
+            `block U+${base.toString(16)}: first difference near ${JSON.stringify(theirs.slice(k - 4, k + 4))} (tokenizers) vs ${JSON.stringify(ourText.slice(k - 4, k + 4))} (ours)`,
+          );
         }
       }
     });
@@ -115,7 +117,9 @@ for (const lowercase of [true, false]) {
         const want = js.encode(t, { add_special_tokens: false }).ids;
         const got = fromJson.encode(t).ids;
         if (JSON.stringify(want) !== JSON.stringify(got)) {
-          expect.fail(`@huggingface/tokenizers differs on ${JSON.stringify(t.slice(0, 80))}: ${JSON.stringify(want.slice(0, 20))} vs ours ${JSON.stringify(got.slice(0, 20))}`);
+          expect.fail(
+            `@huggingface/tokenizers differs on ${JSON.stringify(t.slice(0, 80))}: ${JSON.stringify(want.slice(0, 20))} vs ours ${JSON.stringify(got.slice(0, 20))}`,
+          );
         }
       }
     });
@@ -155,7 +159,11 @@ describe('vocabulary files', () => {
     expect(t.tokenToId('moby')).toBeUndefined();
     expect(t.idToToken(7)).toBe('##s');
     expect(() => t.idToToken(10)).toThrow(RangeError);
-    expect(WordPieceTokenizer.fromVocabTxt(t.toVocabTxt(), { lowercase: true }).encode('The whales').tokens).toEqual(['the', 'whale', '##s']);
+    expect(WordPieceTokenizer.fromVocabTxt(t.toVocabTxt(), { lowercase: true }).encode('The whales').tokens).toEqual([
+      'the',
+      'whale',
+      '##s',
+    ]);
   });
 
   test('vocab.txt: uppercase tokens make it cased unless told otherwise', () => {
@@ -177,7 +185,13 @@ describe('vocabulary files', () => {
     const good = {
       normalizer: { type: 'BertNormalizer', clean_text: true, handle_chinese_chars: true, strip_accents: null, lowercase: false },
       pre_tokenizer: { type: 'BertPreTokenizer' },
-      model: { type: 'WordPiece', unk_token: '[UNK]', continuing_subword_prefix: '##', max_input_chars_per_word: 100, vocab: Object.fromEntries(vocab.map((t, i) => [t, i])) },
+      model: {
+        type: 'WordPiece',
+        unk_token: '[UNK]',
+        continuing_subword_prefix: '##',
+        max_input_chars_per_word: 100,
+        vocab: Object.fromEntries(vocab.map((t, i) => [t, i])),
+      },
     };
     const t = WordPieceTokenizer.fromTokenizerJson(JSON.stringify(good), 'tok.json');
     expect([t.lowercase, t.stripAccents]).toEqual([false, false]);
@@ -185,11 +199,15 @@ describe('vocabulary files', () => {
     const bpe = { ...good, model: { ...good.model, type: 'BPE' } };
     expect(() => WordPieceTokenizer.fromTokenizerJson(JSON.stringify(bpe), 'tok.json')).toThrow(/tok\.json: field "model\.type" is "BPE"/);
     const gap = { ...good, model: { ...good.model, vocab: { ...good.model.vocab, whale: 42 } } };
-    expect(() => WordPieceTokenizer.fromTokenizerJson(JSON.stringify(gap), 'tok.json')).toThrow(/field "model\.vocab" gives "whale" the id 42/);
+    expect(() => WordPieceTokenizer.fromTokenizerJson(JSON.stringify(gap), 'tok.json')).toThrow(
+      /field "model\.vocab" gives "whale" the id 42/,
+    );
     const nfc = { ...good, normalizer: { type: 'NFC' } };
     expect(() => WordPieceTokenizer.fromTokenizerJson(JSON.stringify(nfc), 'tok.json')).toThrow(/field "normalizer\.type" is "NFC"/);
     const meta = { ...good, pre_tokenizer: { type: 'Metaspace' } };
-    expect(() => WordPieceTokenizer.fromTokenizerJson(JSON.stringify(meta), 'tok.json')).toThrow(/field "pre_tokenizer\.type" is "Metaspace"/);
+    expect(() => WordPieceTokenizer.fromTokenizerJson(JSON.stringify(meta), 'tok.json')).toThrow(
+      /field "pre_tokenizer\.type" is "Metaspace"/,
+    );
   });
 
   test('fromFileText tells tokenizer.json from vocab.txt', () => {

@@ -142,7 +142,12 @@ describe('AdamW update', () => {
 
 describe('AdamW state export/import', () => {
   it('continues after an import exactly as it would have without the break', () => {
-    const grads = [[0.5, -0.1], [-0.3, 0.2], [0.05, 0.4], [0.2, -0.6]];
+    const grads = [
+      [0.5, -0.1],
+      [-0.3, 0.2],
+      [0.05, 0.4],
+      [0.2, -0.6],
+    ];
     const straight = variables({ 'x.weight': [1, -1] });
     const optA = new AdamW(straight, { weightDecay: 0.01 });
     owned.push(optA);

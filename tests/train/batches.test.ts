@@ -110,7 +110,13 @@ describe('seeded order', () => {
   });
 
   it('seedAt separates uses and places', () => {
-    const seeds = new Set([seedAt(1, 'dropout', 0, 0), seedAt(1, 'dropout', 0, 1), seedAt(1, 'dropout', 1, 0), seedAt(1, 'mlm', 0, 0), seedAt(2, 'dropout', 0, 0)]);
+    const seeds = new Set([
+      seedAt(1, 'dropout', 0, 0),
+      seedAt(1, 'dropout', 0, 1),
+      seedAt(1, 'dropout', 1, 0),
+      seedAt(1, 'mlm', 0, 0),
+      seedAt(2, 'dropout', 0, 0),
+    ]);
     expect(seeds.size).toBe(5);
     expect(seedAt(1, 'shuffle', 3)).toBe(seedAt(1, 'shuffle', 3));
   });

@@ -64,8 +64,25 @@ describe('fineTune with a file checkpoint store (wasm)', () => {
     const words = (await readFile(join(DIR, 'vocab.txt'), 'utf8')).split('\n').filter((w) => /^[a-z]+$/.test(w));
     const train = records(words, 24, 7);
     const validation = records(words, 6, 8);
-    const config = trainConfig({ maxLength: 32, stride: 8, maxQueryLength: 8, batchSize: 4, gradAccumulation: 1, epochs: 2, dropout: 0.1, learningRate: 1e-3, evalEvery: 4 });
-    const common = { base: { params: b.params, config: b.config, name: 'fixture' }, tokenizer: b.tokenizer, train, validation, config, datasetHash: 'test-hash' };
+    const config = trainConfig({
+      maxLength: 32,
+      stride: 8,
+      maxQueryLength: 8,
+      batchSize: 4,
+      gradAccumulation: 1,
+      epochs: 2,
+      dropout: 0.1,
+      learningRate: 1e-3,
+      evalEvery: 4,
+    });
+    const common = {
+      base: { params: b.params, config: b.config, name: 'fixture' },
+      tokenizer: b.tokenizer,
+      train,
+      validation,
+      config,
+      datasetHash: 'test-hash',
+    };
     const losses = (into: number[]) => (e: LoopEvent) => {
       if (e.type === 'progress') into.push(e.loss);
     };
@@ -107,7 +124,15 @@ describe('fineTune with a file checkpoint store (wasm)', () => {
     const last = (await store.list()).pop()!;
     const config = trainConfig({ maxLength: 32, stride: 8, maxQueryLength: 8, batchSize: 4, gradAccumulation: 1, epochs: 2 });
     await expect(
-      fineTune({ base: { params: b.params, config: b.config, name: 'fixture' }, tokenizer: b.tokenizer, train, config, datasetHash: 'other', store, resumeFrom: last.id }),
+      fineTune({
+        base: { params: b.params, config: b.config, name: 'fixture' },
+        tokenizer: b.tokenizer,
+        train,
+        config,
+        datasetHash: 'other',
+        store,
+        resumeFrom: last.id,
+      }),
     ).rejects.toThrow(/trained on other data/);
     b.params.dispose();
   });

@@ -23,7 +23,16 @@ afterEach(() => {
 
 // 10 features, b = 2, A = 2: U = 3 updates per epoch (4 + 4 + 2 features), 2 epochs, S = 6
 const FEATURES = tinyFeatures(10, 21);
-const SETTINGS: Partial<TrainConfig> = { batchSize: 2, gradAccumulation: 2, epochs: 2, maxLength: 16, stride: 4, learningRate: 1e-3, warmupRatio: 0.2, seed: 9 };
+const SETTINGS: Partial<TrainConfig> = {
+  batchSize: 2,
+  gradAccumulation: 2,
+  epochs: 2,
+  maxLength: 16,
+  stride: 4,
+  learningRate: 1e-3,
+  warmupRatio: 0.2,
+  seed: 9,
+};
 
 function fresh(overrides: Partial<TrainConfig> = {}, weights?: NamedTensors) {
   const config = trainConfig({ ...SETTINGS, ...overrides });
@@ -41,25 +50,35 @@ describe('trainLoop', () => {
     const trainer = fresh();
     const log: string[] = [];
     const events: LoopEvent[] = [];
-    const outcome = await trainLoop(trainer, { kind: 'span', features: FEATURES }, {
-      evaluate: (update) => {
-        log.push(`eval@${update}`);
-        return { em: update };
+    const outcome = await trainLoop(
+      trainer,
+      { kind: 'span', features: FEATURES },
+      {
+        evaluate: (update) => {
+          log.push(`eval@${update}`);
+          return { em: update };
+        },
+        saveCheckpoint: (request) => {
+          log.push(`save:${request.reason}@${request.state.trainer.update}:${JSON.stringify(request.metrics)}`);
+        },
+        onEvent: (event) => {
+          events.push(event);
+          if (event.type === 'progress') log.push(`step→${event.update}`);
+        },
+        yieldToEvents: noWait,
       },
-      saveCheckpoint: (request) => {
-        log.push(`save:${request.reason}@${request.state.trainer.update}:${JSON.stringify(request.metrics)}`);
-      },
-      onEvent: (event) => {
-        events.push(event);
-        if (event.type === 'progress') log.push(`step→${event.update}`);
-      },
-      yieldToEvents: noWait,
-    });
+    );
     expect(log).toEqual([
-      'step→1', 'step→2', 'step→3',
-      'eval@3', 'save:interval@3:{"em":3}',
-      'step→4', 'step→5', 'step→6',
-      'eval@6', 'save:end@6:{"em":6}',
+      'step→1',
+      'step→2',
+      'step→3',
+      'eval@3',
+      'save:interval@3:{"em":3}',
+      'step→4',
+      'step→5',
+      'step→6',
+      'eval@6',
+      'save:end@6:{"em":6}',
     ]);
     expect(outcome.status).toBe('finished');
     expect(outcome.state).toEqual({ trainer: { update: 6, seed: 9 }, order: { epoch: 2, index: 0 }, totalUpdates: 6, features: 10 });
@@ -76,16 +95,20 @@ describe('trainLoop', () => {
 
   it('honours evalEvery and checkpointEvery counted in updates', async () => {
     const log: string[] = [];
-    await trainLoop(fresh({ evalEvery: 2, checkpointEvery: 4 }), { kind: 'span', features: FEATURES }, {
-      evaluate: (update) => {
-        log.push(`eval@${update}`);
-        return {};
+    await trainLoop(
+      fresh({ evalEvery: 2, checkpointEvery: 4 }),
+      { kind: 'span', features: FEATURES },
+      {
+        evaluate: (update) => {
+          log.push(`eval@${update}`);
+          return {};
+        },
+        saveCheckpoint: (r) => {
+          log.push(`${r.reason}@${r.state.trainer.update}`);
+        },
+        yieldToEvents: noWait,
       },
-      saveCheckpoint: (r) => {
-        log.push(`${r.reason}@${r.state.trainer.update}`);
-      },
-      yieldToEvents: noWait,
-    });
+    );
     expect(log).toEqual(['eval@2', 'eval@4', 'interval@4', 'eval@6', 'end@6']);
   });
 
@@ -133,7 +156,8 @@ describe('trainLoop', () => {
     await trainLoop(first, task, {
       shouldStop: () => first.updatesDone >= 3,
       saveCheckpoint: (r: CheckpointRequest) => {
-        if (r.reason === 'interval' && r.state.trainer.update === 2) saved = { state: structuredClone(r.state), weights: r.weights(), optimizer: r.optimizer() };
+        if (r.reason === 'interval' && r.state.trainer.update === 2)
+          saved = { state: structuredClone(r.state), weights: r.weights(), optimizer: r.optimizer() };
       },
       yieldToEvents: noWait,
     });
@@ -141,7 +165,12 @@ describe('trainLoop', () => {
     const resumed = fresh({ checkpointEvery: 2 }, checkpoint.weights);
     resumed.restore(checkpoint.state.trainer, checkpoint.optimizer);
     const savedAt: number[] = [];
-    await trainLoop(resumed, task, { saveCheckpoint: (r: CheckpointRequest) => void savedAt.push(r.state.trainer.update), yieldToEvents: noWait }, checkpoint.state);
+    await trainLoop(
+      resumed,
+      task,
+      { saveCheckpoint: (r: CheckpointRequest) => void savedAt.push(r.state.trainer.update), yieldToEvents: noWait },
+      checkpoint.state,
+    );
     // due at 2 (where it resumed: not again) and 4, then the end at 6
     expect(savedAt).toEqual([4, 6]);
   });
@@ -149,20 +178,26 @@ describe('trainLoop', () => {
   it('stops on an aborted signal', async () => {
     const controller = new AbortController();
     const trainer = fresh();
-    const outcome = await trainLoop(trainer, { kind: 'span', features: FEATURES }, {
-      signal: controller.signal,
-      onEvent: (e) => {
-        if (e.type === 'progress' && e.update === 2) controller.abort();
+    const outcome = await trainLoop(
+      trainer,
+      { kind: 'span', features: FEATURES },
+      {
+        signal: controller.signal,
+        onEvent: (e) => {
+          if (e.type === 'progress' && e.update === 2) controller.abort();
+        },
+        yieldToEvents: noWait,
       },
-      yieldToEvents: noWait,
-    });
+    );
     expect(outcome).toMatchObject({ status: 'stopped', state: { trainer: { update: 2 }, order: { epoch: 0, index: 8 } } });
   });
 
   it('refuses to resume a run planned over other data, or a trainer not restored', async () => {
     const trainer = fresh();
     const state: RunState = { trainer: { update: 2, seed: 9 }, order: { epoch: 0, index: 8 }, totalUpdates: 6, features: 10 };
-    await expect(trainLoop(trainer, { kind: 'span', features: FEATURES }, {}, { ...state, features: 12 })).rejects.toThrow(/planned 6 updates over 12 features/);
+    await expect(trainLoop(trainer, { kind: 'span', features: FEATURES }, {}, { ...state, features: 12 })).rejects.toThrow(
+      /planned 6 updates over 12 features/,
+    );
     await expect(trainLoop(trainer, { kind: 'span', features: FEATURES }, {}, state)).rejects.toThrow(/call trainer.restore first/);
   });
 

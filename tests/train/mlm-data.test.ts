@@ -41,7 +41,15 @@ function randomDocs(count: number, seed: number): DocumentTokens {
 describe('packDocuments', () => {
   it('cuts the [SEP]-joined stream into full [CLS] … [SEP] rows, padding only the last', () => {
     // stream: 10 11 12 SEP 20 21 SEP 30 31 32 33 34 35 — rows of T − 2 = 4 tokens
-    const packed = packDocuments(docs([[10, 11, 12], [20, 21], [30, 31, 32, 33, 34, 35]]), 6, IDS);
+    const packed = packDocuments(
+      docs([
+        [10, 11, 12],
+        [20, 21],
+        [30, 31, 32, 33, 34, 35],
+      ]),
+      6,
+      IDS,
+    );
     expect(packed.count).toBe(4);
     expect(row(packed, 0)).toEqual([CLS, 10, 11, 12, SEP, SEP]);
     expect(row(packed, 1)).toEqual([CLS, 20, 21, SEP, 30, SEP]);
@@ -52,14 +60,25 @@ describe('packDocuments', () => {
 
   it('never opens a row with the separator between two documents', () => {
     // stream: 10 11 12 13 | SEP 20 21 — the SEP falls at the start of row 2 and is dropped
-    const packed = packDocuments(docs([[10, 11, 12, 13], [20, 21]]), 6, IDS);
+    const packed = packDocuments(
+      docs([
+        [10, 11, 12, 13],
+        [20, 21],
+      ]),
+      6,
+      IDS,
+    );
     expect(row(packed, 0)).toEqual([CLS, 10, 11, 12, 13, SEP]);
     expect(row(packed, 1)).toEqual([CLS, 20, 21, SEP, PAD, PAD]);
   });
 
   it('keeps every document token, in order, and skips empty documents', () => {
     const input = randomDocs(200, 7);
-    const withEmpty: DocumentTokens = docs([[], ...Array.from({ length: 200 }, (_, d) => Array.from(input.ids.subarray(input.starts[d], input.starts[d + 1]))), []]);
+    const withEmpty: DocumentTokens = docs([
+      [],
+      ...Array.from({ length: 200 }, (_, d) => Array.from(input.ids.subarray(input.starts[d], input.starts[d + 1]))),
+      [],
+    ]);
     const packed = packDocuments(withEmpty, 128, IDS);
     const bodies: number[] = [];
     for (let r = 0; r < packed.count; r++) {
@@ -75,7 +94,9 @@ describe('packDocuments', () => {
 
   it('names the problem with bad input', () => {
     expect(() => packDocuments(docs([[5, 6]]), 2, IDS)).toThrow(/maxLength/);
-    expect(() => packDocuments({ ids: new Int32Array(3), starts: Int32Array.from([0, 2]) }, 8, IDS)).toThrow(/starts must run from 0 to ids.length/);
+    expect(() => packDocuments({ ids: new Int32Array(3), starts: Int32Array.from([0, 2]) }, 8, IDS)).toThrow(
+      /starts must run from 0 to ids.length/,
+    );
   });
 });
 
@@ -128,10 +149,13 @@ describe('maskedBatch (BERT masking over packed rows)', () => {
    */
   function expectBinomial(observed: number, n: number, p: number): void {
     const tolerance = 4 * Math.sqrt(n * p * (1 - p));
-    expect(Math.abs(observed - n * p), `observed ${observed} of ${n}, expected ${(n * p).toFixed(1)} ± ${tolerance.toFixed(1)}`).toBeLessThanOrEqual(tolerance);
+    expect(
+      Math.abs(observed - n * p),
+      `observed ${observed} of ${n}, expected ${(n * p).toFixed(1)} ± ${tolerance.toFixed(1)}`,
+    ).toBeLessThanOrEqual(tolerance);
   }
 
-  it("chooses 15% of the non-special tokens, and 80/10/10 of those (Devlin et al. 2019, §3.1)", () => {
+  it('chooses 15% of the non-special tokens, and 80/10/10 of those (Devlin et al. 2019, §3.1)', () => {
     const t = tally(1);
     expect(t.eligible).toBeGreaterThan(50_000);
     expectBinomial(t.chosen, t.eligible, 0.15);

@@ -28,11 +28,25 @@ import { compareValues, loadFixture, namedFromJson, type JsonTensor } from '../m
 
 interface ModelFixture {
   config: ReaderConfig;
-  inputs: { input_ids: number[][]; token_type_ids: number[][]; attention_mask: number[][]; start_positions: number[]; end_positions: number[] };
+  inputs: {
+    input_ids: number[][];
+    token_type_ids: number[][];
+    attention_mask: number[][];
+    start_positions: number[];
+    end_positions: number[];
+  };
   weights: Record<string, JsonTensor>;
 }
 interface AdamWFixture {
-  settings: { base_lr: number; betas: [number, number]; eps: number; weight_decay: number; total_updates: number; warmup_updates: number; max_grad_norm: number };
+  settings: {
+    base_lr: number;
+    betas: [number, number];
+    eps: number;
+    weight_decay: number;
+    total_updates: number;
+    warmup_updates: number;
+    max_grad_norm: number;
+  };
   steps: { update: number; lr: number; loss: number; grad_norm: number; clipped: boolean }[];
   params_after: Record<string, JsonTensor>;
 }
@@ -95,7 +109,9 @@ for (const backend of ['cpu', 'wasm'] as BackendName[]) {
         const got = results[k];
         expect(got.lr, `update ${k} lr`).toBeCloseTo(want.lr, 12);
         expect(Math.abs(got.loss - want.loss), `update ${k} loss ${got.loss} vs ${want.loss}`).toBeLessThan(1e-4 * Math.abs(want.loss));
-        expect(Math.abs(got.gradNorm - want.grad_norm), `update ${k} norm ${got.gradNorm} vs ${want.grad_norm}`).toBeLessThan(1e-4 * want.grad_norm);
+        expect(Math.abs(got.gradNorm - want.grad_norm), `update ${k} norm ${got.gradNorm} vs ${want.grad_norm}`).toBeLessThan(
+          1e-4 * want.grad_norm,
+        );
         expect(got.clipScale < 1, `update ${k} clipped`).toBe(want.clipped);
       });
     });

@@ -59,11 +59,7 @@ export function snapshot(variables: Map<string, { dataSync(): unknown }>): Map<s
 }
 
 /** The first entry that differs beyond `tol` (relative to max(1, |expected|)), or null. */
-export function firstDifference(
-  actual: Map<string, Float32Array>,
-  expected: Map<string, Float32Array>,
-  tol: number,
-): string | null {
+export function firstDifference(actual: Map<string, Float32Array>, expected: Map<string, Float32Array>, tol: number): string | null {
   for (const [name, want] of expected) {
     const got = actual.get(name);
     if (got === undefined) return `${name}: missing`;

@@ -22,7 +22,16 @@ afterEach(() => {
 });
 
 function makeTrainer(overrides: Partial<TrainConfig> = {}, features = 8, initSeed = 1, modelConfig = TINY) {
-  const config = trainConfig({ batchSize: 2, gradAccumulation: 1, epochs: 1, maxLength: 16, stride: 4, learningRate: 1e-3, warmupRatio: 0, ...overrides });
+  const config = trainConfig({
+    batchSize: 2,
+    gradAccumulation: 1,
+    epochs: 1,
+    maxLength: 16,
+    stride: 4,
+    learningRate: 1e-3,
+    warmupRatio: 0,
+    ...overrides,
+  });
   const params = ReaderParams.init(modelConfig, initSeed);
   const trainer = new Trainer(params, modelConfig, config, planTraining(config, features));
   owned.push(params, trainer);
@@ -114,7 +123,13 @@ describe('Trainer.step', () => {
     expect(firstDifference(snapshot(params.variables), weights, 0)).toBeNull();
     const after = trainer.optimizerState();
     expect(after.steps).toEqual(moments.steps);
-    expect(firstDifference(new Map([...after.tensors].map(([k, t]) => [k, t.data])), new Map([...moments.tensors].map(([k, t]) => [k, t.data])), 0)).toBeNull();
+    expect(
+      firstDifference(
+        new Map([...after.tensors].map(([k, t]) => [k, t.data])),
+        new Map([...moments.tensors].map(([k, t]) => [k, t.data])),
+        0,
+      ),
+    ).toBeNull();
     expect(trainer.updatesDone).toBe(2);
   });
 
@@ -213,7 +228,13 @@ describe('Trainer optimizer state', () => {
     other.restore(trainer.state(), saved);
     expect(other.updatesDone).toBe(1);
     const again = other.optimizerState();
-    expect(firstDifference(new Map([...again.tensors].map(([k, t]) => [k, t.data])), new Map([...saved.tensors].map(([k, t]) => [k, t.data])), 0)).toBeNull();
+    expect(
+      firstDifference(
+        new Map([...again.tensors].map(([k, t]) => [k, t.data])),
+        new Map([...saved.tensors].map(([k, t]) => [k, t.data])),
+        0,
+      ),
+    ).toBeNull();
     expect(() => other.restore({ update: 1, seed: 999 }, saved)).toThrow(/seed 999/);
   });
 });

@@ -100,8 +100,13 @@ function parseSource(file: string, source: string): SourcePassage[] {
     if (heading) {
       closePassage(lineNo);
       current = {
-        file, line: lineNo, id: heading[1]!, split: heading[2] as Split,
-        title: heading[3]!.trim(), text: '', questions: [],
+        file,
+        line: lineNo,
+        id: heading[1]!,
+        split: heading[2] as Split,
+        title: heading[3]!.trim(),
+        text: '',
+        questions: [],
       };
       inQuestions = false;
       paragraphs = [[]];
@@ -269,10 +274,15 @@ function writeChecked(records: QARecord[], format: DataFormat, file: string): vo
 }
 
 function main(): void {
-  const files = readdirSync(SOURCE_DIR).filter((f) => f.endsWith('.md')).sort();
+  const files = readdirSync(SOURCE_DIR)
+    .filter((f) => f.endsWith('.md'))
+    .sort();
   if (files.length === 0) throw new BuildError(`${SOURCE_DIR}: no .md source files`);
   const passages = files.flatMap((f) => parseSource(join('source', f), readFileSync(join(SOURCE_DIR, f), 'utf8')));
-  const records = new Map<Split, QARecord[]>([['train', []], ['validation', []]]);
+  const records = new Map<Split, QARecord[]>([
+    ['train', []],
+    ['validation', []],
+  ]);
   // every answer is placed before any error is raised, so one run names them all
   const errors: string[] = [];
   for (const p of passages) records.get(p.split)!.push(...toRecords(p, errors));
@@ -304,8 +314,10 @@ function main(): void {
   const count = (rs: QARecord[]) => `${rs.length} questions (${rs.filter((r) => r.unanswerable).length} unanswerable)`;
   const splitPassages = (s: Split) => passages.filter((p) => p.split === s).length;
   const words = passages.map((p) => wordCount(p.text));
-  console.log(`passages: ${passages.length} (train ${splitPassages('train')}, validation ${splitPassages('validation')}); ` +
-    `words ${Math.min(...words)}–${Math.max(...words)}, ${words.filter((w) => w > TARGETS.longWords).length} over ${TARGETS.longWords}`);
+  console.log(
+    `passages: ${passages.length} (train ${splitPassages('train')}, validation ${splitPassages('validation')}); ` +
+      `words ${Math.min(...words)}–${Math.max(...words)}, ${words.filter((w) => w > TARGETS.longWords).length} over ${TARGETS.longWords}`,
+  );
   console.log(`all: ${count(all)}, unanswerable share ${(all.filter((r) => r.unanswerable).length / all.length).toFixed(3)}`);
   console.log(`train: ${count(records.get('train')!)}`);
   console.log(`validation: ${count(records.get('validation')!)}`);

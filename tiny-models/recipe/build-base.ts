@@ -154,7 +154,8 @@ function parseArgs(argv: string[]): Args {
       (settings as unknown as Record<string, number>)[key] = n;
       given.add(key);
     } else if (flag === '--preset') {
-      if (!CANDIDATES.some((c) => c.name === value)) throw new Error(`--preset: unknown size "${value}" (known: ${CANDIDATES.map((c) => c.name).join(', ')})`);
+      if (!CANDIDATES.some((c) => c.name === value))
+        throw new Error(`--preset: unknown size "${value}" (known: ${CANDIDATES.map((c) => c.name).join(', ')})`);
       settings.preset = value;
       given.add('preset');
     } else if (flag === '--out') {
@@ -168,14 +169,20 @@ function parseArgs(argv: string[]): Args {
       given.add('work');
     } else throw new Error(`unknown flag ${flag}`);
   }
-  if (settings.maxLen < 8 || settings.maxLen > settings.longLen) throw new Error(`--max-len must be in [8, ${settings.longLen}], got ${settings.maxLen}`);
+  if (settings.maxLen < 8 || settings.maxLen > settings.longLen)
+    throw new Error(`--max-len must be in [8, ${settings.longLen}], got ${settings.maxLen}`);
   return { settings, given, finish };
 }
 
 function modelConfig(s: RecipeSettings, vocabSize: number): ReaderConfig {
   const candidate = CANDIDATES.find((c) => c.name === s.preset)!;
   // positions cover 512 so fine-tuning windows of 384 fit; dropout as BERT's pretraining
-  return presetConfig('tiny', vocabSize, { ...candidate.overrides, maxPositions: 512, hiddenDropout: s.dropout, attentionDropout: s.dropout });
+  return presetConfig('tiny', vocabSize, {
+    ...candidate.overrides,
+    maxPositions: 512,
+    hiddenDropout: s.dropout,
+    attentionDropout: s.dropout,
+  });
 }
 
 // ---- logging -------------------------------------------------------------------------
@@ -238,7 +245,13 @@ async function prepare(s: RecipeSettings): Promise<Prepared> {
     const initText = s.init === null ? null : readFileSync(join(s.init, 'vocab.txt'), 'utf8');
     if (manifest.vocabSize === s.vocabSize && (initText === null || initText === vocabText)) {
       log(`data: cached in ${dir} (${manifest.tokens.train} training tokens, ${manifest.tokens.heldout} held out)`);
-      return { vocab: vocabText.trimEnd().split('\n'), tokenizer: WordPieceTokenizer.fromVocabTxt(vocabText), train: readIds(join(dir, 'train')), heldout: readIds(join(dir, 'heldout')), manifest };
+      return {
+        vocab: vocabText.trimEnd().split('\n'),
+        tokenizer: WordPieceTokenizer.fromVocabTxt(vocabText),
+        train: readIds(join(dir, 'train')),
+        heldout: readIds(join(dir, 'heldout')),
+        manifest,
+      };
     }
     log(`data: cache in ${dir} was built for another vocabulary (${manifest.vocabSize} tokens), rebuilding`);
   }
@@ -252,7 +265,11 @@ async function prepare(s: RecipeSettings): Promise<Prepared> {
   log(`corpus: ${docs.length} documents, ${heldDocs.length} held out`);
 
   // 2. vocabulary
-  const built = await buildVocabulary(trainDocs.map((d) => d.text), s.vocabSize, dir);
+  const built = await buildVocabulary(
+    trainDocs.map((d) => d.text),
+    s.vocabSize,
+    dir,
+  );
   const report = built.report;
   let vocab = built.vocab;
   if (s.init !== null) {
@@ -261,12 +278,16 @@ async function prepare(s: RecipeSettings): Promise<Prepared> {
     const theirs = readFileSync(join(s.init, 'vocab.txt'), 'utf8').trimEnd().split('\n');
     const ours = new Set(vocab);
     const differ = theirs.filter((t) => !ours.has(t)).length;
-    log(`vocabulary: ${relative(repo, s.init)}/vocab.txt kept for --init (${differ} of its ${theirs.length} tokens differ from this build's)`);
+    log(
+      `vocabulary: ${relative(repo, s.init)}/vocab.txt kept for --init (${differ} of its ${theirs.length} tokens differ from this build's)`,
+    );
     vocab = theirs;
   }
   const vocabText = `${vocab.join('\n')}\n`;
   writeFileSync(join(dir, 'vocab.txt'), vocabText);
-  log(`vocabulary: trained ${report.trainedSize} tokens, cut to ${report.size}; tokens per word ${report.full.tokensPerWord.toFixed(3)} → ${report.cut.tokensPerWord.toFixed(3)}; [UNK] ${report.cut.unk}`);
+  log(
+    `vocabulary: trained ${report.trainedSize} tokens, cut to ${report.size}; tokens per word ${report.full.tokensPerWord.toFixed(3)} → ${report.cut.tokensPerWord.toFixed(3)}; [UNK] ${report.cut.unk}`,
+  );
 
   // 3. tokens, with the runtime tokenizer
   const tokenizer = WordPieceTokenizer.fromVocabTxt(vocabText);
@@ -338,11 +359,14 @@ function readInit(dir: string, config: ReaderConfig, vocab: readonly string[]): 
   if (absent.length > 0) throw new Error(`--init ${dir}: ${absent.join(', ')} not found; it must be a folder this recipe wrote`);
   const theirs = readFileSync(join(dir, 'vocab.txt'), 'utf8').trimEnd().split('\n');
   if (theirs.length !== vocab.length || theirs.some((t, i) => t !== vocab[i])) {
-    throw new Error(`--init ${dir}: vocab.txt differs from the recipe's vocabulary (${theirs.length} vs ${vocab.length} tokens); the weights would not line up`);
+    throw new Error(
+      `--init ${dir}: vocab.txt differs from the recipe's vocabulary (${theirs.length} vs ${vocab.length} tokens); the weights would not line up`,
+    );
   }
   const theirConfig = configFromHf(JSON.parse(readFileSync(join(dir, 'config.json'), 'utf8')), join(dir, 'config.json'));
   for (const key of ['hiddenSize', 'numLayers', 'numHeads', 'intermediateSize', 'maxPositions', 'vocabSize'] as const) {
-    if (theirConfig[key] !== config[key]) throw new Error(`--init ${dir}: config.json ${key} is ${theirConfig[key]}, this run's size needs ${config[key]}`);
+    if (theirConfig[key] !== config[key])
+      throw new Error(`--init ${dir}: config.json ${key} is ${theirConfig[key]}, this run's size needs ${config[key]}`);
   }
   const prior = JSON.parse(readFileSync(join(dir, 'pretraining.json'), 'utf8')) as {
     steps: number;
@@ -416,18 +440,22 @@ async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMet
   if (saved !== undefined) {
     const ckpt = await store.load(saved.id);
     meta = ckpt.meta;
-    if (meta.datasetHash !== data.manifest.datasetHash) throw new Error(`checkpoint ${saved.id}: made on other training data (hash ${meta.datasetHash}, now ${data.manifest.datasetHash})`);
+    if (meta.datasetHash !== data.manifest.datasetHash)
+      throw new Error(`checkpoint ${saved.id}: made on other training data (hash ${meta.datasetHash}, now ${data.manifest.datasetHash})`);
     const overridden = [...args.given].filter((k) => k !== 'out' && k !== 'work' && meta.settings[k] !== s[k]);
     // the budget and the output folder may change on a rerun; the rest stays as saved
     const minutes = args.given.has('minutes') ? s.minutes : meta.settings.minutes;
     s = { ...meta.settings, minutes, out: s.out, work: s.work };
     meta.settings = s;
-    if (overridden.filter((k) => k !== 'minutes').length > 0) log(`resume: keeping the saved ${overridden.filter((k) => k !== 'minutes').join(', ')} (a run's settings cannot change midway)`);
+    if (overridden.filter((k) => k !== 'minutes').length > 0)
+      log(`resume: keeping the saved ${overridden.filter((k) => k !== 'minutes').join(', ')} (a run's settings cannot change midway)`);
     const config = modelConfig(s, data.vocab.length);
     const weights: NamedTensors = new Map([...ckpt.tensors].filter(([k]) => !k.startsWith('adam.')));
     params = ReaderParams.fromNamed(config, weights, { source: saved.id }).params;
     adam = { steps: meta.adamSteps, tensors: new Map([...ckpt.tensors].filter(([k]) => k.startsWith('adam.'))) };
-    log(`resume: ${saved.id} — step ${meta.step}, ${(meta.elapsedMs / 60000).toFixed(1)} of ${s.minutes} min, ${meta.tokensSeen} tokens seen`);
+    log(
+      `resume: ${saved.id} — step ${meta.step}, ${(meta.elapsedMs / 60000).toFixed(1)} of ${s.minutes} min, ${meta.tokensSeen} tokens seen`,
+    );
   } else {
     const config = modelConfig(s, data.vocab.length);
     let initFrom: InitFrom | null = null;
@@ -435,7 +463,9 @@ async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMet
       const init = readInit(s.init, config, data.vocab);
       params = ReaderParams.fromNamed(config, init.weights, { seed: s.seed, source: s.init }).params;
       initFrom = init.from;
-      log(`start: continuing from ${init.from.dir} (${init.from.steps} updates, ${init.from.tokensSeen} tokens seen there); the optimizer starts afresh`);
+      log(
+        `start: continuing from ${init.from.dir} (${init.from.steps} updates, ${init.from.tokensSeen} tokens seen there); the optimizer starts afresh`,
+      );
     } else {
       params = ReaderParams.init(config, s.seed);
     }
@@ -455,15 +485,23 @@ async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMet
       heldout: null,
       initFrom,
     };
-    log(`start: ${s.preset}, ${paramCount(config).total} parameters, budget ${s.minutes} min, T ${s.maxLen} then ${s.longLen} for the last ${s.longShare * 100}%`);
+    log(
+      `start: ${s.preset}, ${paramCount(config).total} parameters, budget ${s.minutes} min, T ${s.maxLen} then ${s.longLen} for the last ${s.longShare * 100}%`,
+    );
   }
   const config = modelConfig(s, data.vocab.length);
-  if (args.finish && saved === undefined) throw new Error(`--finish: no checkpoint in ${join(s.work, 'checkpoints')} to finish from; run without --finish first`);
+  if (args.finish && saved === undefined)
+    throw new Error(`--finish: no checkpoint in ${join(s.work, 'checkpoints')} to finish from; run without --finish first`);
 
   const trainer = new MaskedLmTrainer(params, config, { weightDecay: s.weightDecay, maxGradNorm: s.maxGradNorm });
   if (adam !== null) trainer.restoreOptimizer(adam);
   const tok = data.tokenizer;
-  const masking: MlmMasking = { probability: 0.15, maskId: tok.maskId, vocabSize: data.vocab.length, specialIds: [tok.padId, tok.unkId, tok.clsId, tok.sepId, tok.maskId] };
+  const masking: MlmMasking = {
+    probability: 0.15,
+    maskId: tok.maskId,
+    vocabSize: data.vocab.length,
+    specialIds: [tok.padId, tok.unkId, tok.clsId, tok.sepId, tok.maskId],
+  };
   const phases = new Phases(data);
   const budgetMs = s.minutes * 60_000;
 
@@ -472,7 +510,9 @@ async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMet
     const result = trainer.evaluate(heldoutBatches(phases.at(T).heldout, rows, masking, s.seed, batchRows));
     meta.heldout = { ...result, atStep: meta.step };
     meta.metrics = { ...meta.metrics, heldoutLoss: result.loss, heldoutAccuracy: result.accuracy };
-    log(`held-out (T ${T}, ${result.predicted} masked tokens): MLM loss ${result.loss.toFixed(4)}, accuracy ${(100 * result.accuracy).toFixed(2)}%`);
+    log(
+      `held-out (T ${T}, ${result.predicted} masked tokens): MLM loss ${result.loss.toFixed(4)}, accuracy ${(100 * result.accuracy).toFixed(2)}%`,
+    );
   };
   const save = async (label: string) => {
     const optimizer = trainer.optimizerState();
@@ -544,7 +584,8 @@ async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMet
         index = 0;
         continue;
       }
-      const r = epoch === meta.dataPosition.epoch ? order[index]! : shuffledOrderCached(train.count, seedAt(s.seed, 'shuffle', T, epoch))[index]!;
+      const r =
+        epoch === meta.dataPosition.epoch ? order[index]! : shuffledOrderCached(train.count, seedAt(s.seed, 'shuffle', T, epoch))[index]!;
       picked.push(r);
       tokens += train.lengths[r]!;
       index++;
@@ -598,7 +639,8 @@ async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMet
 
 let orderCache: { count: number; seed: number; order: Uint32Array } | null = null;
 function shuffledOrderCached(count: number, seed: number): Uint32Array {
-  if (orderCache === null || orderCache.count !== count || orderCache.seed !== seed) orderCache = { count, seed, order: shuffledOrder(count, seed) };
+  if (orderCache === null || orderCache.count !== count || orderCache.seed !== seed)
+    orderCache = { count, seed, order: shuffledOrder(count, seed) };
   return orderCache.order;
 }
 
@@ -610,12 +652,17 @@ async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, par
   const weights: NamedTensors = new Map([...params.toNamed()].filter(([k]) => !k.startsWith('qa_outputs.')));
   const hf = { ...configToHf(config), architectures: ['BertForMaskedLM'] };
   writeFileSync(join(s.out, 'config.json'), `${JSON.stringify(hf, null, 2)}\n`);
-  const bytes = namedToSafetensors(weights, { dtype: 'F16', metadata: { format: 'pt', 'spanwright.recipe': 'tiny-models/recipe/build-base.ts', 'spanwright.step': String(meta.step) } });
+  const bytes = namedToSafetensors(weights, {
+    dtype: 'F16',
+    metadata: { format: 'pt', 'spanwright.recipe': 'tiny-models/recipe/build-base.ts', 'spanwright.step': String(meta.step) },
+  });
   writeFileSync(join(s.out, 'model.safetensors'), bytes);
   writeFileSync(join(s.out, 'vocab.txt'), `${data.vocab.join('\n')}\n`);
 
   const sizesPath = join(here, 'measured-sizes.json');
-  const sizes = existsSync(sizesPath) ? (JSON.parse(readFileSync(sizesPath, 'utf8')) as { sizes: SizeMeasurement[]; measuredAt: string; vocab: number }) : null;
+  const sizes = existsSync(sizesPath)
+    ? (JSON.parse(readFileSync(sizesPath, 'utf8')) as { sizes: SizeMeasurement[]; measuredAt: string; vocab: number })
+    : null;
   const pretraining = {
     preset: s.preset,
     steps: meta.step,
@@ -635,7 +682,10 @@ async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, par
     tokensSeen: meta.tokensSeen,
     trainingMinutes: meta.elapsedMs / 60000,
     heldout: meta.heldout,
-    heldoutShort: meta.metrics.heldoutLossShort === undefined ? null : { loss: meta.metrics.heldoutLossShort, accuracy: meta.metrics.heldoutAccuracyShort ?? Number.NaN, length: s.maxLen },
+    heldoutShort:
+      meta.metrics.heldoutLossShort === undefined
+        ? null
+        : { loss: meta.metrics.heldoutLossShort, accuracy: meta.metrics.heldoutAccuracyShort ?? Number.NaN, length: s.maxLen },
     settings: s,
     manifest: data.manifest,
     initFrom: meta.initFrom ?? null,
@@ -644,11 +694,23 @@ async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, par
     weightsBytes: bytes.length,
   };
   // the card's facts go along, so that a later stage (span-pretrain.ts) can render the card again
-  const card = { ...facts, settings: { ...s, out: undefined, work: undefined, init: undefined }, manifest: { ...data.manifest, heldoutIds: undefined } };
-  writeFileSync(join(s.out, 'pretraining.json'), `${JSON.stringify({ ...pretraining, data: { ...data.manifest, heldoutIds: undefined }, card }, null, 2)}\n`);
+  const card = {
+    ...facts,
+    settings: { ...s, out: undefined, work: undefined, init: undefined },
+    manifest: { ...data.manifest, heldoutIds: undefined },
+  };
+  writeFileSync(
+    join(s.out, 'pretraining.json'),
+    `${JSON.stringify({ ...pretraining, data: { ...data.manifest, heldoutIds: undefined }, card }, null, 2)}\n`,
+  );
   writeFileSync(join(s.out, 'MODEL_CARD.md'), renderBaseCard(facts));
-  const total = ['config.json', 'model.safetensors', 'vocab.txt', 'MODEL_CARD.md', 'pretraining.json'].reduce((n, f) => n + statSync(join(s.out, f)).size, 0);
-  log(`finish: wrote ${s.out} (model.safetensors ${(bytes.length / 1e6).toFixed(2)} MB, ${(total / 1e6).toFixed(2)} MB in all) from step ${meta.step}`);
+  const total = ['config.json', 'model.safetensors', 'vocab.txt', 'MODEL_CARD.md', 'pretraining.json'].reduce(
+    (n, f) => n + statSync(join(s.out, f)).size,
+    0,
+  );
+  log(
+    `finish: wrote ${s.out} (model.safetensors ${(bytes.length / 1e6).toFixed(2)} MB, ${(total / 1e6).toFixed(2)} MB in all) from step ${meta.step}`,
+  );
 }
 
 // ---- main ----------------------------------------------------------------------------
@@ -667,7 +729,13 @@ async function main(argv: string[]): Promise<void> {
     log('stopped; run the same command again to continue, or add --finish to write the folder from the newest checkpoint');
     return;
   }
-  await finish(result.meta.settings.out === args.settings.out ? result.meta.settings : { ...result.meta.settings, out: args.settings.out }, data, result.meta, result.params, result.config);
+  await finish(
+    result.meta.settings.out === args.settings.out ? result.meta.settings : { ...result.meta.settings, out: args.settings.out },
+    data,
+    result.meta,
+    result.params,
+    result.config,
+  );
   result.params.dispose();
 }
 

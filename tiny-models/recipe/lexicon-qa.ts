@@ -74,7 +74,11 @@ export const RELATIONS: readonly Relation[] = [
   },
   {
     key: 'other-name',
-    frames: { noun: ['{A} {N} is also called {V}.', 'Another name for {N} is {V}.'], verb: ['To {N} is also to {V}.', 'Another verb for {N} is {V}.'], adj: ['Another word for {N} is {V}.'] },
+    frames: {
+      noun: ['{A} {N} is also called {V}.', 'Another name for {N} is {V}.'],
+      verb: ['To {N} is also to {V}.', 'Another verb for {N} is {V}.'],
+      adj: ['Another word for {N} is {V}.'],
+    },
     questions: {
       noun: ['What else is {A} {N} called?', 'What is another name for {N}?', 'By what other name is {N} known?'],
       verb: ['What is another verb for {N}?', 'What else can one say for {N}?'],
@@ -83,7 +87,10 @@ export const RELATIONS: readonly Relation[] = [
   },
   {
     key: 'broader',
-    frames: { noun: ['{A} {N} is a kind of {V}.', 'Every {N} is a type of {V}.'], verb: ['To {N} is a way to {V}.', 'To {N} is one manner to {V}.'] },
+    frames: {
+      noun: ['{A} {N} is a kind of {V}.', 'Every {N} is a type of {V}.'],
+      verb: ['To {N} is a way to {V}.', 'To {N} is one manner to {V}.'],
+    },
     questions: {
       noun: ['What kind of thing is {A} {N}?', 'What is {A} {N} a type of?', 'What broader class does {N} belong to?'],
       verb: ['To {N} is a way to do what?', 'What broader action is to {N} a way of doing?'],
@@ -92,7 +99,10 @@ export const RELATIONS: readonly Relation[] = [
   {
     key: 'narrower',
     frames: { noun: ['Kinds of {N} include {V}.', 'Types of {N} are {V}.'], verb: ['Ways to {N} include {V}.'] },
-    questions: { noun: ['What kinds of {N} are there?', 'Name some types of {N}.', 'Which kinds of {N} exist?'], verb: ['What are some ways to {N}?', 'In what ways can one {N}?'] },
+    questions: {
+      noun: ['What kinds of {N} are there?', 'Name some types of {N}.', 'Which kinds of {N} exist?'],
+      verb: ['What are some ways to {N}?', 'In what ways can one {N}?'],
+    },
   },
   {
     key: 'part-of',
@@ -111,7 +121,11 @@ export const RELATIONS: readonly Relation[] = [
   },
   {
     key: 'opposite',
-    frames: { noun: ['The opposite of {N} is {V}.'], verb: ['The opposite of to {N} is to {V}.'], adj: ['The opposite of {N} is {V}.', 'Something not {N} is {V}.'] },
+    frames: {
+      noun: ['The opposite of {N} is {V}.'],
+      verb: ['The opposite of to {N} is to {V}.'],
+      adj: ['The opposite of {N} is {V}.', 'Something not {N} is {V}.'],
+    },
     questions: {
       noun: ['What is the opposite of {N}?', 'Which word means the reverse of {N}?'],
       verb: ['What is the opposite of to {N}?', 'What verb means the reverse of {N}?'],
@@ -120,7 +134,11 @@ export const RELATIONS: readonly Relation[] = [
   },
   {
     key: 'field',
-    frames: { noun: ['{N} is a term of {V}.', 'The word {N} is used in {V}.'], verb: ['To {N} is a term of {V}.'], adj: ['{N} is a term of {V}.'] },
+    frames: {
+      noun: ['{N} is a term of {V}.', 'The word {N} is used in {V}.'],
+      verb: ['To {N} is a term of {V}.'],
+      adj: ['{N} is a term of {V}.'],
+    },
     questions: {
       noun: ['In what field is the word {N} used?', 'Which subject does the term {N} belong to?'],
       verb: ['In what field is the verb {N} used?'],
@@ -129,15 +147,24 @@ export const RELATIONS: readonly Relation[] = [
   },
   {
     key: 'example',
-    frames: { noun: ['For example: "{V}".', 'It is used like this: "{V}".'], verb: ['For example: "{V}".', 'It is used like this: "{V}".'], adj: ['For example: "{V}".'] },
-    questions: { noun: ['How is {N} used in a sentence?', 'Give an example of {N} in use.'], verb: ['How is the verb {N} used in a sentence?', 'Give an example of {N} in use.'], adj: ['How is {N} used in a sentence?'] },
+    frames: {
+      noun: ['For example: "{V}".', 'It is used like this: "{V}".'],
+      verb: ['For example: "{V}".', 'It is used like this: "{V}".'],
+      adj: ['For example: "{V}".'],
+    },
+    questions: {
+      noun: ['How is {N} used in a sentence?', 'Give an example of {N} in use.'],
+      verb: ['How is the verb {N} used in a sentence?', 'Give an example of {N} in use.'],
+      adj: ['How is {N} used in a sentence?'],
+    },
   },
 ];
 
 const require = createRequire(import.meta.url);
 const article = (w: string) => (/^[aeiou]/i.test(w) ? 'an' : 'a');
 const cap = (s: string) => s.charAt(0).toUpperCase() + s.slice(1);
-const list = (items: readonly string[]) => (items.length <= 1 ? (items[0] ?? '') : `${items.slice(0, -1).join(', ')} and ${items[items.length - 1]}`);
+const list = (items: readonly string[]) =>
+  items.length <= 1 ? (items[0] ?? '') : `${items.slice(0, -1).join(', ')} and ${items[items.length - 1]}`;
 
 interface Raw {
   offset: string;
@@ -182,15 +209,25 @@ export function readLexicon(): LexiconEntry[] {
   const out: LexiconEntry[] = [];
   for (const r of raws) {
     const facts = new Map<string, string>();
-    const usable = (v: string | null | undefined): v is string => typeof v === 'string' && v.length >= 2 && v.length <= MAX_FACT && !v.includes('"');
+    const usable = (v: string | null | undefined): v is string =>
+      typeof v === 'string' && v.length >= 2 && v.length <= MAX_FACT && !v.includes('"');
     // the gloss: a definition (an opening "(field)" label dropped), then quoted examples
     const [head, ...rest] = r.gloss.split(/;\s*(?=")/);
-    const definition = (head ?? '').replace(/^\([^)]*\)\s*/, '').replace(/[;:,.\s]+$/, '').trim();
+    const definition = (head ?? '')
+      .replace(/^\([^)]*\)\s*/, '')
+      .replace(/[;:,.\s]+$/, '')
+      .trim();
     if (usable(definition)) facts.set('definition', definition);
-    const example = rest.map((e) => e.replace(/^"|"\s*;?\s*$/g, '').trim()).find((e) => usable(e) && e.toLowerCase().includes(r.lemmas[0]!.toLowerCase().split(' ')[0]!));
+    const example = rest
+      .map((e) => e.replace(/^"|"\s*;?\s*$/g, '').trim())
+      .find((e) => usable(e) && e.toLowerCase().includes(r.lemmas[0]!.toLowerCase().split(' ')[0]!));
     if (example) facts.set('example', example);
     if (r.lemmas.length > 1) facts.set('other-name', r.lemmas[1]!);
-    const targets = (symbol: string) => r.pointers.filter((p) => p.symbol === symbol).map(nameOf).filter(usable);
+    const targets = (symbol: string) =>
+      r.pointers
+        .filter((p) => p.symbol === symbol)
+        .map(nameOf)
+        .filter(usable);
     const firstOf = (symbol: string) => targets(symbol)[0];
     const some = (symbol: string) => [...new Set(targets(symbol))].slice(0, 3);
     const broader = firstOf('@');
@@ -241,7 +278,10 @@ export function lexiconQuestions(entries: readonly LexiconEntry[], count: number
     const available = relations.filter((r) => entry.facts.has(r.key));
     if (available.length < MIN_FACTS) continue;
     // 2. the context: up to FACTS_PER_CONTEXT facts in a seeded order, maybe the broader term's definition
-    const stated = shuffleInPlace([...available], random).slice(0, Math.min(FACTS_PER_CONTEXT, available.length - (random() < 0.5 ? 1 : 0)));
+    const stated = shuffleInPlace([...available], random).slice(
+      0,
+      Math.min(FACTS_PER_CONTEXT, available.length - (random() < 0.5 ? 1 : 0)),
+    );
     const sentences: Array<{ text: string; answer?: { key: string; text: string; at: number } }> = stated.map((r) => {
       const value = entry.facts.get(r.key)!;
       const { text, at } = fill(pick(r.frames[entry.part]!, random), entry.name, value);
@@ -250,7 +290,11 @@ export function lexiconQuestions(entries: readonly LexiconEntry[], count: number
     const broader = byName.get((entry.facts.get('broader') ?? '').toLowerCase());
     if (broader && broader.facts.has('definition') && random() < 0.5) {
       const frames = RELATIONS[0]!.frames[broader.part]!;
-      sentences.splice(Math.floor(random() * (sentences.length + 1)), 0, fill(pick(frames, random), broader.name, broader.facts.get('definition')!));
+      sentences.splice(
+        Math.floor(random() * (sentences.length + 1)),
+        0,
+        fill(pick(frames, random), broader.name, broader.facts.get('definition')!),
+      );
     }
     let context = '';
     const answers = new Map<string, { text: string; start: number }>();
@@ -269,7 +313,9 @@ export function lexiconQuestions(entries: readonly LexiconEntry[], count: number
       const { text: question } = fill(pick(r.questions[entry.part]!, random), entry.name);
       out.push({ id: `${passageId}-${r.key}`, passageId, context, question, answers: [{ ...answer }], unanswerable: false });
     }
-    const unstated = relations.filter((r) => !stated.includes(r) && !context.toLowerCase().includes((entry.facts.get(r.key) ?? '\u0000').toLowerCase()));
+    const unstated = relations.filter(
+      (r) => !stated.includes(r) && !context.toLowerCase().includes((entry.facts.get(r.key) ?? '\u0000').toLowerCase()),
+    );
     if (unstated.length > 0) {
       const r = pick(unstated, random);
       const { text: question } = fill(pick(r.questions[entry.part]!, random), entry.name);

@@ -94,7 +94,11 @@ export class MaskedLmTrainer {
       correct += hits;
       predicted += positions.length;
     }
-    return { loss: predicted > 0 ? lossSum / predicted : Number.NaN, accuracy: predicted > 0 ? correct / predicted : Number.NaN, predicted };
+    return {
+      loss: predicted > 0 ? lossSum / predicted : Number.NaN,
+      accuracy: predicted > 0 ? correct / predicted : Number.NaN,
+      predicted,
+    };
   }
 
   /** Moments in checkpoint layout (Linear weights [out, in]) with step counts. */

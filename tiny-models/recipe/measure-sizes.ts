@@ -83,7 +83,8 @@ function spanBatch(B: number, T: number, vocab: number): SpanBatch {
 
 function mlmBatchOf(B: number, T: number, vocab: number, seed: number) {
   const rows = [];
-  for (let b = 0; b < B; b++) rows.push({ inputIds: syntheticIds(T, vocab, b + 7), tokenTypeIds: new Int32Array(T), attentionMask: new Int32Array(T).fill(1) });
+  for (let b = 0; b < B; b++)
+    rows.push({ inputIds: syntheticIds(T, vocab, b + 7), tokenTypeIds: new Int32Array(T), attentionMask: new Int32Array(T).fill(1) });
   return collateMlm(rows, { probability: 0.15, maskId: 4, vocabSize: vocab, specialIds: [0, 1, 2, 3, 4] }, seed, false);
 }
 
@@ -128,7 +129,9 @@ export async function measureSizes(vocab: number, steps: number, log: (line: str
     log(
       `${m.name}: ${(m.params / 1e6).toFixed(2)} M params; fine-tune 8×384 ${m.finetuneTokensPerS.toFixed(0)} tok/s ` +
         `(≈ ${m.finetuneMinutes.toFixed(1)} min for 2 epochs × 450 windows); pretrain 32×128 ${m.pretrainTokensPerS.toFixed(0)} tok/s` +
-        (m.denseMlmTokensPerS === null ? '' : `; dense-head MLM 16×128 ${m.denseMlmTokensPerS.toFixed(0)} tok/s (sparse/dense ${(m.pretrainTokensPerS / m.denseMlmTokensPerS).toFixed(2)}×)`) +
+        (m.denseMlmTokensPerS === null
+          ? ''
+          : `; dense-head MLM 16×128 ${m.denseMlmTokensPerS.toFixed(0)} tok/s (sparse/dense ${(m.pretrainTokensPerS / m.denseMlmTokensPerS).toFixed(2)}×)`) +
         `; tensors live ${tf.memory().numTensors}`,
     );
     out.push(m);
@@ -145,7 +148,8 @@ async function main(argv: string[]): Promise<void> {
   const steps = Number(get('--steps') ?? 3);
   const result = await measureSizes(vocab, steps, (line) => process.stdout.write(`${line}\n`));
   const json = get('--json');
-  if (json !== undefined) writeFileSync(json, `${JSON.stringify({ vocab, steps, measuredAt: new Date().toISOString(), sizes: result }, null, 2)}\n`);
+  if (json !== undefined)
+    writeFileSync(json, `${JSON.stringify({ vocab, steps, measuredAt: new Date().toISOString(), sizes: result }, null, 2)}\n`);
 }
 
 if (import.meta.url === `file://${process.argv[1]}`) await main(process.argv.slice(2));

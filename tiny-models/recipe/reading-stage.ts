@@ -49,13 +49,20 @@ const lr = Number(args.get('lr') ?? 1e-3);
 const seed = Number(args.get('seed') ?? 2026);
 const maxLength = Number(args.get('max-len') ?? 192);
 const match = (args.get('match') ?? 'on') === 'on';
-for (const [name, v] of [['per-passage', perPassage], ['epochs', epochs], ['lr', lr], ['seed', seed], ['max-len', maxLength]] as const) {
+for (const [name, v] of [
+  ['per-passage', perPassage],
+  ['epochs', epochs],
+  ['lr', lr],
+  ['seed', seed],
+  ['max-len', maxLength],
+] as const) {
   if (!Number.isFinite(v) || v <= 0) throw new Error(`--${name}: expected a positive number, got "${args.get(name)}"`);
 }
 const log = (line: string) => process.stdout.write(`${new Date().toISOString().slice(0, 19)}Z ${line}\n`);
 
 /** What the questions were written from, for the card. */
-const METHOD = "from State of the Union addresses and Moby-Dick chapters cut into passages of 80–180 words, each document's passages one another's no-answer contexts";
+const METHOD =
+  "from State of the Union addresses and Moby-Dick chapters cut into passages of 80–180 words, each document's passages one another's no-answer contexts";
 
 /** Runs of consecutive sentences of one document, 80–180 words, ids `<doc>#<n>`: of the training documents, or of the held-out ones. */
 function corpusPassages(heldOut = false): PracticePassage[] {
@@ -83,14 +90,28 @@ function corpusPassages(heldOut = false): PracticePassage[] {
 }
 
 /** Step 5: the reader in `dir` on held-out practice questions (3 per held-out passage, seed 99), windows of `maxLength`. */
-async function measure(dir: string): Promise<{ questions: number; unanswerable: number; em: number | null; f1: number | null; answerableF1: number | null; unanswerableF1: number | null }> {
+async function measure(dir: string): Promise<{
+  questions: number;
+  unanswerable: number;
+  em: number | null;
+  f1: number | null;
+  answerableF1: number | null;
+  unanswerableF1: number | null;
+}> {
   const { makePracticeQuestions } = await import('../../src/practice/generate.js');
   const records = makePracticeQuestions(corpusPassages(true), { perPassage: 3, seed: 99 }).records;
   const s = new ReaderSession();
   s.loadBase({ name: dir, files: await readModelDir(dir) });
   const r = s.evaluate({ model: 'base', records, maxLength, stride: Math.floor(maxLength / 4), maxQueryLength: 48 }).summary;
   s.dispose();
-  return { questions: records.length, unanswerable: records.filter((q) => q.unanswerable).length, em: r.em, f1: r.f1, answerableF1: r.answerable.f1, unanswerableF1: r.unanswerable.f1 };
+  return {
+    questions: records.length,
+    unanswerable: records.filter((q) => q.unanswerable).length,
+    em: r.em,
+    f1: r.f1,
+    answerableF1: r.answerable.f1,
+    unanswerableF1: r.unanswerable.f1,
+  };
 }
 
 /** MODEL_CARD.md of `dir` from its pretraining.json, span-pretraining.json and reading-stage.json (card.ts). */
@@ -111,7 +132,9 @@ if (args.has('measure')) {
   const heldOut = await measure(dir);
   writeFileSync(join(dir, 'reading-stage.json'), `${JSON.stringify({ ...facts, method: METHOD, heldOut }, null, 2)}\n`);
   writeCard(dir);
-  log(`held-out practice questions (${heldOut.questions}): F1 ${heldOut.f1?.toFixed(1)} (answerable ${heldOut.answerableF1?.toFixed(1)}, unanswerable ${heldOut.unanswerableF1?.toFixed(1)})`);
+  log(
+    `held-out practice questions (${heldOut.questions}): F1 ${heldOut.f1?.toFixed(1)} (answerable ${heldOut.answerableF1?.toFixed(1)}, unanswerable ${heldOut.unanswerableF1?.toFixed(1)})`,
+  );
   process.exit(0);
 }
 // 1. passages
@@ -126,7 +149,17 @@ const questions = { perPassage, seed };
 const datasetHash = `reading-stage:${seed}:${perPassage}:${passages.length}`;
 const last = await session.latestCheckpoint({ datasetHash, stage: 'practice' });
 if (last) log(`resuming from ${last.id} (update ${last.meta.step})`);
-const config = trainConfig({ maxLength, stride: Math.floor(maxLength / 2), maxQueryLength: 48, epochs, batchSize: 16, gradAccumulation: 1, learningRate: lr, seed, checkpointEvery: 500 });
+const config = trainConfig({
+  maxLength,
+  stride: Math.floor(maxLength / 2),
+  maxQueryLength: 48,
+  epochs,
+  batchSize: 16,
+  gradAccumulation: 1,
+  learningRate: lr,
+  seed,
+  checkpointEvery: 500,
+});
 let lastLog = 0;
 const started = performance.now();
 const abort = new AbortController();
@@ -147,7 +180,9 @@ const ended = await session.practice({
     if (e.type === 'start') log(`plan: ${e.plan.totalUpdates} updates over ${e.plan.features} windows, from update ${e.startUpdate}`);
     if (e.type === 'progress' && (performance.now() - lastLog > 60_000 || e.update === e.totalUpdates)) {
       lastLog = performance.now();
-      log(`update ${e.update}/${e.totalUpdates} loss ${e.loss.toFixed(3)} lr ${e.lr.toExponential(2)} ${Math.round(e.tokensPerSecond)} tok/s ETA ${Math.round(e.etaMs / 60000)} min`);
+      log(
+        `update ${e.update}/${e.totalUpdates} loss ${e.loss.toFixed(3)} lr ${e.lr.toExponential(2)} ${Math.round(e.tokensPerSecond)} tok/s ETA ${Math.round(e.etaMs / 60000)} min`,
+      );
     }
     if (e.type === 'checkpoint') log(`checkpoint at update ${e.update} (${e.reason})`);
   },
@@ -160,16 +195,35 @@ if (ended.status === 'stopped') {
 // 4. write
 const reader = session.reader('start');
 mkdirSync(out, { recursive: true });
-writeFileSync(join(out, 'config.json'), `${JSON.stringify({ ...configToHf(reader.config), architectures: ['BertForQuestionAnswering'] }, null, 2)}\n`);
-writeFileSync(join(out, 'model.safetensors'), namedToSafetensors(reader.params.toNamed(), { dtype: 'F16', metadata: { format: 'pt', 'spanwright.recipe': 'tiny-models/recipe/build-base.ts + span-pretrain.ts + reading-stage.ts' } }));
-for (const f of ['vocab.txt', 'pretraining.json', 'span-pretraining.json']) if (existsSync(join(from, f)) && join(from, f) !== join(out, f)) copyFileSync(join(from, f), join(out, f));
+writeFileSync(
+  join(out, 'config.json'),
+  `${JSON.stringify({ ...configToHf(reader.config), architectures: ['BertForQuestionAnswering'] }, null, 2)}\n`,
+);
+writeFileSync(
+  join(out, 'model.safetensors'),
+  namedToSafetensors(reader.params.toNamed(), {
+    dtype: 'F16',
+    metadata: { format: 'pt', 'spanwright.recipe': 'tiny-models/recipe/build-base.ts + span-pretrain.ts + reading-stage.ts' },
+  }),
+);
+for (const f of ['vocab.txt', 'pretraining.json', 'span-pretraining.json'])
+  if (existsSync(join(from, f)) && join(from, f) !== join(out, f)) copyFileSync(join(from, f), join(out, f));
 const facts = {
   method: METHOD,
   passages: passages.length,
   questions: ended.questions,
   updates: ended.totalUpdates,
   minutes,
-  settings: { learningRate: lr, batchSize: config.batchSize, maxLength, stride: config.stride, epochs, perPassage, seed, questionMatch: match },
+  settings: {
+    learningRate: lr,
+    batchSize: config.batchSize,
+    maxLength,
+    stride: config.stride,
+    epochs,
+    perPassage,
+    seed,
+    questionMatch: match,
+  },
   from,
 };
 writeFileSync(join(out, 'reading-stage.json'), `${JSON.stringify(facts, null, 2)}\n`);
@@ -178,5 +232,7 @@ session.dispose();
 const heldOut = await measure(out);
 writeFileSync(join(out, 'reading-stage.json'), `${JSON.stringify({ ...facts, heldOut }, null, 2)}\n`);
 writeCard(out);
-log(`held-out practice questions (${heldOut.questions}): F1 ${heldOut.f1?.toFixed(1)} (answerable ${heldOut.answerableF1?.toFixed(1)}, unanswerable ${heldOut.unanswerableF1?.toFixed(1)})`);
+log(
+  `held-out practice questions (${heldOut.questions}): F1 ${heldOut.f1?.toFixed(1)} (answerable ${heldOut.answerableF1?.toFixed(1)}, unanswerable ${heldOut.unanswerableF1?.toFixed(1)})`,
+);
 log(`wrote ${out} (word-match types: ${JSON.parse(readFileSync(join(out, 'config.json'), 'utf8')).spanwright_question_match ?? 'off'})`);

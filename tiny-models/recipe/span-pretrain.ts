@@ -45,7 +45,11 @@ const lr = Number(args.get('lr') ?? 1e-3);
 const seed = Number(args.get('seed') ?? 2024);
 const work = args.get('work') ?? 'runs/base-build/span';
 const log = (line: string) => process.stdout.write(`${new Date().toISOString().slice(0, 19)}Z ${line}\n`);
-for (const [name, v] of [['questions', questions], ['lr', lr], ['seed', seed]] as const) {
+for (const [name, v] of [
+  ['questions', questions],
+  ['lr', lr],
+  ['seed', seed],
+] as const) {
   if (!Number.isFinite(v) || v <= 0) throw new Error(`--${name}: expected a positive number, got "${args.get(name)}"`);
 }
 
@@ -53,14 +57,32 @@ await startEngine();
 // 1. load
 const base = await loadReader(from);
 const prior = JSON.parse(readFileSync(join(from, 'pretraining.json'), 'utf8')) as { card?: Omit<CardFacts, 'weightsBytes'> };
-if (prior.card === undefined) throw new Error(`${from}/pretraining.json has no "card" facts; write the folder again with \`npm run build:base -- --finish\``);
+if (prior.card === undefined)
+  throw new Error(`${from}/pretraining.json has no "card" facts; write the folder again with \`npm run build:base -- --finish\``);
 // 2. questions
 const entries = readLexicon();
-const train = lexiconQuestions(entries.filter((e) => !isHeldOut(e)), questions, seed);
+const train = lexiconQuestions(
+  entries.filter((e) => !isHeldOut(e)),
+  questions,
+  seed,
+);
 const heldOut = lexiconQuestions(entries.filter(isHeldOut), 600, seed + 1);
-log(`span stage: ${train.length} questions (${train.filter((q) => q.unanswerable).length} unanswerable) from ${entries.length} entries, ${heldOut.length} held out; from ${from}`);
+log(
+  `span stage: ${train.length} questions (${train.filter((q) => q.unanswerable).length} unanswerable) from ${entries.length} entries, ${heldOut.length} held out; from ${from}`,
+);
 // 3. train
-const config = trainConfig({ maxLength: 128, stride: 64, maxQueryLength: 32, epochs: 1, batchSize: 16, gradAccumulation: 1, learningRate: lr, seed, evalEvery: 500, checkpointEvery: 250 });
+const config = trainConfig({
+  maxLength: 128,
+  stride: 64,
+  maxQueryLength: 32,
+  epochs: 1,
+  batchSize: 16,
+  gradAccumulation: 1,
+  learningRate: lr,
+  seed,
+  evalEvery: 500,
+  checkpointEvery: 250,
+});
 mkdirSync(work, { recursive: true });
 const store = new FsCheckpointStore<RunMeta>(join(work, 'checkpoints'));
 const datasetHash = await hashDataset(train);
@@ -82,9 +104,12 @@ const result = await fineTune({
     onEvent: (e) => {
       if (e.type === 'progress' && (performance.now() - lastLog > 30_000 || e.update === e.totalUpdates)) {
         lastLog = performance.now();
-        log(`update ${e.update}/${e.totalUpdates} loss ${e.loss.toFixed(3)} lr ${e.lr.toExponential(2)} ${Math.round(e.tokensPerSecond)} tok/s ETA ${Math.round(e.etaMs / 60000)} min`);
+        log(
+          `update ${e.update}/${e.totalUpdates} loss ${e.loss.toFixed(3)} lr ${e.lr.toExponential(2)} ${Math.round(e.tokensPerSecond)} tok/s ETA ${Math.round(e.etaMs / 60000)} min`,
+        );
       }
-      if (e.type === 'evaluated') log(`held-out at update ${e.update}: EM ${e.metrics.validationEM?.toFixed(1)} F1 ${e.metrics.validationF1?.toFixed(1)}`);
+      if (e.type === 'evaluated')
+        log(`held-out at update ${e.update}: EM ${e.metrics.validationEM?.toFixed(1)} F1 ${e.metrics.validationF1?.toFixed(1)}`);
     },
   },
 });
@@ -92,18 +117,27 @@ const minutes = (performance.now() - started) / 60000;
 const final = evaluateRecords({ params: result.params, config: base.config, tokenizer: base.tokenizer }, heldOut, {
   features: { maxLen: config.maxLength, stride: config.stride, maxQueryTokens: config.maxQueryLength },
 }).report.summary;
-log(`held-out at the end: EM ${final.em?.toFixed(1)} F1 ${final.f1?.toFixed(1)} (answerable ${final.answerable.f1?.toFixed(1)}, unanswerable ${final.unanswerable.f1?.toFixed(1)})`);
+log(
+  `held-out at the end: EM ${final.em?.toFixed(1)} F1 ${final.f1?.toFixed(1)} (answerable ${final.answerable.f1?.toFixed(1)}, unanswerable ${final.unanswerable.f1?.toFixed(1)})`,
+);
 // 4. write
 mkdirSync(out, { recursive: true });
 const weights = result.params.toNamed();
-writeFileSync(join(out, 'config.json'), `${JSON.stringify({ ...configToHf(base.config), architectures: ['BertForQuestionAnswering'] }, null, 2)}\n`);
-const bytes = namedToSafetensors(weights, { dtype: 'F16', metadata: { format: 'pt', 'spanwright.recipe': 'tiny-models/recipe/build-base.ts + span-pretrain.ts' } });
+writeFileSync(
+  join(out, 'config.json'),
+  `${JSON.stringify({ ...configToHf(base.config), architectures: ['BertForQuestionAnswering'] }, null, 2)}\n`,
+);
+const bytes = namedToSafetensors(weights, {
+  dtype: 'F16',
+  metadata: { format: 'pt', 'spanwright.recipe': 'tiny-models/recipe/build-base.ts + span-pretrain.ts' },
+});
 writeFileSync(join(out, 'model.safetensors'), bytes);
-for (const f of ['vocab.txt', 'pretraining.json']) if (join(from, f) !== join(out, f) && existsSync(join(from, f))) copyFileSync(join(from, f), join(out, f));
+for (const f of ['vocab.txt', 'pretraining.json'])
+  if (join(from, f) !== join(out, f) && existsSync(join(from, f))) copyFileSync(join(from, f), join(out, f));
 const stage: SpanStageFacts = {
   method:
     'extractive questions about WordNet entries (`tiny-models/recipe/lexicon-qa.ts`): a context states up to six facts of one entry (its definition, other names, ' +
-    'broader and narrower terms, parts, opposite, field, an example), each as a sentence from a frame of our own, half the time beside the broader term\'s definition; ' +
+    "broader and narrower terms, parts, opposite, field, an example), each as a sentence from a frame of our own, half the time beside the broader term's definition; " +
     'questions from templates of our own ask for a stated fact, or for one the context leaves out (unanswerable).',
   questions: train.length,
   unanswerable: train.filter((q) => q.unanswerable).length,
@@ -111,7 +145,13 @@ const stage: SpanStageFacts = {
   windows: result.windows,
   minutes,
   settings: { learningRate: lr, batchSize: config.batchSize, maxLength: config.maxLength, stride: config.stride, epochs: config.epochs },
-  heldOut: { questions: heldOut.length, em: final.em, f1: final.f1, answerableF1: final.answerable.f1, unanswerableF1: final.unanswerable.f1 },
+  heldOut: {
+    questions: heldOut.length,
+    em: final.em,
+    f1: final.f1,
+    answerableF1: final.answerable.f1,
+    unanswerableF1: final.unanswerable.f1,
+  },
 };
 writeFileSync(join(out, 'span-pretraining.json'), `${JSON.stringify({ ...stage, seed, from }, null, 2)}\n`);
 writeFileSync(join(out, 'MODEL_CARD.md'), renderBaseCard({ ...(prior.card as CardFacts), weightsBytes: bytes.length }, stage));

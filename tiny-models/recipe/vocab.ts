@@ -51,7 +51,11 @@ async function countTokens(vocab: string[], texts: readonly string[]): Promise<{
 }
 
 /** Steps 1–4 above; `workDir` receives the training text files the trainer reads. */
-export async function buildVocabulary(texts: readonly string[], target: number, workDir: string): Promise<{ vocab: string[]; report: VocabReport }> {
+export async function buildVocabulary(
+  texts: readonly string[],
+  target: number,
+  workDir: string,
+): Promise<{ vocab: string[]; report: VocabReport }> {
   // 1. train (one document per line)
   mkdirSync(workDir, { recursive: true });
   const file = join(workDir, 'vocab-train.txt');

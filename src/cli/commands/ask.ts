@@ -50,7 +50,8 @@ export async function readPassages(path: string): Promise<Passage[]> {
       throw new UserError(`${path}: line ${i + 1} is not valid JSON (${(err as Error).message})`);
     }
     const v = value as { id?: unknown; text?: unknown };
-    if (typeof v.text !== 'string' || v.text.trim() === '') throw new UserError(`${path}: line ${i + 1}, field "text": a passage needs non-empty text`);
+    if (typeof v.text !== 'string' || v.text.trim() === '')
+      throw new UserError(`${path}: line ${i + 1}, field "text": a passage needs non-empty text`);
     if (v.id !== undefined && typeof v.id !== 'string') throw new UserError(`${path}: line ${i + 1}, field "id": must be a string`);
     passages.push({ id: (v.id as string | undefined) ?? `line-${i + 1}`, text: v.text });
   });
@@ -77,7 +78,11 @@ export function register(program: Command): void {
     .requiredOption('--question <text>', 'the question')
     .option('--top <n>', 'answers to show', '3')
     .option('--retrieve <n>', 'passages BM25 hands to the reader', '5')
-    .option('--retriever-weight <w>', 'weight of the (min-max normalised) BM25 score in the combined score; the reader gets the rest', '0.5')
+    .option(
+      '--retriever-weight <w>',
+      'weight of the (min-max normalised) BM25 score in the combined score; the reader gets the rest',
+      '0.5',
+    )
     .option('--json', 'print the answers as one JSON object on the last line')
     .action((o: AskOptions) =>
       runCommand(async () => {
@@ -114,13 +119,18 @@ export function register(program: Command): void {
         const mark = (s: string) => (tty ? `\x1b[1;4m${s}\x1b[0m` : `[[${s}]]`);
         ranked.forEach((a, i) => {
           process.stdout.write(`${i + 1}. ${a.text}\n`);
-          process.stdout.write(`   passage ${a.passageId} | reader ${a.readerScore.toFixed(2)}` + (a.retrieverScore === null ? '' : ` | retriever ${a.retrieverScore.toFixed(2)} | combined ${a.combinedScore.toFixed(3)}`) +
-            (a.noAnswerMargin > 0 ? ' | the reader leans towards "no answer here"' : '') + '\n');
+          process.stdout.write(
+            `   passage ${a.passageId} | reader ${a.readerScore.toFixed(2)}` +
+              (a.retrieverScore === null ? '' : ` | retriever ${a.retrieverScore.toFixed(2)} | combined ${a.combinedScore.toFixed(3)}`) +
+              (a.noAnswerMargin > 0 ? ' | the reader leans towards "no answer here"' : '') +
+              '\n',
+          );
           process.stdout.write(`   ${inSentence(byId.get(a.passageId)!.text, a.charStart, a.charEnd, mark)}\n`);
         });
-        process.stdout.write('\nreader: start + end logit of the span; retriever: BM25 match of the passage to the question; combined: both scaled to 0–1 over these answers, weighted by --retriever-weight\n');
+        process.stdout.write(
+          '\nreader: start + end logit of the span; retriever: BM25 match of the passage to the question; combined: both scaled to 0–1 over these answers, weighted by --retriever-weight\n',
+        );
         process.stdout.write(`\n${CAUTION}\n`);
       }),
     );
 }
-

@@ -28,7 +28,7 @@ export function register(program: Command): void {
     .argument('<file>', 'the data file; its extension names the format (.json, .jsonl, .csv, .tsv)')
     .option('--json', 'print the report as one JSON object on the last line of output')
     .option('--format <format>', `read the file as ${DATA_FORMATS.join(', ')} whatever its name`)
-    .option('--write-clean <file>', 'write the records that passed, repaired, in the format this name\'s extension gives')
+    .option('--write-clean <file>', "write the records that passed, repaired, in the format this name's extension gives")
     .addHelpText(
       'after',
       `

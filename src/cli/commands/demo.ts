@@ -22,14 +22,19 @@ function stamp(d = new Date()): string {
 export function register(program: Command): void {
   program
     .command('demo')
-    .description('the whole job on the shipped base and the demo handbook: practice questions from the training passages, fine-tuning, before/after scores beside a word-overlap baseline, exports under runs/')
+    .description(
+      'the whole job on the shipped base and the demo handbook: practice questions from the training passages, fine-tuning, before/after scores beside a word-overlap baseline, exports under runs/',
+    )
     .option('--base <dir>', 'the base model directory', DEFAULT_BASE)
     .option('--out <dir>', 'where to write (default runs/demo-<date>-<time>)')
     .option('--epochs <n>', 'passes over the training windows (default 2)', '2')
     .option('--lr <x>', 'peak learning rate (default: the one suggested for the base width, as train)')
     .option('--seed <n>', 'seed for data order and dropout')
     .option('--practice-epochs <n>', `passes over the practice questions (default ${PRACTICE_DEFAULTS.epochs}); 0 skips the practice stage`)
-    .option('--domain-minutes <n>', 'first train the encoder with masked-LM on the training passages for about this many minutes (default 0)')
+    .option(
+      '--domain-minutes <n>',
+      'first train the encoder with masked-LM on the training passages for about this many minutes (default 0)',
+    )
     .option('--json', 'print {before, afterPractice, after, afterTrainedCut, baseline, out} as one JSON object on the last line')
     .action((o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json' | 'practiceEpochs' | 'domainMinutes'> & { out?: string }) =>
       runCommand(async () => {
@@ -46,11 +51,28 @@ export function register(program: Command): void {
         const options: TrainOptions = { train, base: o.base, out, epochs: o.epochs, lr: o.lr, seed: o.seed };
         const config = configFromOptions(options);
         // the practice stage reads the training split's passages only, never the validation passages
-        const practiceOptions: TrainOptions = { ...options, practiceFrom: o.practiceEpochs === '0' ? undefined : 'train', practiceEpochs: o.practiceEpochs, domainMinutes: o.domainMinutes };
+        const practiceOptions: TrainOptions = {
+          ...options,
+          practiceFrom: o.practiceEpochs === '0' ? undefined : 'train',
+          practiceEpochs: o.practiceEpochs,
+          domainMinutes: o.domainMinutes,
+        };
         const log = (line: string) => process.stderr.write(`${line}\n`);
-        log(`demo: ${practiceOptions.practiceFrom ? 'practice questions from the training passages, then ' : ''}fine-tuning ${o.base} on ${train}, measuring on ${validation}, writing ${out}`);
+        log(
+          `demo: ${practiceOptions.practiceFrom ? 'practice questions from the training passages, then ' : ''}fine-tuning ${o.base} on ${train}, measuring on ${validation}, writing ${out}`,
+        );
         const run = await trainReader(
-          { train, eval: validation, base: o.base, out, measureBase: true, measureCut: true, int8: true, onnx: true, practice: (records) => practiceFromOptions(practiceOptions, records, config) },
+          {
+            train,
+            eval: validation,
+            base: o.base,
+            out,
+            measureBase: true,
+            measureCut: true,
+            int8: true,
+            onnx: true,
+            practice: (records) => practiceFromOptions(practiceOptions, records, config),
+          },
           config,
           log,
         );
@@ -77,15 +99,26 @@ export function register(program: Command): void {
         ];
         process.stdout.write(`\nvalidation (${validation}); no-answer cuts are chosen on the training questions\n${scoresTable(rows)}\n`);
         const warnings = readerWarnings(cut.summary, before.summary, baseline.summary);
-        if (warnings.length > 0) warnings.push(`(The warnings compare the row "fine-tuned, cut … from training" with the base and the baseline. The base's card, ${join(o.base, 'MODEL_CARD.md')}, says how it was measured.)`);
+        if (warnings.length > 0)
+          warnings.push(
+            `(The warnings compare the row "fine-tuned, cut … from training" with the base and the baseline. The base's card, ${join(o.base, 'MODEL_CARD.md')}, says how it was measured.)`,
+          );
         process.stdout.write(`${warnings.map((w) => `${w}\n`).join('')}\n`);
-        if (run.domain) process.stdout.write(`masked-LM on the ${new Set(run.train.map((r) => r.passageId)).size} training passages: ${run.domain.passes} passes, ${run.domain.updates} updates, ${run.domain.seconds.toFixed(0)} s\n`);
-        if (run.practice) process.stdout.write(`${run.practice.questions} practice questions from the ${new Set(run.train.map((r) => r.passageId)).size} training passages, ${run.practice.updates} updates, ${run.practice.seconds.toFixed(0)} s\n`);
+        if (run.domain)
+          process.stdout.write(
+            `masked-LM on the ${new Set(run.train.map((r) => r.passageId)).size} training passages: ${run.domain.passes} passes, ${run.domain.updates} updates, ${run.domain.seconds.toFixed(0)} s\n`,
+          );
+        if (run.practice)
+          process.stdout.write(
+            `${run.practice.questions} practice questions from the ${new Set(run.train.map((r) => r.passageId)).size} training passages, ${run.practice.updates} updates, ${run.practice.seconds.toFixed(0)} s\n`,
+          );
         process.stdout.write(`${run.train.length} training questions, ${run.config.epochs} epochs, ${run.seconds.toFixed(0)} s in all\n`);
         process.stdout.write(`model directory: ${out}/\n`);
         for (const f of run.files) process.stdout.write(`  ${f.name.padEnd(24)} ${f.bytes.toLocaleString('en-US').padStart(12)} bytes\n`);
         process.stdout.write(`checkpoints:     ${out}/checkpoints/\n`);
-        process.stdout.write(`try it:          npm run spanwright -- ask --model ${out} --passages ${DEMO}/passages.jsonl --question "…"\n`);
+        process.stdout.write(
+          `try it:          npm run spanwright -- ask --model ${out} --passages ${DEMO}/passages.jsonl --question "…"\n`,
+        );
         process.stdout.write(`\n${CAUTION}\n`);
       }),
     );

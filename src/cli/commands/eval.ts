@@ -30,7 +30,9 @@ async function open(o: ReadOptions) {
   const session = new ReaderSession();
   const files = await readModelDir(o.model);
   try {
-    for (const n of session.loadBase({ name: o.model, files, names: files.names as { config: string; weights: string; vocab: string } }).notices) log(`note: ${n}`);
+    for (const n of session.loadBase({ name: o.model, files, names: files.names as { config: string; weights: string; vocab: string } })
+      .notices)
+      log(`note: ${n}`);
   } catch (err) {
     throw new UserError((err as Error).message);
   }
@@ -78,7 +80,9 @@ export function register(program: Command): void {
         if (report.tuned) rows.push({ label: `tuned ${report.tuned.threshold.toFixed(2)}`, scores: report.tuned.summary });
         process.stdout.write(`${scoresTable(rows)}\n`);
         const c = report.counts;
-        process.stdout.write(`outcomes: ${c.correct} correct, ${c.partial} partial, ${c['wrong-span']} wrong span, ${c['false-no-answer']} answered nothing wrongly, ${c['false-answer']} answered an unanswerable question\n`);
+        process.stdout.write(
+          `outcomes: ${c.correct} correct, ${c.partial} partial, ${c['wrong-span']} wrong span, ${c['false-no-answer']} answered nothing wrongly, ${c['false-answer']} answered an unanswerable question\n`,
+        );
         for (const w of readerWarnings(report.tuned?.summary ?? report.summary)) process.stdout.write(`${w}\n`);
       }),
     );
@@ -93,7 +97,13 @@ export function register(program: Command): void {
         const bar = countProgress('reading');
         let decoded;
         try {
-          decoded = session.predict({ model: 'base', records, ...windows, nullThreshold: o.threshold !== undefined ? Number(o.threshold) : undefined, onProgress: bar.update });
+          decoded = session.predict({
+            model: 'base',
+            records,
+            ...windows,
+            nullThreshold: o.threshold !== undefined ? Number(o.threshold) : undefined,
+            onProgress: bar.update,
+          });
         } finally {
           bar.stop();
           session.dispose();
@@ -102,7 +112,9 @@ export function register(program: Command): void {
         if (o.naProb) await writeFile(o.naProb, `${JSON.stringify(decoded.scoreDiffs, null, 1)}\n`);
         const n = Object.keys(decoded.predictions).length;
         const empty = Object.values(decoded.predictions).filter((p) => p === '').length;
-        process.stdout.write(`wrote ${n} predictions (${empty} no-answer) to ${o.out}${o.naProb ? ` and score differences to ${o.naProb}` : ''}\n`);
+        process.stdout.write(
+          `wrote ${n} predictions (${empty} no-answer) to ${o.out}${o.naProb ? ` and score differences to ${o.naProb}` : ''}\n`,
+        );
       }),
     );
 }

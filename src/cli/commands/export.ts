@@ -56,7 +56,8 @@ async function exportCommand(options: ExportOptions): Promise<void> {
   await mkdir(options.out, { recursive: true });
   const existing = new Set(await readdir(options.out));
   const clash = planned.filter((name) => existing.has(name));
-  if (clash.length > 0 && !options.force) throw new UserError(`${options.out}: already holds ${clash.join(', ')}; pass --force to overwrite`);
+  if (clash.length > 0 && !options.force)
+    throw new UserError(`${options.out}: already holds ${clash.join(', ')}; pass --force to overwrite`);
 
   // the engine is loaded only here, so other commands start without tfjs
   const tf = await import('@tensorflow/tfjs');
@@ -81,13 +82,20 @@ async function exportCommand(options: ExportOptions): Promise<void> {
 
   const quantized = options.int8 ? quantizeModel(named) : undefined;
   const drift = quantized ? measureInt8Drift(config, named, quantized) : undefined;
-  const unused = report.unexpected.length > 0
-    ? [`left out ${report.unexpected.length} tensor(s) the reader does not use: ${report.unexpected.slice(0, 5).join(', ')}${report.unexpected.length > 5 ? ', …' : ''}`]
-    : [];
+  const unused =
+    report.unexpected.length > 0
+      ? [
+          `left out ${report.unexpected.length} tensor(s) the reader does not use: ${report.unexpected.slice(0, 5).join(', ')}${report.unexpected.length > 5 ? ', …' : ''}`,
+        ]
+      : [];
   const card: Omit<ModelCardInfo, 'config' | 'files' | 'int8'> = {
     baseModel: `the model directory "${basename(resolve(options.model))}"`,
     date: new Date().toISOString(),
-    notes: [...report.notices, ...unused, ...(freshMlm.length > 0 ? ['the export holds no MLM head (cls.predictions.*), as the source had none'] : [])],
+    notes: [
+      ...report.notices,
+      ...unused,
+      ...(freshMlm.length > 0 ? ['the export holds no MLM head (cls.predictions.*), as the source had none'] : []),
+    ],
   };
   const { files: out, report: exported } = exportModel({
     config,
@@ -116,7 +124,9 @@ async function exportCommand(options: ExportOptions): Promise<void> {
   for (const f of exported.files) stdout.write(`  ${f.name.padEnd(24)} ${f.bytes.toLocaleString('en-US').padStart(14)} bytes\n`);
   if (worst && drift) {
     stdout.write(`int8: largest weight error ${worst.maxAbsError.toExponential(3)} (${worst.name}); `);
-    stdout.write(`logit drift ${drift.maxAbsLogitDiff.toExponential(3)} over a spread of ${drift.logitSpread.toFixed(3)} on ${drift.probe}\n`);
+    stdout.write(
+      `logit drift ${drift.maxAbsLogitDiff.toExponential(3)} over a spread of ${drift.logitSpread.toFixed(3)} on ${drift.probe}\n`,
+    );
   }
   for (const n of card.notes ?? []) stdout.write(`note: ${n}\n`);
 }

@@ -154,7 +154,9 @@ async function features(file: string, options: FeaturesOptions): Promise<number>
   }
   const out = process.stdout;
   const { maxLen, stride, maxQueryTokens } = builder.options;
-  out.write(`${file}: ${records.length} question(s), ${windows} window(s) (max length ${maxLen}, stride ${stride}, max question ${maxQueryTokens} tokens)\n`);
+  out.write(
+    `${file}: ${records.length} question(s), ${windows} window(s) (max length ${maxLen}, stride ${stride}, max question ${maxQueryTokens} tokens)\n`,
+  );
   if (leftOut > 0) out.write(`${leftOut} record(s) with errors left out (see \`spanwright check ${file}\`)\n`);
   out.write('windows per question:\n');
   for (const [k, v] of Object.entries(distribution)) out.write(`  ${k.padStart(3)}: ${v}\n`);

@@ -82,11 +82,21 @@ async function inspect(file: string, options: InspectOptions): Promise<void> {
   }));
   const parameterCount = tensors.reduce((sum, t) => sum + t.bytes / DTYPE_BYTES[t.dtype], 0);
   if (options.json) {
-    printJson({ file, bytes: size, headerBytes: header.headerBytes, tensorCount: tensors.length, parameterCount, metadata: header.metadata, tensors });
+    printJson({
+      file,
+      bytes: size,
+      headerBytes: header.headerBytes,
+      tensorCount: tensors.length,
+      parameterCount,
+      metadata: header.metadata,
+      tensors,
+    });
     return;
   }
   const out = process.stdout;
-  out.write(`${file}: ${tensors.length} tensor(s), ${parameterCount.toLocaleString('en-US')} values, ${size.toLocaleString('en-US')} bytes (header ${header.headerBytes})\n`);
+  out.write(
+    `${file}: ${tensors.length} tensor(s), ${parameterCount.toLocaleString('en-US')} values, ${size.toLocaleString('en-US')} bytes (header ${header.headerBytes})\n`,
+  );
   const metaKeys = Object.keys(header.metadata);
   if (metaKeys.length > 0) {
     out.write('\nmetadata:\n');
@@ -97,9 +107,14 @@ async function inspect(file: string, options: InspectOptions): Promise<void> {
   }
   if (tensors.length === 0) return;
   // a loop, not Math.max(...names): a header may list millions of tensors, more arguments than a call takes
-  const nameWidth = Math.min(72, tensors.reduce((w, t) => Math.max(w, t.name.length), 0));
+  const nameWidth = Math.min(
+    72,
+    tensors.reduce((w, t) => Math.max(w, t.name.length), 0),
+  );
   out.write(`\n${'name'.padEnd(nameWidth)}  ${'dtype'.padEnd(5)}  ${'shape'.padEnd(16)}  ${'bytes'.padStart(12)}\n`);
   for (const t of tensors) {
-    out.write(`${t.name.padEnd(nameWidth)}  ${t.dtype.padEnd(5)}  ${`[${t.shape.join(', ')}]`.padEnd(16)}  ${t.bytes.toLocaleString('en-US').padStart(12)}\n`);
+    out.write(
+      `${t.name.padEnd(nameWidth)}  ${t.dtype.padEnd(5)}  ${`[${t.shape.join(', ')}]`.padEnd(16)}  ${t.bytes.toLocaleString('en-US').padStart(12)}\n`,
+    );
   }
 }

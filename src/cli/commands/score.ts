@@ -33,7 +33,10 @@ export function register(program: Command): void {
     .description('score predicted answers against gold questions: exact match and F1 (SQuAD 2.0 rules)')
     .requiredOption('--gold <file>', 'the gold questions: SQuAD JSON, JSONL or CSV, as `check` reads them')
     .requiredOption('--pred <file>', 'predictions: a JSON object from question id to answer text ("" = no answer)')
-    .option('--na-prob <file>', 'a JSON object from question id to no-answer score (null score − best span score); enables the threshold search')
+    .option(
+      '--na-prob <file>',
+      'a JSON object from question id to no-answer score (null score − best span score); enables the threshold search',
+    )
     .option('--json', 'print the scores as one JSON object on the last line of output')
     .addHelpText(
       'after',
@@ -79,9 +82,7 @@ async function score(options: ScoreOptions): Promise<void> {
       .filter((g) => !Object.hasOwn(diffs, g.id))
       .map((g) => g.id);
     if (needed.length > 0) {
-      throw new UserError(
-        `${options.naProb}: no score for ${needed.length} question(s) that have a predicted answer ${listIds(needed)}`,
-      );
+      throw new UserError(`${options.naProb}: no score for ${needed.length} question(s) that have a predicted answer ${listIds(needed)}`);
     }
     threshold = findBestThresholds(gold, predictions, diffs);
   }
@@ -115,7 +116,10 @@ function warn(message: string): void {
 }
 
 function listIds(ids: readonly string[]): string {
-  const shown = ids.slice(0, SHOWN_IDS).map((id) => JSON.stringify(id)).join(', ');
+  const shown = ids
+    .slice(0, SHOWN_IDS)
+    .map((id) => JSON.stringify(id))
+    .join(', ');
   return ids.length > SHOWN_IDS ? `(${shown} and ${ids.length - SHOWN_IDS} more)` : `(${shown})`;
 }
 
@@ -129,7 +133,9 @@ async function readGold(file: string) {
   }
   if (errors.length > 0) {
     warn(`${formatProblem(errors[0]!)}`);
-    warn(`${file}: ${errors.length} error(s); the questions they affect are left out of the score (\`spanwright check ${file}\` lists them)`);
+    warn(
+      `${file}: ${errors.length} error(s); the questions they affect are left out of the score (\`spanwright check ${file}\` lists them)`,
+    );
   }
   return goldFromRecords(result.records);
 }
@@ -151,7 +157,9 @@ function readStringMap(file: string, obj: Record<string, unknown>): Record<strin
   const out: Record<string, string> = Object.create(null); // ids such as "__proto__" stay plain keys
   for (const [id, v] of Object.entries(obj)) {
     if (typeof v !== 'string') {
-      throw new UserError(`${file}: question ${JSON.stringify(id)}: the answer must be a string ("" for no answer), found ${describeValue(v)}`);
+      throw new UserError(
+        `${file}: question ${JSON.stringify(id)}: the answer must be a string ("" for no answer), found ${describeValue(v)}`,
+      );
     }
     out[id] = v;
   }

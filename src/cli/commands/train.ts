@@ -102,16 +102,26 @@ export function configFromOptions(o: TrainOptions): TrainConfig {
     // the question length and stride a window of this length gets by the one rule (src/session/windows.ts)
     let fitted;
     try {
-      fitted = resolveWindows({ maxLength: overrides.maxLength, stride: overrides.stride, maxQueryLength: overrides.maxQueryLength }, { maxPositions: Number.MAX_SAFE_INTEGER });
+      fitted = resolveWindows(
+        { maxLength: overrides.maxLength, stride: overrides.stride, maxQueryLength: overrides.maxQueryLength },
+        { maxPositions: Number.MAX_SAFE_INTEGER },
+      );
     } catch (err) {
-      throw new UserError(`--${(err as Error).message.replace(/^maxLength/, 'max-len').replace(/^stride/, 'stride').replace(/^maxQueryLength/, 'max-query')}`);
+      throw new UserError(
+        `--${(err as Error).message
+          .replace(/^maxLength/, 'max-len')
+          .replace(/^stride/, 'stride')
+          .replace(/^maxQueryLength/, 'max-query')}`,
+      );
     }
     overrides.maxQueryLength ??= fitted.settings.maxQueryLength;
     overrides.stride ??= fitted.settings.stride;
   }
   const c = { ...DEFAULT_TRAIN_CONFIG, ...overrides };
   if (c.stride >= c.maxLength - c.maxQueryLength - 3) {
-    throw new UserError(`--stride ${c.stride} must be below the context tokens a window holds: max length ${c.maxLength} − question tokens ${c.maxQueryLength} − 3`);
+    throw new UserError(
+      `--stride ${c.stride} must be below the context tokens a window holds: max length ${c.maxLength} − question tokens ${c.maxQueryLength} − 3`,
+    );
   }
   try {
     return trainConfig(overrides);
@@ -154,7 +164,9 @@ export async function practiceFromOptions(o: TrainOptions, train: QARecord[], co
   const maxLength = int('practice-max-len', o.practiceMaxLen) ?? PRACTICE_DEFAULTS.maxLength;
   let stage: TrainConfig;
   try {
-    stage = trainConfig(practiceTrainSettings(config, { epochs: int('practice-epochs', o.practiceEpochs) ?? PRACTICE_DEFAULTS.epochs, maxLength }));
+    stage = trainConfig(
+      practiceTrainSettings(config, { epochs: int('practice-epochs', o.practiceEpochs) ?? PRACTICE_DEFAULTS.epochs, maxLength }),
+    );
   } catch (err) {
     throw new UserError((err as Error).message);
   }
@@ -247,7 +259,9 @@ export async function trainReader(
   }
   for (const n of info.notices) log(`note: ${n}`);
   if (config.maxLength > info.config.maxPositions) {
-    throw new UserError(`--max-len ${config.maxLength} exceeds the ${info.config.maxPositions} positions of ${o.base} (max_position_embeddings)`);
+    throw new UserError(
+      `--max-len ${config.maxLength} exceeds the ${info.config.maxPositions} positions of ${o.base} (max_position_embeddings)`,
+    );
   }
   const train = await loadRecords(o.train, log);
   const evalRecords = o.eval ? await loadRecords(o.eval, log) : null;
@@ -265,7 +279,8 @@ export async function trainReader(
   const lock = await lockOutputFolder(o.out);
   if (lock.tookOverFrom !== null) log(`note: ${o.out} held a lock of process ${lock.tookOverFrom}, which no longer runs; taken over`);
   const orphans = await store.sweepOrphans();
-  if (orphans.length > 0) log(`note: removed ${orphans.length} file(s) an interrupted checkpoint save left in ${join(o.out, 'checkpoints')}`);
+  if (orphans.length > 0)
+    log(`note: removed ${orphans.length} file(s) an interrupted checkpoint save left in ${join(o.out, 'checkpoints')}`);
   const abort = new AbortController();
   const onSigint = () => {
     log('\nstopping after this update; the run can continue with --resume');
@@ -287,28 +302,51 @@ export async function trainReader(
       const progress = trainingProgress('masked-LM');
       let ended;
       try {
-        ended = await session.domainPretrain({ runId: 'domain', passages: step.passages, config: step.domain.config, minutes: step.domain.minutes, datasetHash: hash, resumeFrom, onEvent: progress.onEvent, signal: abort.signal });
+        ended = await session.domainPretrain({
+          runId: 'domain',
+          passages: step.passages,
+          config: step.domain.config,
+          minutes: step.domain.minutes,
+          datasetHash: hash,
+          resumeFrom,
+          onEvent: progress.onEvent,
+          signal: abort.signal,
+        });
       } finally {
         progress.stop();
       }
-      if (ended.status === 'stopped') throw new UserError(`stopped in the masked-LM stage at update ${ended.update}; continue with the same command and --resume`, 130);
+      if (ended.status === 'stopped')
+        throw new UserError(`stopped in the masked-LM stage at update ${ended.update}; continue with the same command and --resume`, 130);
       domain = { passes: ended.passes, rows: ended.rows, updates: ended.totalUpdates, seconds: (performance.now() - t0) / 1000 };
     }
     if (step?.practice) {
       const p = step;
       const t0 = performance.now();
       const preview = session.previewPractice({ passages: p.passages, questions: p.questions, sample: 0 });
-      log(`practice: ${preview.questions} questions (${preview.unanswerable} without an answer) written from ${preview.passages} passages of ${p.source}`);
+      log(
+        `practice: ${preview.questions} questions (${preview.unanswerable} without an answer) written from ${preview.passages} passages of ${p.source}`,
+      );
       const hash = `practice:${await hashDataset(train)}:${p.passages.length}:${JSON.stringify(p.questions ?? {})}`;
       const resumeFrom = o.resume ? (await session.latestCheckpoint({ datasetHash: hash, stage: 'practice' }))?.id : undefined;
       const progress = trainingProgress('practice');
       let ended;
       try {
-        ended = await session.practice({ runId: 'practice', passages: p.passages, questions: p.questions, config: p.config, questionMatch: p.questionMatch, datasetHash: hash, resumeFrom, onEvent: progress.onEvent, signal: abort.signal });
+        ended = await session.practice({
+          runId: 'practice',
+          passages: p.passages,
+          questions: p.questions,
+          config: p.config,
+          questionMatch: p.questionMatch,
+          datasetHash: hash,
+          resumeFrom,
+          onEvent: progress.onEvent,
+          signal: abort.signal,
+        });
       } finally {
         progress.stop();
       }
-      if (ended.status === 'stopped') throw new UserError(`stopped in the practice stage at update ${ended.update}; continue with the same command and --resume`, 130);
+      if (ended.status === 'stopped')
+        throw new UserError(`stopped in the practice stage at update ${ended.update}; continue with the same command and --resume`, 130);
       const afterPractice = evalRecords && p.measure ? evaluate('evaluating after practice', 'start') : null;
       practice = { questions: ended.questions, updates: ended.totalUpdates, seconds: (performance.now() - t0) / 1000, afterPractice };
     }
@@ -327,15 +365,26 @@ export async function trainReader(
     const progress = trainingProgress();
     let ended;
     try {
-      ended = await session.fineTune({ runId: 'train', train, validation: evalRecords ?? [], config, datasetHash, resumeFrom, onEvent: progress.onEvent, signal: abort.signal });
+      ended = await session.fineTune({
+        runId: 'train',
+        train,
+        validation: evalRecords ?? [],
+        config,
+        datasetHash,
+        resumeFrom,
+        onEvent: progress.onEvent,
+        signal: abort.signal,
+      });
     } finally {
       progress.stop();
     }
-    if (ended.status === 'stopped') throw new UserError(`stopped at update ${ended.update}; continue with the same command and --resume`, 130);
+    if (ended.status === 'stopped')
+      throw new UserError(`stopped at update ${ended.update}; continue with the same command and --resume`, 130);
 
     // 3. measure
     const after = evalRecords ? evaluate('evaluating the trained reader', 'tuned') : null;
-    const afterTrainedCut = evalRecords && o.measureCut ? session.scoreWithTrainedCut({ model: 'tuned', tuneOn: train, records: evalRecords, ...windows }) : null;
+    const afterTrainedCut =
+      evalRecords && o.measureCut ? session.scoreWithTrainedCut({ model: 'tuned', tuneOn: train, records: evalRecords, ...windows }) : null;
     const baseline = evalRecords && o.measureBase ? session.wordOverlapBaseline({ tuneOn: train, records: evalRecords }) : null;
 
     // 4. write
@@ -349,11 +398,24 @@ export async function trainReader(
       card: {
         dataset: { hash: datasetHash, records: train.length, train: train.length, validation: evalRecords?.length ?? 0 },
         settings: config,
-        scores: after ? { withoutThreshold: after.summary, withThreshold: after.tuned ? { ...after.tuned.summary, threshold: after.tuned.threshold } : undefined } : undefined,
+        scores: after
+          ? {
+              withoutThreshold: after.summary,
+              withThreshold: after.tuned ? { ...after.tuned.summary, threshold: after.tuned.threshold } : undefined,
+            }
+          : undefined,
         baseScores: before?.summary,
         notes: [
-          ...(domain ? [`first trained with masked-LM on ${step!.source} (${domain.passes} passes over ${domain.rows} rows of 128 tokens, ${domain.updates} updates)`] : []),
-          ...(practice ? [`${domain ? 'then' : 'first'} trained on ${practice.questions} practice questions written from ${step!.source} (${practice.updates} updates)`] : []),
+          ...(domain
+            ? [
+                `first trained with masked-LM on ${step!.source} (${domain.passes} passes over ${domain.rows} rows of 128 tokens, ${domain.updates} updates)`,
+              ]
+            : []),
+          ...(practice
+            ? [
+                `${domain ? 'then' : 'first'} trained on ${practice.questions} practice questions written from ${step!.source} (${practice.updates} updates)`,
+              ]
+            : []),
           `fine-tuned for ${ended.totalUpdates} updates (${config.epochs} epochs, windows of ${config.maxLength} tokens)`,
         ],
       },
@@ -390,21 +452,36 @@ export function register(program: Command): void {
     .option('--base <dir>', 'the base model directory', DEFAULT_BASE)
     .requiredOption('--out <dir>', 'where the trained model directory (and its checkpoints/) go')
     .option('--epochs <n>', `passes over the training windows (default ${d.epochs})`)
-    .option('--lr <x>', `peak learning rate after warmup (default by the base's hidden size: ${suggestedLearningRate(256)} up to 256, ${suggestedLearningRate(512)} up to 512, ${suggestedLearningRate(768)} above)`)
+    .option(
+      '--lr <x>',
+      `peak learning rate after warmup (default by the base's hidden size: ${suggestedLearningRate(256)} up to 256, ${suggestedLearningRate(512)} up to 512, ${suggestedLearningRate(768)} above)`,
+    )
     .option('--batch <n>', `windows per micro-batch (default ${d.batchSize})`)
     .option('--accumulate <n>', `micro-batches per optimizer update (default ${d.gradAccumulation})`)
     .option('--max-len <n>', `tokens per window, special tokens included (default ${d.maxLength})`)
     .option('--stride <n>', `context tokens shared by neighbouring windows of a long passage (default ${d.stride})`)
     .option('--max-query <n>', `question tokens kept (default ${d.maxQueryLength}, or a third of --max-len)`)
     .option('--seed <n>', `seed for data order and dropout (default ${d.seed})`)
-    .option('--practice-from <path>', 'first train on practice questions written from these passages: a JSONL of {id, text}, a folder of .txt files, or "train" for the training questions\' passages')
+    .option(
+      '--practice-from <path>',
+      'first train on practice questions written from these passages: a JSONL of {id, text}, a folder of .txt files, or "train" for the training questions\' passages',
+    )
     .option('--practice-epochs <n>', `passes over the practice questions (default ${PRACTICE_DEFAULTS.epochs})`)
     .option('--practice-per-passage <n>', `practice questions per passage (default ${PRACTICE_DEFAULTS.perPassage})`)
     .option('--practice-max-len <n>', `tokens per practice window (default ${PRACTICE_DEFAULTS.maxLength})`)
-    .option('--domain-minutes <n>', 'first train the encoder with masked-LM on the same passages (--practice-from, or the training passages) for about this many minutes (default 0: not at all)')
-    .option('--question-match [level]', 'word-match token types for the practice stage: "words" (passage words found in the question) or "words+sentence" (also the best-matching sentence, the default level); on already when the base\'s config.json says so')
+    .option(
+      '--domain-minutes <n>',
+      'first train the encoder with masked-LM on the same passages (--practice-from, or the training passages) for about this many minutes (default 0: not at all)',
+    )
+    .option(
+      '--question-match [level]',
+      'word-match token types for the practice stage: "words" (passage words found in the question) or "words+sentence" (also the best-matching sentence, the default level); on already when the base\'s config.json says so',
+    )
     .option('--resume', 'continue from the last checkpoint in <out>/checkpoints')
-    .option('--json', 'print the evaluation as one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, tuned}')
+    .option(
+      '--json',
+      'print the evaluation as one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, tuned}',
+    )
     .addHelpText(
       'after',
       `
@@ -419,14 +496,31 @@ Example:
       runCommand(async () => {
         const config = configFromOptions(o);
         const log = (line: string) => process.stderr.write(`${line}\n`);
-        const run = await trainReader({ train: o.train, eval: o.eval, base: o.base, out: o.out, resume: o.resume, practice: (train) => practiceFromOptions(o, train, config) }, config, log);
+        const run = await trainReader(
+          {
+            train: o.train,
+            eval: o.eval,
+            base: o.base,
+            out: o.out,
+            resume: o.resume,
+            practice: (train) => practiceFromOptions(o, train, config),
+          },
+          config,
+          log,
+        );
         if (o.json) {
           printJson(run.after ? scoresObject(run.after) : { em: null, f1: null, total: 0 });
           return;
         }
-        const rows = [...(run.practice?.afterPractice ? [{ label: 'after practice', scores: run.practice.afterPractice.summary }] : []), ...(run.after ? [{ label: 'trained', scores: run.after.summary }] : [])];
+        const rows = [
+          ...(run.practice?.afterPractice ? [{ label: 'after practice', scores: run.practice.afterPractice.summary }] : []),
+          ...(run.after ? [{ label: 'trained', scores: run.after.summary }] : []),
+        ];
         if (rows.length > 0) process.stdout.write(`${scoresTable(rows)}\n`);
-        if (run.after?.tuned) process.stdout.write(`with the tuned no-answer threshold ${run.after.tuned.threshold.toFixed(2)}: EM ${run.after.tuned.summary.em?.toFixed(1)} F1 ${run.after.tuned.summary.f1?.toFixed(1)}\n`);
+        if (run.after?.tuned)
+          process.stdout.write(
+            `with the tuned no-answer threshold ${run.after.tuned.threshold.toFixed(2)}: EM ${run.after.tuned.summary.em?.toFixed(1)} F1 ${run.after.tuned.summary.f1?.toFixed(1)}\n`,
+          );
         if (run.after) for (const w of readerWarnings(run.after.tuned?.summary ?? run.after.summary)) process.stdout.write(`${w}\n`);
         process.stdout.write(`model directory: ${run.out} (${run.files.map((f) => f.name).join(', ')}) in ${run.seconds.toFixed(0)} s\n`);
       }),

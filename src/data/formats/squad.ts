@@ -79,7 +79,10 @@ export function parseSquad(text: string, file: string): ParseResult {
         };
         const index = count++;
         if (!isObject(qa)) {
-          problems.push({ ...fileProblem(file, 'wrong-type', 'a question must be an object with id, question and answers', qat), record: index });
+          problems.push({
+            ...fileProblem(file, 'wrong-type', 'a question must be an object with id, question and answers', qat),
+            record: index,
+          });
           return;
         }
         const answers = qa['answers'];
@@ -91,9 +94,7 @@ export function parseSquad(text: string, file: string): ParseResult {
           passageId,
           context: paragraph['context'],
           question: qa['question'],
-          answers: Array.isArray(answers)
-            ? answers.map((x) => (isObject(x) ? { text: x['text'], start: x['answer_start'] } : x))
-            : answers,
+          answers: Array.isArray(answers) ? answers.map((x) => (isObject(x) ? { text: x['text'], start: x['answer_start'] } : x)) : answers,
           unanswerable: qa['is_impossible'],
         });
       });
