@@ -166,7 +166,7 @@ export class SpanwrightApp extends LitElement {
   private readonly simd = simdSupported();
   private lastRunSave = 0;
   /** what the user asked of the running run, to tell a pause from a stop when it returns */
-  private haltMode: 'pause' | 'stop' | null = null;
+  @state() private haltMode: 'pause' | 'stop' | null = null;
 
   override connectedCallback(): void {
     super.connectedCallback();
@@ -291,6 +291,15 @@ export class SpanwrightApp extends LitElement {
             </button>`,
         )}
       </nav>
+      ${
+        this.run?.status === 'interrupted' && this.screen !== 'training'
+          ? html`<p class="note warn" id="interrupted-banner" role="status">
+              The ${this.run.stage === 'practice' || this.run.stage === 'domain' ? 'practice' : 'training'} run ${this.run.runId} was
+              interrupted (the page was closed or reloaded while it trained).
+              <button @click=${() => this._onNavigate('training')}>Continue it on the Training screen</button>
+            </p>`
+          : ''
+      }
       <main>${this.renderScreen()}</main>
     `;
   }
@@ -328,6 +337,7 @@ export class SpanwrightApp extends LitElement {
           .engine=${this.engine}
           .practice=${this.practice}
           .practiceSettings=${this.practiceSettings}
+          .halting=${this.haltMode}
           @settings-change=${this._onSettingsChange}
           @practice-settings=${this._onPracticeSettings}
           @practice-start=${this._onPracticeStart}

@@ -115,6 +115,8 @@ export class TrainingScreen extends LitElement {
   /** the finished practice stage fine-tuning starts from, if any */
   @property({ attribute: false }) practice: PracticeState | null = null;
   @property({ attribute: false }) practiceSettings: PracticeSettings = DEFAULT_PRACTICE;
+  /** the user asked the running run to pause or stop, and it has not returned yet */
+  @property({ attribute: false }) halting: 'pause' | 'stop' | null = null;
 
   @state() private formError = '';
 
@@ -222,7 +224,15 @@ export class TrainingScreen extends LitElement {
         <span id="run-update">${run.update}</span> of ${run.totalUpdates || '…'}
         ${lastLoss !== undefined ? html`· loss ${lastLoss.toFixed(4)}` : ''}
         ${s.f1.length ? html`· validation F1 ${s.f1.at(-1)!.toFixed(2)}` : ''}
-        ${run.status === 'running' ? html`· ETA <span id="eta">${formatDuration(run.etaMs)}</span>` : ''}
+        ${run.status === 'running' ? html`· ETA <span id="eta">${run.etaMs > 0 ? formatDuration(run.etaMs) : 'estimating…'}</span>` : ''}
+        ${
+          this.halting && run.status === 'running'
+            ? html`·
+                <span id="halting" role="status"
+                  >${this.halting === 'stop' ? 'stopping' : 'pausing'} after this update and its checkpoint…</span
+                >`
+            : ''
+        }
         ${run.lastCheckpoint ? html`· last checkpoint at update ${run.lastCheckpoint.step}` : ''}
       </p>
       <progress max=${Math.max(1, run.totalUpdates)} .value=${run.update}></progress>

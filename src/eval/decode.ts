@@ -8,9 +8,12 @@
 //      logit, among context tokens only (offsets not −1).
 //   2. Pair them: keep end ≥ start and length end − start + 1 ≤ max answer length;
 //      a span's score is start logit + end logit.
-//   3. Map token spans to characters through the window's offsets and gather the
-//      spans of all windows; the same character span seen in two overlapping windows
-//      keeps its best score. Sort by score, keep the n best.
+//   3. Map token spans to characters through the window's offsets, widened to whole
+//      words where a span starts or ends inside one (WordPiece cuts "2025" into "20",
+//      "##2", "##5"; an answer "202" is never meant), and gather the spans of all windows;
+//      the same character span seen twice keeps its best score. Sort by score, keep the
+//      n best. Scripts written without spaces between words (Han, kana, Thai) are not
+//      widened: there a character is a fair boundary.
 //   4. The null score of a window is start[0] + end[0] ([CLS]); the question's null
 //      score is the minimum over its windows (common practice: a question is only as
 //      unanswerable as its most confident window says).
@@ -20,6 +23,10 @@
 // only never wastes a candidate on a question token.
 import type { QARecord } from '../data/record.js';
 import type { Feature } from '../text/features.js';
+
+/** A letter or digit of a script that separates its words with spaces (step 3). */
+const WORD_CHAR = /(?![\p{sc=Han}\p{sc=Hiragana}\p{sc=Katakana}\p{sc=Thai}])[\p{L}\p{N}\p{M}]/u;
+const inWord = (text: string, i: number) => i >= 0 && i < text.length && WORD_CHAR.test(text[i]!);
 
 /**
  * The part of a `Feature` (src/text/features.ts, contract in DEVELOPERS.md) the decoder
@@ -142,13 +149,15 @@ export function decodeQuestion(
     for (const s of starts) {
       for (const e of ends) {
         if (e < s || e - s + 1 > maxAnswerLength) continue;
-        const charStart = offsets[2 * s]!;
-        const charEnd = offsets[2 * e + 1]!;
+        let charStart = offsets[2 * s]!;
+        let charEnd = offsets[2 * e + 1]!;
         if (charEnd < charStart || charEnd > context.length) {
           throw new Error(
             `record "${win.recordId}" window ${win.window}: offsets ${charStart}..${charEnd} do not fit a context of ${context.length} characters`,
           );
         }
+        while (charStart > 0 && inWord(context, charStart - 1) && inWord(context, charStart)) charStart--;
+        while (charEnd < context.length && inWord(context, charEnd) && inWord(context, charEnd - 1)) charEnd++;
         const score = startLogits[s]! + endLogits[e]!;
         const key = `${charStart}:${charEnd}`;
         const seen = bySpan.get(key);

@@ -264,6 +264,8 @@ describe('the browser workbench', () => {
     // a reload kills the worker mid-run: the run must come back as interrupted
     await page.reload();
     await waitForEngine();
+    // the screen it lands on says a run was interrupted, and leads to it
+    await page.locator('#interrupted-banner').waitFor();
     await screen('training');
     // the practice stage is restored from its checkpoint as the reader fine-tuning starts from
     await expect(page.locator('#practice-done').count()).resolves.toBe(1);

@@ -163,6 +163,40 @@ describe('decodeQuestion', () => {
     expect(d).toMatchObject({ prediction: '', best: null, nBest: [], nullScore: -6, scoreDiff: Infinity });
   });
 
+  it('widens a span cut inside a word to the whole word, but not in a script written without spaces', () => {
+    // WordPiece pieces of "1903" as "19" "##0" "##3" (offsets by hand): a span on "19"..."0" is "1903"
+    const context = 'won in 1903 for physics';
+    const offsets = new Int32Array(2 * 16).fill(-1);
+    const pieces: Array<[number, number]> = [
+      [0, 3],
+      [4, 6],
+      [7, 9],
+      [9, 10],
+      [10, 11],
+      [12, 15],
+      [16, 23],
+    ];
+    pieces.forEach(([a, b], i) => {
+      offsets[2 * (FIRST + i)] = a;
+      offsets[2 * (FIRST + i) + 1] = b;
+    });
+    const d = decodeQuestion(context, [{ recordId: 'q', window: 0, offsets }], [makeLogits(16, { [FIRST + 2]: 5 }, { [FIRST + 3]: 5 })]);
+    expect(d.prediction).toBe('1903');
+    // Han characters: one token per character, and a character is a fair answer on its own
+    const han = '東京都は日本の首都';
+    const hanOffsets = new Int32Array(2 * 16).fill(-1);
+    for (let i = 0; i < han.length; i++) {
+      hanOffsets[2 * (FIRST + i)] = i;
+      hanOffsets[2 * (FIRST + i) + 1] = i + 1;
+    }
+    const h = decodeQuestion(
+      han,
+      [{ recordId: 'h', window: 0, offsets: hanOffsets }],
+      [makeLogits(16, { [FIRST + 4]: 5 }, { [FIRST + 5]: 5 })],
+    );
+    expect(h.prediction).toBe('日本');
+  });
+
   it('names the record and window when logits do not fit the window', () => {
     const w = makeWindow('q7', 2, CONTEXT, 0, 10);
     expect(() => decodeQuestion(CONTEXT, [w], [makeLogits(15, {}, {})])).toThrow(
