@@ -1,5 +1,7 @@
 // defines: splitByPassage — train/validation split that never puts one passage on both
-// sides, so validation measures reading unseen text rather than recalling a passage.
+// sides, so validation measures reading unseen text rather than recalling a passage;
+// SplitChoice, chooseSplit — the one rule for which questions train and which validate:
+// by passage as below, or the questions the user imported as validation, kept as they are.
 //
 // 1. Passage ids are sorted (UTF-16 code-unit order), so the split depends on the set
 //    of records, not on their order in the file (as the dataset hash does, hash.ts).
@@ -56,4 +58,35 @@ export function splitByPassage(records: readonly QARecord[], options: SplitOptio
   const split: Split = { train: [], validation: [] };
   for (const r of records) (held.has(r.passageId) ? split.validation : split.train).push(r);
   return split;
+}
+
+/**
+ * How the questions are divided, as the user chose:
+ *   passage  splitByPassage over every question, under `validationFraction` and `seed`
+ *   file     the questions imported as validation (their ids) validate, all others train;
+ *            the fraction and seed are kept for a switch back
+ */
+export interface SplitChoice extends SplitOptions {
+  mode: 'passage' | 'file';
+}
+
+/** Today's default: 15 % of the questions, by whole passages, seed 42. */
+export const DEFAULT_SPLIT: SplitChoice = { mode: 'passage', validationFraction: 0.15, seed: 42 };
+
+/**
+ * The split under `choice`. `validationIds` are the ids of the questions imported as
+ * validation; only mode 'file' reads them. Records keep their input order on each side.
+ */
+export function chooseSplit(records: readonly QARecord[], validationIds: Iterable<string>, choice: SplitChoice): Split {
+  if (choice.mode === 'passage') return splitByPassage(records, choice);
+  const held = new Set(validationIds);
+  const split: Split = { train: [], validation: [] };
+  for (const r of records) (held.has(r.id) ? split.validation : split.train).push(r);
+  return split;
+}
+
+/** Passages with questions on both sides of a split (possible only in mode 'file'). */
+export function sharedPassages(split: Split): string[] {
+  const train = new Set(split.train.map((r) => r.passageId));
+  return [...new Set(split.validation.map((r) => r.passageId))].filter((p) => train.has(p));
 }

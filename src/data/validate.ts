@@ -43,7 +43,9 @@ export type ProblemCode =
   | 'duplicate-id'
   | 'passage-conflict'
   | 'duplicate-question' // warning
-  | 'question-without-words'; // warning: no letter or digit, so the reader sees no question
+  | 'question-without-words' // warning: no letter or digit, so the reader sees no question
+  | 'unknown-format' // the name gives no format and the text looks like none
+  | 'already-present'; // warning, on import into a dataset: this very question is there already; skipped
 
 /** Problem kinds that are repairs: the record was changed and kept. */
 export const REPAIR_CODES: ReadonlySet<ProblemCode> = new Set<ProblemCode>(['answer-repaired', 'line-breaks-normalised']);
@@ -52,7 +54,7 @@ export const REPAIR_CODES: ReadonlySet<ProblemCode> = new Set<ProblemCode>(['ans
 export interface Problem {
   severity: Severity;
   file: string;
-  /** the question's index in the file (0-based); -1 when it concerns the whole file */
+  /** the question's index in the file (0-based; messages count from 1, see recordNumber); -1 when it concerns the whole file */
   record: number;
   id?: string;
   /** the field as the file names it ('' for the whole file) */
@@ -64,6 +66,8 @@ export interface Problem {
 export interface ValidationResult {
   /** records that passed, repaired where a warning says so, in file order */
   records: QARecord[];
+  /** each passed record's index in the file (Problem.record), parallel to `records` */
+  indices: number[];
   problems: Problem[];
 }
 
@@ -77,6 +81,7 @@ const PROGRESS_EVERY = 2000;
 /** Checks raw records from a format reader; see the header for the rules. */
 export function validateRecords(raw: RawRecord[], file: string, options: ValidateOptions = {}): ValidationResult {
   const records: QARecord[] = [];
+  const indices: number[] = [];
   const problems: Problem[] = [];
   const idOwner = new Map<string, RawRecord>();
   const passageOwner = new Map<string, { context: string; raw: RawRecord }>();
@@ -116,12 +121,13 @@ export function validateRecords(raw: RawRecord[], file: string, options: Validat
       } else if (!passage) passageOwner.set(rec.passageId, { context: rec.context, raw: r });
     }
     if (keep && rec) {
-      const key = `${rec.passageId}\u0000${rec.question.trim().replace(/\s+/g, ' ').toLowerCase()}`;
+      const key = questionKey(rec.passageId, rec.question);
       const owner = questionOwner.get(key);
       if (owner) {
         report('warning', 'duplicate-question', r.names.question, `the same question is asked of this passage by ${describe(owner)}`);
       } else questionOwner.set(key, r);
       records.push(rec);
+      indices.push(r.index);
     }
     if (options.onProgress && ((n + 1) % PROGRESS_EVERY === 0 || n + 1 === raw.length)) options.onProgress(n + 1, raw.length);
   });
@@ -141,7 +147,7 @@ export function validateRecords(raw: RawRecord[], file: string, options: Validat
       ),
     );
   }
-  return { records, problems };
+  return { records, indices, problems };
 }
 
 /** Checks records made in memory (labelled in the page, or built by code). */
@@ -182,10 +188,23 @@ export function summarise(result: ValidationResult): DatasetSummary {
   };
 }
 
-/** One line for a person: `file: record 3 (id q4), answers[0].start: message`. */
+/**
+ * When two questions count as the same: one passage, and the question text equal after
+ * trimming, collapsing white space and lower-casing.
+ */
+export function questionKey(passageId: string, question: string): string {
+  return `${passageId}\u0000${question.trim().replace(/\s+/g, ' ').toLowerCase()}`;
+}
+
+/** How a person counts records: from 1 (Problem.record, for tools, counts from 0). */
+export function recordNumber(index: number): number {
+  return index + 1;
+}
+
+/** One line for a person: `file: record 4 (id q4), answers[0].start: message` (the record counted from 1). */
 export function formatProblem(p: Problem): string {
   const parts: string[] = [];
-  if (p.record >= 0) parts.push(`record ${p.record}${p.id !== undefined ? ` (id ${p.id})` : ''}`);
+  if (p.record >= 0) parts.push(`record ${recordNumber(p.record)}${p.id !== undefined ? ` (id ${p.id})` : ''}`);
   if (p.field) parts.push(p.field);
   return `${[p.file, parts.join(', ')].filter((s) => s !== '').join(': ')}: ${p.severity}: ${p.message}`;
 }
@@ -436,7 +455,8 @@ function problem(
 }
 
 function describe(r: RawRecord): string {
-  return r.where ? `record ${r.index} (${r.where})` : `record ${r.index}`;
+  const n = recordNumber(r.index);
+  return r.where ? `record ${n} (${r.where})` : `record ${n}`;
 }
 
 function quote(s: string): string {

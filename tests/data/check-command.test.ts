@@ -82,4 +82,28 @@ describe('spanwright check', () => {
     expect(self.stderr).toContain('is the file being checked');
     expect(readFileSync(file, 'utf8')).toBe(good);
   });
+
+  it('counts records from 1 in its lines, as the workbench does, and keeps the 0-based index in --json', async () => {
+    const file = join(dir, 'third-bad.jsonl');
+    writeFileSync(file, good + repaired + broken);
+    const r = await check(file);
+    expect(r.stdout).toContain(`${file}: record 3 (id c), answers[0].start: error:`);
+    expect(r.stdout).toContain(`${file}: record 2 (id b), answers[0].start: warning:`);
+    const json = await check(file, '--json');
+    const report = JSON.parse(json.stdout.trimEnd().split('\n').at(-1)!) as { errors: Array<{ record: number }> };
+    expect(report.errors.map((e) => e.record)).toEqual([2]);
+  });
+
+  it('a plain .txt file is no format: the error names the file and the accepted formats', async () => {
+    const file = join(dir, 'notes.txt');
+    writeFileSync(file, 'The tram depot opens at six.\nNight trams stop at one.\n');
+    const r = await check(file);
+    expect(r.code).toBe(1);
+    expect(r.stdout).toContain(`${file}: error: cannot tell the format: the name ends in .txt`);
+    expect(r.stdout).toContain('SQuAD 1.1/2.0 JSON (.json), JSONL (.jsonl, .ndjson), CSV (.csv) or TSV (.tsv)');
+    expect(r.stdout).not.toContain('read as csv');
+    // named with --format, it is read as that format
+    const forced = await check(file, '--format', 'csv');
+    expect(forced.stdout).toContain('the header row lacks the column(s)');
+  });
 });

@@ -81,7 +81,7 @@ describe('CSV', () => {
       [0, 'answer_start', 'wrong-type'],
       [2, 'id', 'duplicate-id'],
     ]);
-    expect(r.problems[1]!.message).toContain('record 1 (row 3)');
+    expect(r.problems[1]!.message).toContain('record 2 (row 3)');
   });
 
   it('warns about unknown columns and hints at a semicolon separator', () => {

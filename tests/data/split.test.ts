@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { splitByPassage } from '../../src/data/split.js';
+import { chooseSplit, DEFAULT_SPLIT, sharedPassages, splitByPassage } from '../../src/data/split.js';
 import type { QARecord } from '../../src/data/record.js';
 import { mulberry32, shuffleInPlace } from '../../src/data/random.js';
 
@@ -75,5 +75,37 @@ describe('splitByPassage', () => {
     expect(() => splitByPassage(records, { validationFraction: -0.1, seed: 1 })).toThrow(RangeError);
     expect(() => splitByPassage(records, { validationFraction: Number.NaN, seed: 1 })).toThrow(RangeError);
     expect(() => splitByPassage(records, { validationFraction: 0.1, seed: 0.5 })).toThrow(RangeError);
+  });
+});
+
+describe('chooseSplit', () => {
+  const records = dataset(30, 7);
+  // the questions a user imported as validation: every question of the first three passages, and one more elsewhere
+  const imported = [...records.filter((r) => ['p0', 'p1', 'p2'].includes(r.passageId)).map((r) => r.id), 'p9q0'];
+
+  it("mode 'passage' is splitByPassage, whatever was imported as validation", () => {
+    const choice = { ...DEFAULT_SPLIT, mode: 'passage' as const };
+    expect(chooseSplit(records, imported, choice)).toEqual(splitByPassage(records, choice));
+    expect(DEFAULT_SPLIT).toEqual({ mode: 'passage', validationFraction: 0.15, seed: 42 });
+  });
+
+  it("mode 'file' keeps the imported validation questions as validation and trains on all others, in input order", () => {
+    const { train, validation } = chooseSplit(records, imported, { ...DEFAULT_SPLIT, mode: 'file' });
+    expect(ids(validation)).toEqual(ids(records).filter((id) => imported.includes(id)));
+    expect(ids(train)).toEqual(ids(records).filter((id) => !imported.includes(id)));
+    // the fraction and seed play no part
+    expect(chooseSplit(records, imported, { mode: 'file', validationFraction: 0.5, seed: 1 }).validation).toEqual(validation);
+  });
+
+  it("mode 'file' ignores ids no record has, and without imported questions validates nothing", () => {
+    const { validation } = chooseSplit(records, ['gone', 'p0q0'], { ...DEFAULT_SPLIT, mode: 'file' });
+    expect(ids(validation)).toEqual(['p0q0']);
+    expect(chooseSplit(records, [], { ...DEFAULT_SPLIT, mode: 'file' }).train).toHaveLength(records.length);
+  });
+
+  it('sharedPassages names passages on both sides: none by passage, the mixed ones from a file', () => {
+    expect(sharedPassages(chooseSplit(records, imported, DEFAULT_SPLIT))).toEqual([]);
+    const mixed = records.filter((r) => r.passageId === 'p9').length > 1 ? ['p9'] : [];
+    expect(sharedPassages(chooseSplit(records, imported, { ...DEFAULT_SPLIT, mode: 'file' }))).toEqual(mixed);
   });
 });

@@ -163,7 +163,7 @@ describe('validation, across records', () => {
   it('a duplicate id is an error on the later record, naming the first', () => {
     const v = validateRecords([raw({}, 0), raw({ question: 'Other?' }, 1)], 'f');
     expect(v.problems.map((p) => [p.record, p.field, p.code])).toEqual([[1, 'id', 'duplicate-id']]);
-    expect(v.problems[0]!.message).toContain('record 0 (line 1)');
+    expect(v.problems[0]!.message).toContain('record 1 (line 1)');
     expect(v.records).toHaveLength(1);
   });
 
@@ -203,9 +203,9 @@ describe('report helpers', () => {
     expect(summarise(v)).toEqual({ records: 3, passages: 2, unanswerable: 1, errors: 1, warnings: 2, repairs: 1 });
   });
 
-  it('formatProblem names file, record, id and field', () => {
+  it('formatProblem names file, record (counted from 1 for people; Problem.record stays the 0-based index), id and field', () => {
     expect(formatProblem({ severity: 'error', file: 'a.csv', record: 3, id: 'q4', field: 'answer_start', message: 'row 5: bad' })).toBe(
-      'a.csv: record 3 (id q4), answer_start: error: row 5: bad',
+      'a.csv: record 4 (id q4), answer_start: error: row 5: bad',
     );
     expect(formatProblem({ severity: 'error', file: 'a.json', record: -1, field: '', message: 'bad JSON' })).toBe(
       'a.json: error: bad JSON',

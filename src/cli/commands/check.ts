@@ -24,7 +24,7 @@ const PROGRESS_MIN_RECORDS = 5000;
 export function register(program: Command): void {
   program
     .command('check')
-    .description('check a question file (SQuAD JSON, JSONL, CSV) and report what is wrong, record by record')
+    .description('check a question file (SQuAD 1.1/2.0 JSON, JSONL, CSV, TSV) and report what is wrong, record by record')
     .argument('<file>', 'the data file; its extension names the format (.json, .jsonl, .csv, .tsv)')
     .option('--json', 'print the report as one JSON object on the last line of output')
     .option('--format <format>', `read the file as ${DATA_FORMATS.join(', ')} whatever its name`)
@@ -32,7 +32,9 @@ export function register(program: Command): void {
     .addHelpText(
       'after',
       `
-Every problem names the file, the record (0-based; for CSV the data row), and the field.
+Every problem names the file, the record (counted from 1, as the workbench counts; for
+CSV the data row also says its row), and the field. In --json, "record" is the 0-based
+index.
 Errors leave a record out; warnings keep it. A repair is a warning saying what changed:
 an answer start moved to the only place its text occurs, or CR/CRLF line breaks inside
 text turned into LF (with answer starts moved to match).
