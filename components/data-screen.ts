@@ -1,13 +1,16 @@
-// <data-screen> — bringing questions in: import SQuAD JSON, JSONL or CSV files (picker
-// or drag and drop) with the validation report of each file, the demo data, the
-// train/validation split by passage, the dataset's statistics (<dataset-stats>) and the
-// labelling of plain passages (<passage-labeller>).
+// <data-screen> — bringing questions in: import SQuAD 1.1/2.0 JSON, JSONL or CSV files
+// (picker or drag and drop) as training questions, or a validation file kept as the
+// validation set, with the validation report of each file (questions already present
+// summed up in one line, their details folded); the demo data; the choice between a split
+// by passage and the imported validation questions; the dataset's statistics
+// (<dataset-stats>) and the labelling of plain passages (<passage-labeller>), each
+// question marked training or validation.
 // Events out: dataset-change {dataset}, split-change {split}.
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
 import { loadDataset } from '../src/data/load.js';
-import type { QARecord } from '../src/data/record.js';
-import type { Split } from '../src/data/split.js';
+import { alreadyPresentSummary, mergeRecords, type MergeResult } from '../src/data/merge.js';
+import { DEFAULT_SPLIT, sharedPassages, type Split } from '../src/data/split.js';
 import { formatProblem, type Problem } from '../src/data/validate.js';
 import type { TrainConfig } from '../src/train/config.js';
 import type { BaseInfo } from '../workers/protocol.js';
@@ -17,58 +20,27 @@ import { emptyDataset, type Dataset, type SplitSettings } from './workbench-db.j
 import './dataset-stats.js';
 import './passage-labeller.js';
 
+/** What an imported file's questions are for: training, or the validation set as given. */
+export type ImportRole = 'train' | 'validation';
+
 /** The report of one imported file. */
 interface ImportReport {
   file: string;
+  role: ImportRole;
   format: string | null;
   added: number;
+  /** one per question skipped as already present, shown folded under one line */
+  alreadyPresent: Problem[];
   problems: Problem[];
 }
 
-/** Adds records (and the passages they use) to a dataset; ids already present are reported, not added. */
-export function mergeRecords(
-  dataset: Dataset,
-  records: readonly QARecord[],
-  file: string,
-): { dataset: Dataset; added: number; problems: Problem[] } {
-  const ids = new Set(dataset.records.map((r) => r.id));
-  const passages = new Map(dataset.passages.map((p) => [p.id, p]));
-  const problems: Problem[] = [];
-  const added: QARecord[] = [];
-  records.forEach((r, index) => {
-    const known = passages.get(r.passageId);
-    if (ids.has(r.id)) {
-      problems.push({
-        severity: 'error',
-        file,
-        record: index,
-        id: r.id,
-        field: 'id',
-        message: `id "${r.id}" is already in the dataset; this question was not added`,
-        code: 'duplicate-id',
-      });
-      return;
-    }
-    if (known && known.text !== r.context) {
-      problems.push({
-        severity: 'error',
-        file,
-        record: index,
-        id: r.id,
-        field: 'context',
-        message: `passage "${r.passageId}" is already in the dataset with a different text; this question was not added`,
-        code: 'passage-conflict',
-      });
-      return;
-    }
-    if (!known) passages.set(r.passageId, { id: r.passageId, text: r.context });
-    ids.add(r.id);
-    added.push(r);
-  });
+/** The dataset with a merge's records and passages added (src/data/merge.ts decides which). */
+export function addMerged(dataset: Dataset, merged: MergeResult, file: string, role: ImportRole): Dataset {
   return {
-    dataset: { records: [...dataset.records, ...added], passages: [...passages.values()], sources: [...dataset.sources, file] },
-    added: added.length,
-    problems,
+    records: [...dataset.records, ...merged.added],
+    passages: [...dataset.passages, ...merged.newPassages],
+    sources: [...dataset.sources, file],
+    validationIds: role === 'validation' ? [...dataset.validationIds, ...merged.added.map((r) => r.id)] : dataset.validationIds,
   };
 }
 
@@ -103,6 +75,14 @@ export class DataScreen extends LitElement {
         padding: 0 0.4rem;
         font-size: 0.85rem;
       }
+      details.already summary {
+        cursor: pointer;
+      }
+      fieldset {
+        border: 1px solid var(--line, #ccc);
+        border-radius: 6px;
+        margin: 0.5rem 0;
+      }
     `,
   ];
 
@@ -110,8 +90,9 @@ export class DataScreen extends LitElement {
   @property({ attribute: false }) engine: EngineClient | null = null;
   /** the dataset: questions and passages */
   @property({ attribute: false }) collection: Dataset = emptyDataset();
-  @property({ attribute: false }) splitSettings: SplitSettings = { validationFraction: 0.15, seed: 42 };
-  /** the split of `dataset` under `splitSettings` */
+  /** by passage, or the questions imported as validation, with the passage split's share and seed */
+  @property({ attribute: false }) splitSettings: SplitSettings = DEFAULT_SPLIT;
+  /** the split of `collection` under `splitSettings` (made by the shell, src/data/split.ts chooseSplit) */
   @property({ attribute: false }) split: Split = { train: [], validation: [] };
   @property({ attribute: false }) baseInfo: BaseInfo | null = null;
   @property({ attribute: false }) settings: TrainConfig | null = null;
@@ -124,13 +105,17 @@ export class DataScreen extends LitElement {
 
   override render() {
     const d = this.collection;
+    const split = this.split;
+    const mode = this.splitSettings.mode;
+    const shared = sharedPassages(split).length;
+    const validationSide = new Set(split.validation.map((r) => r.id));
     return html`
       <h2>Data</h2>
       <section>
         <h3>Import questions</h3>
         <p class="muted">
-          SQuAD 2.0 JSON, JSONL (one question per line) or CSV. Every record is checked; problems are listed below with the record they
-          concern.
+          SQuAD 1.1 or 2.0 JSON, JSONL (one question per line) or CSV. Every record is checked; problems are listed below with the record
+          they concern (counted from 1).
         </p>
         <div
           class="drop ${this.dragging ? 'over' : ''}"
@@ -139,10 +124,17 @@ export class DataScreen extends LitElement {
           @drop=${this._onDrop}
         >
           <label>
-            Choose files
+            Choose training files
             <input id="import-files" type="file" multiple accept=".json,.jsonl,.ndjson,.csv,.tsv" @change=${this._onPick} />
           </label>
           <div class="muted">or drop them here</div>
+        </div>
+        <div class="row spaced">
+          <label>
+            Choose a validation file
+            <input id="import-validation" type="file" multiple accept=".json,.jsonl,.ndjson,.csv,.tsv" @change=${this._onPickValidation} />
+          </label>
+          <span class="muted">its questions are kept as the validation set (“Use my validation file” below)</span>
         </div>
         <div class="row spaced">
           <button id="load-demo" @click=${this._onLoadDemo} ?disabled=${this.busy !== ''}>
@@ -157,72 +149,139 @@ export class DataScreen extends LitElement {
       </section>
 
       <section>
-        <h3>Split by passage</h3>
-        <p class="muted">Whole passages go to validation, so validation measures reading unseen text.</p>
-        <div class="row">
-          <label
-            >Validation share
-            <input
-              id="split-fraction"
-              type="number"
-              min="0"
-              max="0.9"
-              step="0.05"
-              .value=${String(this.splitSettings.validationFraction)}
-              @change=${this._onSplitInput}
-          /></label>
-          <label
-            >Seed <input id="split-seed" type="number" step="1" .value=${String(this.splitSettings.seed)} @change=${this._onSplitInput}
-          /></label>
-          <span id="split-counts">
-            ${this.split.train.length} training and ${this.split.validation.length} validation questions
-            (${new Set(this.split.train.map((r) => r.passageId)).size} and ${new Set(this.split.validation.map((r) => r.passageId)).size}
-            passages)
-          </span>
-        </div>
+        <h3>Training and validation</h3>
+        <fieldset>
+          <legend>Validation questions</legend>
+          <div class="row">
+            <label
+              ><input
+                id="split-mode-passage"
+                type="radio"
+                name="split-mode"
+                value="passage"
+                .checked=${mode === 'passage'}
+                @change=${this._onSplitInput}
+              />
+              Split by passage</label
+            >
+            <span class="muted">whole passages go to validation, so validation measures reading unseen text</span>
+          </div>
+          <div class="row">
+            <label
+              >Validation share
+              <input
+                id="split-fraction"
+                type="number"
+                min="0"
+                max="0.9"
+                step="0.05"
+                ?disabled=${mode !== 'passage'}
+                .value=${String(this.splitSettings.validationFraction)}
+                @change=${this._onSplitInput}
+            /></label>
+            <label
+              >Seed
+              <input
+                id="split-seed"
+                type="number"
+                step="1"
+                ?disabled=${mode !== 'passage'}
+                .value=${String(this.splitSettings.seed)}
+                @change=${this._onSplitInput}
+            /></label>
+          </div>
+          <div class="row">
+            <label
+              ><input
+                id="split-mode-file"
+                type="radio"
+                name="split-mode"
+                value="file"
+                .checked=${mode === 'file'}
+                @change=${this._onSplitInput}
+              />
+              Use my validation file</label
+            >
+            <span class="muted">
+              the ${d.validationIds.length} question(s) imported as validation validate as they are; every other question trains
+            </span>
+          </div>
+        </fieldset>
+        <p id="split-counts" data-mode=${mode}>
+          ${split.train.length} training and ${split.validation.length} validation questions
+          (${new Set(split.train.map((r) => r.passageId)).size} and ${new Set(split.validation.map((r) => r.passageId)).size} passages)
+        </p>
+        ${
+          mode === 'file' && d.validationIds.length === 0
+            ? html`<p class="note warn" id="no-validation-file">No questions were imported as validation yet: choose a validation file.</p>`
+            : ''
+        }
+        ${
+          shared > 0
+            ? html`<p class="note warn" id="shared-passages">
+                ${shared} passage(s) have questions on both sides, so validation partly measures recall of passages seen in training.
+              </p>`
+            : ''
+        }
       </section>
 
       <dataset-stats
         .engine=${this.engine}
         .collection=${d}
-        .split=${this.split}
+        .split=${split}
+        .splitMode=${mode}
         .baseInfo=${this.baseInfo}
         .settings=${this.settings}
       ></dataset-stats>
 
-      <passage-labeller .collection=${d} .focusId=${this.focusId} @dataset-change=${this._onLabelled}></passage-labeller>
+      <passage-labeller
+        .collection=${d}
+        .focusId=${this.focusId}
+        .validationSide=${validationSide}
+        @dataset-change=${this._onLabelled}
+      ></passage-labeller>
     `;
   }
 
   private renderReport(r: ImportReport) {
     const errors = r.problems.filter((p) => p.severity === 'error').length;
     const kept = new Set(this.collection.records.map((x) => x.id));
-    return html`<div class="import-report" data-file=${r.file}>
+    const item = (p: Problem) =>
+      html`<li class=${p.severity}>
+        ${formatProblem(p)}
+        ${
+          p.id !== undefined && kept.has(p.id)
+            ? html`<button @click=${() => this._onShowRecord(p.id!)} title="Show this question in the editor">show record</button>`
+            : p.record >= 0
+              ? html`<span class="muted">(not added)</span>`
+              : ''
+        }
+      </li>`;
+    return html`<div class="import-report" data-file=${r.file} data-role=${r.role}>
       <p class=${errors > 0 ? 'note warn' : 'note'}>
-        <strong>${r.file}</strong>: read as ${r.format ?? 'unreadable'}; ${r.added} question(s) added, ${errors} error(s),
-        ${r.problems.length - errors} warning(s).
+        <strong>${r.file}</strong>${r.role === 'validation' ? ' (validation)' : ''}: ${r.format ? `read as ${r.format}` : 'not read'};
+        ${r.added} question(s) added, ${errors} error(s), ${r.problems.length - errors} warning(s).
       </p>
+      ${
+        r.problems.some((p) => p.code === 'unknown-format') && /\.txt$/i.test(r.file)
+          ? html`<p class="muted">To label plain passages, load text files under “Add a passage” below.</p>`
+          : ''
+      }
+      ${
+        r.alreadyPresent.length > 0
+          ? html`<details class="already">
+              <summary>${alreadyPresentSummary(r.alreadyPresent.length)}</summary>
+              <ul class="problems">
+                ${r.alreadyPresent.slice(0, 500).map(item)}
+                ${r.alreadyPresent.length > 500 ? html`<li>… ${r.alreadyPresent.length - 500} more</li>` : ''}
+              </ul>
+            </details>`
+          : ''
+      }
       ${
         r.problems.length > 0
           ? html`<ul class="problems">
-              ${r.problems
-                .slice(0, 500)
-                .map(
-                  (p) =>
-                    html`<li class=${p.severity}>
-                      ${formatProblem(p)}
-                      ${
-                        p.id !== undefined && kept.has(p.id)
-                          ? html`<button @click=${() => this._onShowRecord(p.id!)} title="Show this question in the editor">
-                              show record
-                            </button>`
-                          : p.record >= 0
-                            ? html`<span class="muted">(not added)</span>`
-                            : ''
-                      }
-                    </li>`,
-                )}
-              ${r.problems.length > 500 ? html`<li>… ${r.problems.length - 500} more</li>` : ''}
+              ${r.problems.slice(0, 500).map(item)} ${r.problems.length > 500 ? html`<li>… ${r.problems.length - 500} more</li>` : ''}
             </ul>`
           : ''
       }
@@ -233,26 +292,48 @@ export class DataScreen extends LitElement {
     this.dispatchEvent(new CustomEvent('dataset-change', { detail: { dataset }, bubbles: true, composed: true }));
   }
 
-  private async importFiles(files: Array<{ name: string; bytes: Uint8Array }>): Promise<void> {
+  private async importFiles(files: Array<{ name: string; bytes: Uint8Array; role: ImportRole }>): Promise<void> {
     let dataset = this.collection;
     const reports: ImportReport[] = [];
     for (const f of files) {
       this.busy = `reading ${f.name}…`;
       await new Promise((r) => setTimeout(r, 0)); // let the notice paint
       const loaded = loadDataset(f.bytes, f.name);
-      const merged = mergeRecords(dataset, loaded.records, f.name);
-      dataset = merged.dataset;
-      reports.push({ file: f.name, format: loaded.format, added: merged.added, problems: [...loaded.problems, ...merged.problems] });
+      const merged = mergeRecords(dataset, loaded.records, f.name, loaded.indices);
+      dataset = addMerged(dataset, merged, f.name, f.role);
+      reports.push({
+        file: f.name,
+        role: f.role,
+        format: loaded.format,
+        added: merged.added.length,
+        alreadyPresent: merged.alreadyPresent,
+        problems: [...loaded.problems, ...merged.problems],
+      });
     }
     this.busy = '';
     this.reports = reports;
     this.emitDataset(dataset);
+    // a validation file is imported to be the validation set
+    if (files.some((f) => f.role === 'validation') && this.splitSettings.mode !== 'file')
+      this.emitSplit({ ...this.splitSettings, mode: 'file' });
+  }
+
+  private static async read(
+    files: FileList | null,
+    role: ImportRole,
+  ): Promise<Array<{ name: string; bytes: Uint8Array; role: ImportRole }>> {
+    return Promise.all([...(files ?? [])].map(async (f) => ({ name: f.name, bytes: new Uint8Array(await f.arrayBuffer()), role })));
   }
 
   private async _onPick(e: Event): Promise<void> {
     const input = e.target as HTMLInputElement;
-    const files = [...(input.files ?? [])];
-    await this.importFiles(await Promise.all(files.map(async (f) => ({ name: f.name, bytes: new Uint8Array(await f.arrayBuffer()) }))));
+    await this.importFiles(await DataScreen.read(input.files, 'train'));
+    input.value = '';
+  }
+
+  private async _onPickValidation(e: Event): Promise<void> {
+    const input = e.target as HTMLInputElement;
+    await this.importFiles(await DataScreen.read(input.files, 'validation'));
     input.value = '';
   }
 
@@ -268,18 +349,22 @@ export class DataScreen extends LitElement {
   private async _onDrop(e: DragEvent): Promise<void> {
     e.preventDefault();
     this.dragging = false;
-    const files = [...(e.dataTransfer?.files ?? [])];
-    await this.importFiles(await Promise.all(files.map(async (f) => ({ name: f.name, bytes: new Uint8Array(await f.arrayBuffer()) }))));
+    await this.importFiles(await DataScreen.read(e.dataTransfer?.files ?? null, 'train'));
   }
 
   private async _onLoadDemo(): Promise<void> {
     this.busy = 'fetching the demo data…';
     try {
       const files = await Promise.all(
-        ['train.jsonl', 'validation.jsonl'].map(async (name) => {
+        (
+          [
+            ['train.jsonl', 'train'],
+            ['validation.jsonl', 'validation'],
+          ] as const
+        ).map(async ([name, role]) => {
           const response = await fetch(`demo/${name}`);
           if (!response.ok) throw new Error(`demo/${name}: the server answered ${response.status}`);
-          return { name, bytes: new Uint8Array(await response.arrayBuffer()) };
+          return { name, bytes: new Uint8Array(await response.arrayBuffer()), role };
         }),
       );
       await this.importFiles(files);
@@ -288,8 +373,10 @@ export class DataScreen extends LitElement {
       this.reports = [
         {
           file: 'demo data',
+          role: 'train',
           format: null,
           added: 0,
+          alreadyPresent: [],
           problems: [{ severity: 'error', file: 'demo data', record: -1, field: '', message: (err as Error).message }],
         },
       ];
@@ -303,10 +390,15 @@ export class DataScreen extends LitElement {
   }
 
   private _onSplitInput(): void {
-    const fraction = Number((this.renderRoot.querySelector('#split-fraction') as HTMLInputElement).value);
-    const seed = Number((this.renderRoot.querySelector('#split-seed') as HTMLInputElement).value);
+    const value = (id: string) => (this.renderRoot.querySelector(`#${id}`) as HTMLInputElement).value;
+    const fraction = Number(value('split-fraction'));
+    const seed = Number(value('split-seed'));
+    const mode = (this.renderRoot.querySelector('#split-mode-file') as HTMLInputElement).checked ? 'file' : 'passage';
     if (!(fraction >= 0 && fraction < 1) || !Number.isInteger(seed)) return;
-    const split: SplitSettings = { validationFraction: fraction, seed };
+    this.emitSplit({ mode, validationFraction: fraction, seed });
+  }
+
+  private emitSplit(split: SplitSettings): void {
     this.dispatchEvent(new CustomEvent('split-change', { detail: { split }, bubbles: true, composed: true }));
   }
 

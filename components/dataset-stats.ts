@@ -1,11 +1,11 @@
 // <dataset-stats> — the dataset in numbers: questions, passages, the unanswerable
-// share, and — once a base reader gives a tokenizer — a histogram of each question's
+// share, the training and validation sides of the split (and which rule made it), and — once a base reader gives a tokenizer — a histogram of each question's
 // token length ([CLS] question [SEP] passage [SEP]) against the max sequence length,
 // with how many questions need more than one window. Token counts come from the engine
 // worker (`measure`); no events out.
 import { LitElement, css, html, svg } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
-import type { Split } from '../src/data/split.js';
+import type { Split, SplitChoice } from '../src/data/split.js';
 import type { TrainConfig } from '../src/train/config.js';
 import type { BaseInfo, RecordLength } from '../workers/protocol.js';
 import type { EngineClient } from './engine-client.js';
@@ -13,6 +13,10 @@ import { screenStyles } from './shared-styles.js';
 import { emptyDataset, type Dataset } from './workbench-db.js';
 
 const BINS = 24;
+
+function passages(records: Split['train']): number {
+  return new Set(records.map((r) => r.passageId)).size;
+}
 
 @customElement('dataset-stats')
 export class DatasetStats extends LitElement {
@@ -55,6 +59,8 @@ export class DatasetStats extends LitElement {
   /** the dataset: questions and passages */
   @property({ attribute: false }) collection: Dataset = emptyDataset();
   @property({ attribute: false }) split: Split = { train: [], validation: [] };
+  /** the rule that made `split`: by passage, or the imported validation file */
+  @property({ attribute: false }) splitMode: SplitChoice['mode'] = 'passage';
   @property({ attribute: false }) baseInfo: BaseInfo | null = null;
   /** gives the max length, stride and question length of the windows */
   @property({ attribute: false }) settings: TrainConfig | null = null;
@@ -102,7 +108,11 @@ export class DatasetStats extends LitElement {
           <dt>Unanswerable</dt>
           <dd id="stat-unanswerable">${unanswerable} (${records.length ? ((100 * unanswerable) / records.length).toFixed(1) : '0.0'} %)</dd>
           <dt>Training / validation</dt>
-          <dd>${this.split.train.length} / ${this.split.validation.length}</dd>
+          <dd id="stat-split" data-train=${this.split.train.length} data-validation=${this.split.validation.length}>
+            ${this.split.train.length} / ${this.split.validation.length} questions, ${passages(this.split.train)} /
+            ${passages(this.split.validation)} passages
+            <span class="muted">(${this.splitMode === 'file' ? 'validation as imported' : 'split by passage'})</span>
+          </dd>
           <dt>Need more than one window</dt>
           <dd id="stat-multi">
             ${

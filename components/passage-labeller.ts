@@ -1,7 +1,7 @@
 // <passage-labeller> — labelling by hand: add plain-text passages (pasted, or loaded
 // from .txt files), pick one, select the answer in its text (mouse or Shift+arrows in
 // the read-only text box), type the question, or mark it unanswerable; edit and delete
-// questions, with undo. Every question is checked by src/data/validate.ts before it is
+// questions, with undo; each question is marked as training or validation. Every question is checked by src/data/validate.ts before it is
 // kept, and the text is shown only as text (a read-only <textarea> and lit bindings).
 // Events out: dataset-change {dataset}.
 import { LitElement, css, html } from 'lit';
@@ -49,11 +49,23 @@ export class PassageLabeller extends LitElement {
       ul.questions li {
         margin: 0.25rem 0;
       }
+      .side {
+        border: 1px solid var(--line, #ccc);
+        border-radius: 999px;
+        padding: 0 0.5rem;
+        font-size: 0.8rem;
+      }
+      .side.validation {
+        border-color: var(--accent, #1f5f8b);
+        color: var(--accent, #1f5f8b);
+      }
     `,
   ];
 
   /** the dataset: questions and passages */
   @property({ attribute: false }) collection: Dataset = emptyDataset();
+  /** ids of the questions on the validation side of the current split; the rest train */
+  @property({ attribute: false }) validationSide: ReadonlySet<string> = new Set();
   /** a question id to bring into view (its passage is selected) */
   @property({ attribute: false }) focusId: string | null = null;
 
@@ -182,6 +194,11 @@ export class PassageLabeller extends LitElement {
               <strong>${r.question}</strong> →
               ${r.unanswerable ? html`<em>unanswerable</em>` : html`<span class="answer">${r.answers[0]?.text ?? ''}</span>`}
               <span class="muted">${r.id}</span>
+              ${
+                this.validationSide.has(r.id)
+                  ? html`<span class="side validation" data-side="validation">validation</span>`
+                  : html`<span class="side" data-side="training">training</span>`
+              }
               <button @click=${() => this.startEdit(r)} aria-label="Edit question ${r.id}">Edit</button>
               <button @click=${() => this._onDelete(r)} aria-label="Delete question ${r.id}">Delete</button>
             </li>`,

@@ -13,7 +13,7 @@
 import { LitElement, css, html } from 'lit';
 import { customElement, state } from 'lit/decorators.js';
 import { hashDataset } from '../src/data/hash.js';
-import { splitByPassage, type Split } from '../src/data/split.js';
+import { chooseSplit, DEFAULT_SPLIT, type Split } from '../src/data/split.js';
 import { domainTrainSettings, practiceTrainSettings } from '../src/session/windows.js';
 import { suggestedLearningRate, type TrainConfig } from '../src/train/config.js';
 import type { LoopEvent } from '../src/train/loop.js';
@@ -30,6 +30,8 @@ import {
   type PracticeState,
   type SplitSettings,
   type StoredBase,
+  storedDataset,
+  storedSplit,
 } from './workbench-db.js';
 import { DEFAULT_PRACTICE, type PracticeSettings } from './practice-panel.js';
 import './data-screen.js';
@@ -149,7 +151,8 @@ export class SpanwrightApp extends LitElement {
   @state() private ready: EngineReady | null = null;
   @state() private engineError = '';
   @state() private collection: Dataset = emptyDataset();
-  @state() private splitSettings: SplitSettings = { validationFraction: 0.15, seed: 42 };
+  /** by passage, or the questions imported as validation (src/data/split.ts) */
+  @state() private splitSettings: SplitSettings = DEFAULT_SPLIT;
   @state() private baseInfo: BaseInfo | null = null;
   @state() private baseError = '';
   @state() private baseBusy = false;
@@ -181,8 +184,8 @@ export class SpanwrightApp extends LitElement {
       this.engineError = (err as Error).message;
       return;
     }
-    this.collection = (await loadState('dataset')) ?? emptyDataset();
-    this.splitSettings = (await loadState('split')) ?? this.splitSettings;
+    this.collection = storedDataset(await loadState('dataset'));
+    this.splitSettings = storedSplit(await loadState('split'));
     this.settings = { ...START_SETTINGS, ...((await loadState('settings')) ?? {}) };
     const run = await loadState('run');
     if (run && run.status === 'running') {
@@ -213,9 +216,10 @@ export class SpanwrightApp extends LitElement {
     }
   }
 
+  /** The one split every screen, training run and evaluation uses: chooseSplit under the user's choice. */
   private get split(): Split {
     if (this.collection.records.length === 0) return { train: [], validation: [] };
-    return splitByPassage(this.collection.records, this.splitSettings);
+    return chooseSplit(this.collection.records, this.collection.validationIds, this.splitSettings);
   }
 
   private async loadBase(base: StoredBase, save: boolean): Promise<void> {

@@ -1,5 +1,6 @@
 // defines: the page's own IndexedDB database ("spanwright-workbench", via idb) and the
-// plain-data shapes it keeps: the dataset and its passages, the split, the base reader's
+// plain-data shapes it keeps: the dataset and its passages, the split (by passage, or the
+// questions imported as validation), the base reader's
 // files, the training settings, the state of the last training run and of the practice
 // stage the next run starts from. Checkpoints live
 // in the worker's database (src/io/idb-store.ts), not here.
@@ -8,6 +9,7 @@
 // whole, so a save is one transaction and a reload finds either the old or the new value.
 import { openDB, type DBSchema, type IDBPDatabase } from 'idb';
 import type { QARecord } from '../src/data/record.js';
+import { DEFAULT_SPLIT, type SplitChoice } from '../src/data/split.js';
 import type { TrainConfig } from '../src/train/config.js';
 import type { ModelFiles } from '../workers/protocol.js';
 import type { PracticeSettings } from './practice-panel.js';
@@ -24,13 +26,15 @@ export interface Dataset {
   passages: Passage[];
   /** file names imported, in order */
   sources: string[];
+  /**
+   * ids of the questions imported as validation ("Choose a validation file", the demo's
+   * validation.jsonl); they validate when the split's mode is 'file' (src/data/split.ts)
+   */
+  validationIds: string[];
 }
 
-export interface SplitSettings {
-  /** share of questions held out for validation, by whole passages */
-  validationFraction: number;
-  seed: number;
-}
+/** How questions divide into training and validation; kept under `split`. */
+export type SplitSettings = SplitChoice;
 
 export interface StoredBase {
   name: string;
@@ -132,5 +136,15 @@ export function emptySeries(): RunSeries {
 }
 
 export function emptyDataset(): Dataset {
-  return { records: [], passages: [], sources: [] };
+  return { records: [], passages: [], sources: [], validationIds: [] };
+}
+
+/** A stored dataset, with the fields later versions added filled in (none imported as validation). */
+export function storedDataset(stored: Partial<Dataset> | undefined): Dataset {
+  return { ...emptyDataset(), ...(stored ?? {}) };
+}
+
+/** Stored split settings; those written before the choice of mode split by passage. */
+export function storedSplit(stored: Partial<SplitSettings> | undefined): SplitSettings {
+  return { ...DEFAULT_SPLIT, ...(stored ?? {}) };
 }
