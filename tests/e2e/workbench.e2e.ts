@@ -3,8 +3,10 @@
 // folder, train a few updates and watch the charts, reload mid-run and continue from the
 // last checkpoint, pause, evaluate, draw a learning curve (three throwaway runs in the
 // worker), ask, export and parse the downloaded safetensors (and run the downloaded
-// model.onnx in onnxruntime-node against the engine), open the app again offline, and
-// load the shipped base reader (tiny-models/base/).
+// model.onnx in onnxruntime-node against the engine), open the app again offline, load
+// the shipped base reader (tiny-models/base/), import a training and a validation file
+// with the validation file kept as the validation set (after a reload too), and import
+// the training file again to see the questions already present summed up in one line.
 //
 // Across the whole session it fails on any request to another origin, on console
 // errors and uncaught page errors, and on a main-thread long task over 200 ms while a
@@ -478,6 +480,84 @@ describe('the browser workbench', () => {
     const shown = Number(/^[\d,]+/.exec(((await page.locator('#param-count').textContent()) ?? '').trim())?.[0].replace(/,/g, ''));
     expect(shown).toBe(want);
     await shot('base-reader-shipped');
+  });
+
+  it('keeps an imported validation file as the validation set, marks each question, and keeps the choice after a reload', async () => {
+    const count = (name: string) =>
+      readFileSync(join(DEMO, name), 'utf8')
+        .split('\n')
+        .filter((l) => l.trim() !== '').length;
+    const [train, validation] = [count('train.jsonl'), count('validation.jsonl')];
+    const passageOf = (name: string) =>
+      (JSON.parse(readFileSync(join(DEMO, name), 'utf8').split('\n', 1)[0]!) as { passage_id: string }).passage_id;
+    await screen('data');
+    page.once('dialog', (d) => void d.accept());
+    await page.locator('#clear-dataset').click();
+    await page.locator('#stat-questions', { hasText: /^0$/ }).waitFor();
+    await page.locator('#split-mode-passage').check();
+
+    await page.locator('#import-files').setInputFiles(join(DEMO, 'train.jsonl'));
+    await page.locator('.import-report[data-file="train.jsonl"][data-role="train"]').waitFor();
+    await page.locator('#import-validation').setInputFiles(join(DEMO, 'validation.jsonl'));
+    const report = page.locator('.import-report[data-file="validation.jsonl"][data-role="validation"]');
+    await report.waitFor();
+    await expect(report.textContent()).resolves.toMatch(new RegExp(`${validation} question\\(s\\) added,\\s+0 error\\(s\\)`));
+    // importing a validation file chose it as the validation set
+    expect(await page.locator('#split-mode-file').isChecked()).toBe(true);
+    const countsText = new RegExp(`^\\s*${train} training and\\s+${validation} validation questions`);
+    await expect(page.locator('#split-counts').textContent()).resolves.toMatch(countsText);
+    const stat = page.locator('#stat-split');
+    await expect(stat.getAttribute('data-train')).resolves.toBe(String(train));
+    await expect(stat.getAttribute('data-validation')).resolves.toBe(String(validation));
+    await expect(stat.textContent()).resolves.toContain('validation as imported');
+    // the question list marks each question's side
+    const sides = () =>
+      page.locator('passage-labeller ul.questions .side').evaluateAll((els) => els.map((e) => e.getAttribute('data-side')));
+    await page.locator('#passage-select').selectOption(passageOf('validation.jsonl'));
+    const validationSides = await sides();
+    expect(validationSides.length).toBeGreaterThan(0);
+    expect(new Set(validationSides)).toEqual(new Set(['validation']));
+    await page.locator('#passage-select').selectOption(passageOf('train.jsonl'));
+    expect(new Set(await sides())).toEqual(new Set(['training']));
+    await shot('data-validation-file');
+
+    // split by passage re-splits every question; the file's choice comes back on switching again
+    await page.locator('#split-mode-passage').check();
+    const byPassage = (await page.locator('#split-counts').textContent()) ?? '';
+    const [, t, v] = /(\d+) training and\s+(\d+) validation/.exec(byPassage) ?? [];
+    expect(Number(t) + Number(v)).toBe(train + validation);
+    await expect(stat.textContent()).resolves.toContain('split by passage');
+    await page.locator('#split-mode-file').check();
+    await expect(page.locator('#split-counts').textContent()).resolves.toMatch(countsText);
+
+    // kept in IndexedDB with the dataset
+    await page.reload();
+    await waitForEngine();
+    await screen('data');
+    expect(await page.locator('#split-mode-file').isChecked()).toBe(true);
+    await expect(page.locator('#split-counts').textContent()).resolves.toMatch(countsText);
+  });
+
+  it('re-importing a file says in one line how many questions were already present, the details folded', async () => {
+    const train = readFileSync(join(DEMO, 'train.jsonl'), 'utf8')
+      .split('\n')
+      .filter((l) => l.trim() !== '');
+    const before = (await page.locator('#split-counts').textContent()) ?? '';
+    await page.locator('#import-files').setInputFiles(join(DEMO, 'train.jsonl'));
+    const report = page.locator('.import-report[data-file="train.jsonl"]');
+    await report.waitFor();
+    await expect(report.locator('p.note').textContent()).resolves.toMatch(/0 question\(s\) added, 0 error\(s\), 0 warning\(s\)/);
+    const details = report.locator('details.already');
+    await expect(details.locator('summary').textContent()).resolves.toBe(`${train.length} questions already present, skipped`);
+    expect(await details.evaluate((d: HTMLDetailsElement) => d.open)).toBe(false);
+    // nothing is listed outside the fold
+    expect(await report.locator('ul.problems').count()).toBe(1);
+    const firstId = (JSON.parse(train[0]!) as { id: string }).id;
+    await details.locator('summary').click();
+    await expect(details.locator('li').first().textContent()).resolves.toContain(`train.jsonl: record 1 (id ${firstId}), id: warning:`);
+    expect(await details.locator('li').count()).toBe(Math.min(train.length, 500) + (train.length > 500 ? 1 : 0));
+    await expect(page.locator('#split-counts').textContent()).resolves.toBe(before);
+    await shot('data-reimport');
   });
 
   it('made no request to another origin, logged no error, and kept the page responsive while training', () => {
