@@ -12,6 +12,8 @@
 //      `context.slice(start, start + text.length) === text`. When it is not, but the
 //      text occurs exactly once, the start moves there with a warning; otherwise error.
 //      An answer without a start is placed where its text occurs exactly once.
+//      With `answers: 'texts'` (for scoring gold files only) an answer that cannot be
+//      placed is kept by its text at start −1, with a warning, as the SQuAD 2.0 script reads it.
 //   4. unanswerable questions have no answers; answerable ones have at least one.
 // and across records: duplicate ids (error), one passage id with two different
 // contexts (error), the same question twice on one passage (warning).
@@ -37,6 +39,7 @@ export type ProblemCode =
   | 'answer-mismatch' // text not at its start, and not found exactly once
   | 'answer-not-found' // no start given, and the text does not occur exactly once
   | 'answer-repaired' // warning: start moved to the text's only occurrence
+  | 'answer-scored-by-text' // warning, with answers: 'texts': the answer could not be placed and is kept by its text
   | 'line-breaks-normalised' // warning: CR/CRLF became LF, offsets moved
   | 'unanswerable-with-answers'
   | 'answerable-without-answers'
@@ -74,6 +77,13 @@ export interface ValidationResult {
 export interface ValidateOptions {
   /** called every few thousand records and at the end, for a progress bar */
   onProgress?: (done: number, total: number) => void;
+  /**
+   * 'texts' keeps an answer whose start is wrong, missing or out of range, or whose text is
+   * not in the context, with a warning ('answer-scored-by-text') and start −1: how the
+   * SQuAD 2.0 evaluation script reads gold answers (it compares texts only). For scoring
+   * gold files (`score`); anything that trains or checks stays 'strict' (the default).
+   */
+  answers?: 'strict' | 'texts';
 }
 
 const PROGRESS_EVERY = 2000;
@@ -90,7 +100,7 @@ export function validateRecords(raw: RawRecord[], file: string, options: Validat
   let firstLineBreak: RawRecord | null = null;
 
   raw.forEach((r, n) => {
-    const checked = checkRecord(r, file, problems);
+    const checked = checkRecord(r, file, problems, options.answers ?? 'strict');
     if (checked.hadCarriageReturn) {
       lineBreakRecords++;
       firstLineBreak ??= r;
@@ -218,7 +228,7 @@ interface Checked {
   hadCarriageReturn: boolean;
 }
 
-function checkRecord(r: RawRecord, file: string, problems: Problem[]): Checked {
+function checkRecord(r: RawRecord, file: string, problems: Problem[], answerRule: 'strict' | 'texts'): Checked {
   const names = r.names;
   let failed = false;
   let id: string | undefined;
@@ -288,8 +298,9 @@ function checkRecord(r: RawRecord, file: string, problems: Problem[]): Checked {
   if (context !== null) {
     answers.forEach((a, i) => {
       if (a.text === null) return;
-      const at = placeAnswer(context!, a.text, a.start, i, answers.length, names, report);
-      if (at !== null) placed.push({ text: a.text, start: at });
+      const at = placeAnswer(context!, a.text, a.start, i, answers.length, names, report, answerRule);
+      if (at === UNPLACED) placed.push({ text: a.text, start: -1 });
+      else if (at !== null) placed.push({ text: a.text, start: at });
     });
   }
 
@@ -362,7 +373,10 @@ function readAnswer(a: unknown, i: number, names: FieldNames, report: Report): {
   return { text, start };
 }
 
-/** Step 3: the checked start of one answer, or null after reporting why not. */
+/** placeAnswer's answer when a texts-only report took its error: kept by its text, at no start. */
+const UNPLACED = -1;
+
+/** Step 3: the checked start of one answer, or null after reporting why not (UNPLACED when the report kept it). */
 function placeAnswer(
   context: string,
   text: string,
@@ -370,8 +384,15 @@ function placeAnswer(
   i: number,
   count: number,
   names: FieldNames,
-  report: Report,
+  strictReport: Report,
+  rule: 'strict' | 'texts',
 ): number | null {
+  // under 'texts' an answer that cannot be placed is kept by its text, with a warning
+  const report: Report = (severity, code, field, message) =>
+    rule === 'texts' && severity === 'error'
+      ? strictReport('warning', 'answer-scored-by-text', field, `${message}; scored by its text, as the SQuAD 2.0 evaluation does`)
+      : strictReport(severity, code, field, message);
+  const unplaced = rule === 'texts' ? UNPLACED : null;
   const which = count > 1 ? `answer ${i + 1} ` : 'the answer ';
   if (start === null) {
     const { first, count: seen } = occurrences(context, text);
@@ -384,7 +405,7 @@ function placeAnswer(
         ? `${which}${snippet(text)} has no start and does not occur in the context`
         : `${which}${snippet(text)} has no start and occurs ${seen} times in the context; give its start`,
     );
-    return null;
+    return unplaced;
   }
   if (start < 0 || start >= context.length) {
     report(
@@ -393,7 +414,7 @@ function placeAnswer(
       names.answer(i, 'start'),
       `${which}start ${start} is outside the context (0 to ${context.length - 1})`,
     );
-    return null;
+    return unplaced;
   }
   const found = context.slice(start, start + text.length);
   if (found === text) return start;
@@ -415,7 +436,7 @@ function placeAnswer(
     `${which}${snippet(text)} is not at ${start} (the context there reads ${snippet(found)}) and ` +
       (seen === 0 ? 'does not occur in the context' : `occurs ${seen} times, so its place is unclear`),
   );
-  return null;
+  return unplaced;
 }
 
 /** Where `text` first occurs in `context` and how often (counting stops at 2). */

@@ -212,3 +212,21 @@ describe('report helpers', () => {
     );
   });
 });
+
+describe("answers: 'texts' (how the SQuAD 2.0 evaluation reads gold answers)", () => {
+  it('keeps an answer it cannot place, by its text at start −1, with a warning; strict refuses the record', () => {
+    const bad = [
+      raw({ answers: [{ text: 'nowhere', start: 0 }] }, 0),
+      raw({ id: 'q2', question: 'Which?', answers: [{ text: 'nowhere', start: 999 }] }, 1),
+    ];
+    const strict = validateRecords(bad, 'f');
+    expect(strict.records).toEqual([]);
+    expect(strict.problems.map((p) => p.code)).toEqual(['answer-mismatch', 'offset-out-of-range']);
+    const texts = validateRecords(bad, 'f', { answers: 'texts' });
+    expect(texts.records.map((r) => r.answers)).toEqual([[{ text: 'nowhere', start: -1 }], [{ text: 'nowhere', start: -1 }]]);
+    expect(texts.problems.map((p) => [p.severity, p.code])).toEqual([
+      ['warning', 'answer-scored-by-text'],
+      ['warning', 'answer-scored-by-text'],
+    ]);
+  });
+});

@@ -103,4 +103,22 @@ describe('spanwright score', () => {
     expect(r.code).toBe(1);
     expect(r.stderr).toContain(`${path('number.json')}: no score for 1 question(s) that have a predicted answer ("q2")`);
   });
+  it('scores a gold answer by its text when its offset is wrong or its text is not in the context, as the SQuAD 2.0 script does', async () => {
+    // the script compares normalised answer texts only and never reads answer_start
+    // (SQuAD 2.0 evaluate-v2.0.py, from memory): both questions below count, with a warning —
+    // w1's start is wrong and its text occurs twice, w2's text is not in the context at all
+    const gold = [
+      { id: 'w1', context: 'The ferry leaves at noon, or after noon.', question: 'When?', answers: [{ text: 'noon', start: 3 }] },
+      { id: 'w2', context: 'The ferry leaves at noon, or after noon.', question: 'What?', answers: [{ text: 'the night boat', start: 0 }] },
+    ];
+    await writeFile(path('offsets.jsonl'), gold.map((g) => JSON.stringify(g)).join('\n') + '\n');
+    await writeFile(path('offsets-pred.json'), JSON.stringify({ w1: 'noon', w2: 'night boat' }));
+    const r = await score('--gold', path('offsets.jsonl'), '--pred', path('offsets-pred.json'), '--json');
+    expect(r.code).toBe(0);
+    expect(r.stderr).toMatch(/record 1 \(id w1\), answers\[0\]\.start: warning: .*scored by its text/);
+    expect(r.stderr).toMatch(/2 answer\(s\) not found at their offset in the context are scored by their text alone/);
+    const out = JSON.parse(r.stdout.trim().split('\n').pop()!);
+    // w1: exact; w2: "the night boat" normalises to "night boat" (articles dropped) → exact
+    expect(out).toMatchObject({ total: 2, em: 100, f1: 100 });
+  });
 });

@@ -41,7 +41,9 @@ export function register(program: Command): void {
     .addHelpText(
       'after',
       `
-Scores are percentages. A question with no prediction counts as answered "" (no answer),
+Scores are percentages. Gold answers are read as the SQuAD 2.0 evaluation script
+reads them, by their texts: one whose offset is wrong, or whose text is not in its
+context, is still scored, with a warning (\`check\` reports it as an error). A question with no prediction counts as answered "" (no answer),
 with a warning saying how many. With --na-prob, the predictions are read as the best
 span of each question, and the command reports the threshold on the no-answer score
 that gives the best exact match and the best F1 (predict "" where the score is above it);
@@ -123,9 +125,19 @@ function listIds(ids: readonly string[]): string {
   return ids.length > SHOWN_IDS ? `(${shown} and ${ids.length - SHOWN_IDS} more)` : `(${shown})`;
 }
 
-/** Gold questions through the data importers; records that fail their checks are left out, with a warning. */
+/**
+ * Gold questions through the data importers, read as the SQuAD 2.0 evaluation script reads
+ * them: an answer whose offset is wrong, or whose text is not in the context, is still
+ * scored by its text, with a warning; records that fail other checks are left out, with a
+ * warning. (`check` and `train` stay strict.)
+ */
 async function readGold(file: string) {
-  const result = loadDataset(await readBytes(file), file);
+  const result = loadDataset(await readBytes(file), file, { answers: 'texts' });
+  const byText = result.problems.filter((p) => p.code === 'answer-scored-by-text');
+  if (byText.length > 0) {
+    process.stderr.write(`spanwright: ${formatProblem(byText[0]!)}\n`);
+    warn(`${file}: ${byText.length} answer(s) not found at their offset in the context are scored by their text alone`);
+  }
   const errors = result.problems.filter((p) => p.severity === 'error');
   if (result.records.length === 0) {
     const first = errors[0];
