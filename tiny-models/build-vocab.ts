@@ -10,7 +10,7 @@
 //
 // Training uses the `tokenizers` npm package (0.23.2, the native Rust bindings; a
 // development tool here, never imported from src/). Measured facts about that version
-// (DESIGN.md): `train(files)` takes no trainer options, so the vocabulary size is the
+// (docs/DESIGN.md): `train(files)` takes no trainer options, so the vocabulary size is the
 // trainer's default (30 000, fewer when the corpus runs out of merges), and the trained
 // vocabulary lacks [UNK] and the other special tokens. So this script
 //   1. trains a WordPiece model behind a BERT normaliser and pre-tokeniser,

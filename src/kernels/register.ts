@@ -1,5 +1,5 @@
 // defines: registerFastKernels, restoreStockKernels, registerKernelFixes — the ONE
-// place that swaps tfjs kernels (STYLE.md §6). Application code calls ordinary tfjs
+// place that swaps tfjs kernels (docs/STYLE.md §6). Application code calls ordinary tfjs
 // ops; after registerFastKernels() those ops on the 'wasm' backend run these paths.
 //
 // Fast paths (replace a slow stock kernel; restoreStockKernels puts the stock back):

@@ -4,7 +4,7 @@
 //
 // Internal layout: every Linear weight is kept [in, out], so the forward pass is an
 // untransposed 2-D product x·W. Stock tfjs-wasm runs a transposed matMul 10–30× slower
-// than a plain one (DESIGN.md, measured facts); the transpose happens once, here, at
+// than a plain one (docs/DESIGN.md, measured facts); the transpose happens once, here, at
 // load and save time instead of on every step.
 
 import * as tf from '@tensorflow/tfjs';

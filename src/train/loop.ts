@@ -2,7 +2,7 @@
 // its task, hooks, events, run state and outcome types.
 //
 // Flat and labelled, in a fixed order for every update k = start … S − 1
-// (STYLE.md §9, after nanoGPT's train.py):
+// (docs/STYLE.md §9, after nanoGPT's train.py):
 //
 //   1. learning rate    lr(k) from the plan (schedule.ts)
 //   2. eval/checkpoint  when due at k (never at the first update of this session, k = 0

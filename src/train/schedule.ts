@@ -9,7 +9,7 @@
 
 import type { TrainConfig } from './config.js';
 
-/** Derived once per run (STYLE.md §3), logged, and stored with checkpoints. */
+/** Derived once per run (docs/STYLE.md §3), logged, and stored with checkpoints. */
 export interface TrainPlan {
   /** N: training features (windows) per epoch. */
   features: number;

@@ -1,5 +1,5 @@
 // defines: openBrowser — Debian's Chromium driven by playwright-core for the workbench's
-// end-to-end tests, with the launch flags DESIGN.md gives and a fresh profile each time.
+// end-to-end tests, with the launch flags docs/DESIGN.md gives and a fresh profile each time.
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';

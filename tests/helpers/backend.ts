@@ -3,7 +3,7 @@
 // For 'wasm' the .wasm binaries are served from node_modules by absolute path (Node has
 // no page to resolve relative URLs against), and the project's fast kernels from
 // src/kernels/register.ts are registered, since stock wasm lacks UnsortedSegmentSum
-// (tf.gather's gradient) — DESIGN.md, measured facts.
+// (tf.gather's gradient) — docs/DESIGN.md, measured facts.
 
 import { fileURLToPath } from 'node:url';
 import * as tf from '@tensorflow/tfjs';

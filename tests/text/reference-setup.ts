@@ -90,7 +90,7 @@ export interface RefEncoding {
 }
 
 /**
- * The reference encodes a batch; its offsets count Unicode code points (DESIGN.md), so each
+ * The reference encodes a batch; its offsets count Unicode code points (docs/DESIGN.md), so each
  * is converted to the UTF-16 index JavaScript uses.
  */
 export async function referenceEncode(reference: Tokenizer, texts: string[]): Promise<RefEncoding[]> {

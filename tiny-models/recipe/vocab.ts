@@ -2,7 +2,7 @@
 // base reader, trained with the `tokenizers` npm package and cut to a target size.
 //
 // `tokenizers` 0.23.2's `train(files)` takes no options, so it trains ~30 000 tokens
-// (DESIGN.md); a 2-layer, 128-wide encoder spends too much of itself on such a table
+// (docs/DESIGN.md); a 2-layer, 128-wide encoder spends too much of itself on such a table
 // (30 000 × 128 weights, 2·H·V FLOPs per predicted token). The cut, deterministic:
 //   1. train on the training documents (build-vocab.ts: BERT normaliser and
 //      pre-tokeniser, lowercased, accents stripped; [PAD] [UNK] [CLS] [SEP] [MASK] put
