@@ -67,7 +67,9 @@ async function handle(request: EngineRequest): Promise<{ result: EngineResults[R
   const result = (await method.call(session, withCallbacks(request))) as EngineResults[RequestKind];
   // each buffer once: two files may be views of one buffer
   const transfer: Transferable[] =
-    request.kind === 'export' ? [...new Set((result as EngineResults['export']).files.map((f) => f.bytes.buffer as ArrayBuffer))] : [];
+    request.kind === 'export' || request.kind === 'export-checkpoint'
+      ? [...new Set((result as EngineResults['export']).files.map((f) => f.bytes.buffer as ArrayBuffer))]
+      : [];
   return { result, transfer };
 }
 

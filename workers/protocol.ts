@@ -36,6 +36,7 @@ export const SESSION_METHODS = {
   evaluate: 'evaluate',
   ask: 'ask',
   export: 'exportReader',
+  'export-checkpoint': 'exportCheckpoint',
 } as const satisfies Record<string, keyof ReaderSession>;
 
 type SessionKind = keyof typeof SESSION_METHODS;

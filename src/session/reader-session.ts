@@ -43,6 +43,7 @@ import type {
   CurveEvent,
   CurvePoint,
   EvaluationResult,
+  EvaluationSummaryPair,
   ExportCardInput,
   ExportResult,
   LearningCurve,
@@ -54,6 +55,7 @@ import type {
   StepTiming,
   TrainEnded,
 } from './types.js';
+import { checkpointLabel, stageLabel } from './labels.js';
 import { resolveWindows, type WindowSettings } from './windows.js';
 
 /** A reader the session holds: weights, their config and tokenizer, and a name for people. */
@@ -589,20 +591,25 @@ export class ReaderSession {
   }
 
   /** Loads a checkpoint's weights as the fine-tuned reader (a practice checkpoint: as the start reader). */
-  async restoreCheckpoint(args: { id: string }): Promise<{ id: string; step: number; stage: RunStage }> {
-    const b = this.base;
-    const ckpt = await this.needStore().load(args.id);
-    const config = ckpt.meta.runConfig?.model ?? b.config;
-    const { params } = ReaderParams.fromNamed(config, weightsOf(ckpt.tensors), { source: `checkpoint ${args.id}` });
-    const reader = { name: `checkpoint ${args.id}`, config, params, tokenizer: b.tokenizer };
-    if (ckpt.meta.stage === 'practice' || ckpt.meta.stage === 'domain') {
+  async restoreCheckpoint(args: { id: string }): Promise<{ id: string; step: number; stage: RunStage; label: string }> {
+    const { reader, meta } = await this.checkpointReader(args.id);
+    if (meta.stage === 'practice' || meta.stage === 'domain') {
       this.startReader?.params.dispose();
       this.startReader = reader;
     } else {
       this.tunedReader?.params.dispose();
       this.tunedReader = reader;
     }
-    return { id: args.id, step: ckpt.meta.step, stage: ckpt.meta.stage ?? 'fine-tune' };
+    return { id: args.id, step: meta.step, stage: meta.stage ?? 'fine-tune', label: checkpointLabel(meta) };
+  }
+
+  /** A checkpoint's weights as a reader of its own (the caller disposes it), named for people. */
+  private async checkpointReader(id: string): Promise<{ reader: SessionReader; meta: RunMeta }> {
+    const b = this.base;
+    const ckpt = await this.needStore().load(id);
+    const config = ckpt.meta.runConfig?.model ?? b.config;
+    const { params } = ReaderParams.fromNamed(config, weightsOf(ckpt.tensors), { source: `checkpoint ${id}` });
+    return { reader: { name: `checkpoint ${checkpointLabel(ckpt.meta)}`, config, params, tokenizer: b.tokenizer }, meta: ckpt.meta };
   }
 
   // ---- measuring ------------------------------------------------------------------
@@ -876,8 +883,44 @@ export class ReaderSession {
     int8Check?: { records: QARecord[] } & WindowArgs;
     date?: string;
   }): ExportResult {
+    return this.exportFrom(this.reader(args.model), args.model === 'tuned' ? args.card.metrics?.tuned : args.card.metrics?.base, args);
+  }
+
+  /**
+   * A model directory's files for a checkpoint in the store, whichever reader is in use:
+   * its weights are loaded for the export only and let go after. The card carries the
+   * checkpoint's own run settings and its validation scores when it was scored.
+   */
+  async exportCheckpoint(args: Omit<Parameters<ReaderSession['exportReader']>[0], 'model'> & { id: string }): Promise<ExportResult> {
+    const { reader, meta } = await this.checkpointReader(args.id);
+    try {
+      const card: ExportCardInput = {
+        ...args.card,
+        // the checkpoint's own run, not the settings of the reader in use
+        settings: meta.runConfig?.train ?? args.card.settings,
+        notes: [
+          `checkpoint saved at update ${meta.step}${meta.label ? ` (${meta.label})` : ''}${meta.savedAt ? ` on ${meta.savedAt}` : ''}`,
+          ...(meta.metrics.validationEM !== undefined && meta.metrics.validationF1 !== undefined
+            ? [`its validation scores when saved: EM ${meta.metrics.validationEM.toFixed(1)} / F1 ${meta.metrics.validationF1.toFixed(1)}`]
+            : []),
+          ...(meta.stage === 'practice' || meta.stage === 'domain'
+            ? [`saved by the ${stageLabel(meta.stage)} stage, before any fine-tuning on labelled questions`]
+            : []),
+          ...(args.card.notes ?? []),
+        ],
+      };
+      return this.exportFrom(reader, undefined, { ...args, baseName: args.baseName ?? meta.runConfig?.base, card });
+    } finally {
+      reader.params.dispose();
+    }
+  }
+
+  private exportFrom(
+    r: SessionReader,
+    scores: EvaluationSummaryPair['tuned'],
+    args: Omit<Parameters<ReaderSession['exportReader']>[0], 'model'>,
+  ): ExportResult {
     const b = this.base;
-    const r = this.reader(args.model);
     const named = r.params.toNamed();
     // a head the base checkpoint lacked was initialised only to build the engine: it does not travel
     const freshMlm = b.missing.filter((name) => name.startsWith('cls.'));
@@ -908,7 +951,6 @@ export class ReaderSession {
     };
     if (args.card.dataset) card.dataset = args.card.dataset;
     if (args.card.settings) card.settings = args.card.settings;
-    const scores = args.model === 'tuned' ? args.card.metrics?.tuned : args.card.metrics?.base;
     if (args.card.scores) card.metrics = args.card.scores;
     else if (scores) card.metrics = { withoutThreshold: scores };
     const base = args.card.baseScores;

