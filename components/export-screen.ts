@@ -1,11 +1,18 @@
-// <export-screen> — taking results out: the model directory (config, safetensors,
-// vocabulary, model card) in float32 or float16, with int8 weights and ONNX graphs on
-// request, built in the worker (src/io/export.ts); and the cleaned dataset in each
-// import format (src/data/load.ts writeDataset). Files are offered as downloads made
-// from in-memory blobs; nothing is uploaded anywhere. No events out.
+// <export-screen> — taking results out: one ZIP file per model bundle (config, safetensors,
+// vocabulary, model card; int8 weights and ONNX graphs on request) in float32 or
+// float16, built in the worker (src/io/export.ts) and zipped here (src/io/bundle.ts),
+// each named after its reader and variant so no two downloads share a name. Any reader
+// can go: the fine-tuned one in use, the base, or any checkpoint saved in this browser.
+// Also the cleaned dataset in each import format (src/data/load.ts writeDataset). Files
+// are offered as downloads made from in-memory blobs; nothing is uploaded anywhere.
+// No events out.
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
 import { hashDataset } from '../src/data/hash.js';
+import { bundleStem, zipBundle } from '../src/io/bundle.js';
+import type { CheckpointSummary } from '../src/io/checkpoint-store.js';
+import { checkpointLabel } from '../src/session/labels.js';
+import type { RunMeta } from '../src/train/finetune.js';
 import { writeDataset } from '../src/data/load.js';
 import type { Split } from '../src/data/split.js';
 import type { TrainConfig } from '../src/train/config.js';
@@ -14,26 +21,42 @@ import type { EngineClient } from './engine-client.js';
 import { screenStyles } from './shared-styles.js';
 import { emptyDataset, type Dataset } from './workbench-db.js';
 
+/** One download on offer: a model bundle (with the files inside it) or a dataset file. */
 interface Offered {
   name: string;
   bytes: number;
   url: string;
+  /** a bundle's variant and which kind of reader it holds; absent for a dataset file */
+  variant?: Variant;
+  reader?: 'tuned' | 'base' | 'checkpoint';
+  /** a bundle's files, each with its size */
+  entries?: Array<{ name: string; bytes: number }>;
 }
 
 type Variant = 'fp32' | 'fp16' | 'int8' | 'onnx';
 
-const VARIANTS: ReadonlyArray<{ variant: Variant; label: string; help: string }> = [
-  { variant: 'fp32', label: 'Model files (float32)', help: 'config.json, model.safetensors, the vocabulary and MODEL_CARD.md' },
-  { variant: 'fp16', label: 'Model files (float16)', help: 'the same with half-size weights, rounded to binary16' },
+/** What is exported: one of the session's readers, or a checkpoint by id (`checkpoint:<id>`). */
+type Source = ModelChoice | `checkpoint:${string}`;
+
+const VARIANTS: ReadonlyArray<{ variant: Variant; label: string; name: string; help: string }> = [
+  {
+    variant: 'fp32',
+    label: 'Model bundle (float32)',
+    name: 'float32',
+    help: 'one .zip: config.json, model.safetensors, the vocabulary and MODEL_CARD.md',
+  },
+  { variant: 'fp16', label: 'Model bundle (float16)', name: 'float16', help: 'the same with half-size weights, rounded to binary16' },
   {
     variant: 'int8',
-    label: 'Model files + int8 weights',
+    label: 'Model bundle + int8 weights',
+    name: 'float32 int8',
     help: 'adds model.int8.safetensors (per-row symmetric) and its measured logit drift in the card',
   },
-  { variant: 'onnx', label: 'Model files + ONNX', help: 'adds model.onnx (opset 17) and model.int8.onnx' },
+  { variant: 'onnx', label: 'Model bundle + ONNX', name: 'float32 onnx', help: 'adds model.onnx (opset 17) and model.int8.onnx' },
 ];
 
 const TYPES: Record<string, string> = {
+  zip: 'application/zip',
   json: 'application/json',
   jsonl: 'application/x-ndjson',
   csv: 'text/csv',
@@ -62,11 +85,34 @@ export class ExportScreen extends LitElement {
   @property({ attribute: false }) settings: TrainConfig | null = null;
   @property({ attribute: false }) evaluations: { base?: EvaluationResult; tuned?: EvaluationResult } = {};
 
-  @state() private model: ModelChoice | null = null;
+  @state() private source: Source | null = null;
+  /** the checkpoints saved in this browser, newest first */
+  @state() private checkpoints: CheckpointSummary<RunMeta>[] = [];
+  /** newest first */
   @state() private offered: Offered[] = [];
   @state() private busy = '';
   @state() private error = '';
   @state() private notes: string[] = [];
+
+  override connectedCallback(): void {
+    super.connectedCallback();
+    void this.listCheckpoints();
+  }
+
+  private async listCheckpoints(): Promise<void> {
+    if (!this.engine) return;
+    try {
+      const { checkpoints } = await this.engine.call({ kind: 'list-checkpoints' });
+      this.checkpoints = [...checkpoints].reverse();
+    } catch {
+      this.checkpoints = []; // a session without a store: only its readers can go
+    }
+  }
+
+  override updated(changed: Map<string, unknown>): void {
+    // a run or a restore since the list was read may have saved checkpoints
+    if (changed.has('tunedName') && changed.get('tunedName') !== undefined) void this.listCheckpoints();
+  }
 
   override disconnectedCallback(): void {
     super.disconnectedCallback();
@@ -74,7 +120,7 @@ export class ExportScreen extends LitElement {
   }
 
   override render() {
-    const model = this.model ?? (this.tunedName ? 'tuned' : 'base');
+    const source = this.currentSource();
     const records = this.collection.records.length;
     return html`
       <h2>Export</h2>
@@ -83,11 +129,23 @@ export class ExportScreen extends LitElement {
         <div class="row">
           <label
             >Export
-            <select id="export-model" @change=${(e: Event) => (this.model = (e.target as HTMLSelectElement).value as ModelChoice)}>
-              <option value="tuned" ?selected=${model === 'tuned'} ?disabled=${!this.tunedName}>
-                the fine-tuned reader${this.tunedName ? ` (${this.tunedName})` : ''}
+            <select id="export-model" @change=${(e: Event) => (this.source = (e.target as HTMLSelectElement).value as Source)}>
+              <option value="tuned" ?selected=${source === 'tuned'} ?disabled=${!this.tunedName}>
+                the fine-tuned reader in use${this.tunedName ? ` (${this.tunedName})` : ''}
               </option>
-              <option value="base" ?selected=${model === 'base'}>the base reader</option>
+              <option value="base" ?selected=${source === 'base'}>the base reader</option>
+              ${
+                this.checkpoints.length > 0
+                  ? html`<optgroup label="Saved checkpoints">
+                      ${this.checkpoints.map(
+                        (c) =>
+                          html`<option value="checkpoint:${c.id}" ?selected=${source === `checkpoint:${c.id}`}>
+                            ${checkpointDescription(c)}
+                          </option>`,
+                      )}
+                    </optgroup>`
+                  : ''
+              }
             </select>
           </label>
         </div>
@@ -119,7 +177,27 @@ export class ExportScreen extends LitElement {
           ? html`<section id="downloads">
               <h3>Ready to download</h3>
               <ul class="files">
-                ${this.offered.map((f) => html`<li><a href=${f.url} download=${f.name} data-file=${f.name}>${f.name}</a> <span class="muted">${f.bytes.toLocaleString('en-US')} bytes</span></li>`)}
+                ${this.offered.map(
+                  (f) =>
+                    html`<li>
+                      <a href=${f.url} download=${f.name} data-file=${f.name} data-variant=${f.variant ?? ''} data-reader=${f.reader ?? ''}
+                        >${f.name}</a
+                      >
+                      <span class="muted">${f.bytes.toLocaleString('en-US')} bytes</span>
+                      ${
+                        f.entries
+                          ? html`<span class="muted"
+                              >— holds
+                              ${f.entries.map(
+                                (e, i) =>
+                                  html`${i > 0 ? ', ' : ''}<code data-entry=${e.name}>${e.name}</code>
+                                    (${e.bytes.toLocaleString('en-US')})`,
+                              )}</span
+                            >`
+                          : ''
+                      }
+                    </li>`,
+                )}
               </ul>
               ${
                 this.notes.length
@@ -134,18 +212,26 @@ export class ExportScreen extends LitElement {
     `;
   }
 
-  private offer(files: Array<{ name: string; bytes: Uint8Array }>): void {
-    for (const f of this.offered) URL.revokeObjectURL(f.url);
-    this.offered = files.map((f) => {
-      const ext = f.name.split('.').pop() ?? '';
-      const blob = new Blob([f.bytes as Uint8Array<ArrayBuffer>], { type: TYPES[ext] ?? 'application/octet-stream' });
-      return { name: f.name, bytes: f.bytes.length, url: URL.createObjectURL(blob) };
-    });
+  /** The reader chosen, or the fine-tuned one in use (else the base) until the user chooses. */
+  private currentSource(): Source {
+    if (this.source?.startsWith('checkpoint:') && !this.checkpoints.some((c) => `checkpoint:${c.id}` === this.source)) return 'base';
+    return this.source ?? (this.tunedName ? 'tuned' : 'base');
+  }
+
+  /** Adds a download to the top of the list; an earlier one of the same name gives way. */
+  private offer(file: { name: string; bytes: Uint8Array } & Omit<Offered, 'url' | 'bytes' | 'name'>): void {
+    const ext = file.name.split('.').pop() ?? '';
+    const blob = new Blob([file.bytes as Uint8Array<ArrayBuffer>], { type: TYPES[ext] ?? 'application/octet-stream' });
+    for (const f of this.offered) if (f.name === file.name) URL.revokeObjectURL(f.url);
+    const { bytes, ...rest } = file;
+    this.offered = [{ ...rest, bytes: bytes.length, url: URL.createObjectURL(blob) }, ...this.offered.filter((f) => f.name !== file.name)];
   }
 
   private async _onExport(variant: Variant): Promise<void> {
     if (!this.engine) return;
-    const model = this.model ?? (this.tunedName ? 'tuned' : 'base');
+    const source = this.currentSource();
+    const checkpoint = source.startsWith('checkpoint:') ? this.checkpoints.find((c) => `checkpoint:${c.id}` === source) : undefined;
+    const v = VARIANTS.find((x) => x.variant === variant)!;
     this.busy = 'building the files…';
     this.error = '';
     try {
@@ -158,19 +244,40 @@ export class ExportScreen extends LitElement {
               validation: this.split.validation.length,
             }
           : undefined,
-        settings: model === 'tuned' && this.settings ? this.settings : undefined,
+        settings: source === 'tuned' && this.settings ? this.settings : undefined,
         metrics: { base: this.evaluations.base?.summary, tuned: this.evaluations.tuned?.summary },
       };
-      const result = await this.engine.call({
-        kind: 'export',
-        model,
+      const options = {
         fp16: variant === 'fp16',
         int8: variant === 'int8' || variant === 'onnx',
         onnx: variant === 'onnx',
-        card,
-      });
+      };
+      const result = checkpoint
+        ? await this.engine.call({
+            kind: 'export-checkpoint',
+            id: checkpoint.id,
+            ...options,
+            // the dataset facts only when the checkpoint was trained on these questions; its own settings and scores come from the store
+            card: { dataset: card.dataset?.hash === checkpoint.meta.datasetHash ? card.dataset : undefined },
+          })
+        : await this.engine.call({ kind: 'export', model: source as ModelChoice, ...options, card });
+      const reader = checkpoint
+        ? `${checkpointLabel(checkpoint.meta)} ${savedStamp(checkpoint)}`
+        : source === 'tuned'
+          ? // "run run-x1 at update 16" names the run once: "fine-tuned run-x1 at update 16"
+            `fine-tuned ${(this.tunedName ?? '').replace(/^fine-tuned\s*/, '').replace(/^run (?=run-)/, '')}`
+          : `base ${this.baseInfo?.name ?? ''}`;
+      this.busy = 'packing the bundle…';
+      await this.updateComplete; // let the page say so before the zip is written
+      const stem = bundleStem({ reader, variant: v.name });
       this.notes = result.notes;
-      this.offer(result.files);
+      this.offer({
+        name: `${stem}.zip`,
+        bytes: zipBundle(result.files, stem),
+        variant,
+        reader: checkpoint ? 'checkpoint' : source === 'tuned' ? 'tuned' : 'base',
+        entries: result.files.map((f) => ({ name: f.name, bytes: f.bytes.length })),
+      });
     } catch (err) {
       this.error = `The ${variant} export failed: ${(err as Error).message}`;
     } finally {
@@ -182,8 +289,23 @@ export class ExportScreen extends LitElement {
     const text = writeDataset(this.collection.records, format);
     const name = format === 'squad' ? 'dataset.squad.json' : `dataset.${format}`;
     this.notes = [];
-    this.offer([{ name, bytes: new TextEncoder().encode(text) }]);
+    this.offer({ name, bytes: new TextEncoder().encode(text) });
   }
+}
+
+/** A checkpoint as the reader list names it: stage and update, when saved, its validation F1. */
+function checkpointDescription(c: CheckpointSummary<RunMeta>): string {
+  const f1 = c.meta.metrics.validationF1;
+  const when = c.meta.savedAt ? `, saved ${new Date(c.meta.savedAt).toLocaleString()}` : '';
+  return `checkpoint: ${checkpointLabel(c.meta)}${when}${f1 === undefined ? '' : `, validation F1 ${f1.toFixed(1)}`}`;
+}
+
+/** The time a checkpoint was saved, to the minute, for a file name ("2025-03-02 14-05"); "" when unknown. */
+function savedStamp(c: CheckpointSummary<RunMeta>): string {
+  if (!c.meta.savedAt) return '';
+  const d = new Date(c.meta.savedAt);
+  const two = (n: number) => String(n).padStart(2, '0');
+  return `${d.getFullYear()}-${two(d.getMonth() + 1)}-${two(d.getDate())} ${two(d.getHours())}-${two(d.getMinutes())}`;
 }
 
 declare global {
