@@ -1,6 +1,8 @@
 // <ask-screen> — asking the reader: a question over one passage, or over every passage
 // (BM25 picks the passages worth reading, the reader marks spans in them, and the two
-// scores are combined), with the top answers and their scores shown in their context.
+// scores are combined), with the top answers and their scores shown in their context and
+// one line saying what the scores mean; a single passage is read whole and shows the
+// reader's score alone, as no retriever ran.
 // The model card's caution (src/io/model-card.ts CAUTION) is always on screen.
 // No events out.
 import { LitElement, css, html } from 'lit';
@@ -12,6 +14,14 @@ import type { EngineClient } from './engine-client.js';
 import { screenStyles } from './shared-styles.js';
 import type { Passage } from './workbench-db.js';
 import './marked-passage.js';
+
+/** The scores of an answer over several passages, in one line. */
+const SCORE_HELP =
+  'Reader: start + end logit of the span, higher is surer. Retriever: BM25 match of the passage’s words to the question. ' +
+  'Combined: the two scaled to 0–1 over these answers and averaged; it ranks them.';
+/** The same for one passage, where no retriever runs. */
+const SCORE_HELP_SINGLE =
+  'Reader: start + end logit of the span, higher is surer; with one passage read whole, it alone ranks the answers.';
 
 @customElement('ask-screen')
 export class AskScreen extends LitElement {
@@ -105,7 +115,9 @@ export class AskScreen extends LitElement {
   }
 
   private renderResult(r: AskResult) {
-    return html`<section id="answers">
+    // one passage is read whole: no retriever ran, so there is no retriever score to show
+    const single = r.retrieved.every((h) => h.score === null);
+    return html`<section id="answers" data-mode=${single ? 'single-passage' : 'retrieval'}>
       ${r.noAnswer ? html`<p class="note warn">The reader's no-answer score beat every span: the passages read may not answer this. The best spans follow anyway.</p>` : ''}
       ${
         r.answers.length === 0
@@ -117,20 +129,21 @@ export class AskScreen extends LitElement {
                     <span class="answer-text">${a.text}</span>
                     <span class="muted scores"
                       >— passage ${a.passageId}; reader
-                      ${a.readerScore.toFixed(2)}${a.retrieverScore === null ? '' : html`, BM25 ${a.retrieverScore.toFixed(2)}, combined ${a.combinedScore.toFixed(2)}`}</span
+                      ${a.readerScore.toFixed(2)}${single || a.retrieverScore === null ? '' : html`, retriever ${a.retrieverScore.toFixed(2)}, combined ${a.combinedScore.toFixed(2)}`}</span
                     >
                     <marked-passage .text=${a.context} .marks=${[{ start: a.start, end: a.end, kind: 'guess' as const }]}></marked-passage>
                   </li>`,
               )}
             </ol>`
       }
-      <p class="muted">
-        Passages read: ${r.retrieved.map((h) => (h.score === null ? h.passageId : `${h.passageId} (${h.score.toFixed(2)})`)).join(', ')}
+      <p class="muted" id="passages-read">
+        ${
+          single
+            ? `Passage read whole: ${r.retrieved[0]?.passageId ?? ''}.`
+            : `Passages read, with their retriever scores: ${r.retrieved.map((h) => `${h.passageId} (${(h.score ?? 0).toFixed(2)})`).join(', ')}.`
+        }
       </p>
-      <p class="muted score-help">
-        Reader: the start + end logit of the span (higher is surer). BM25: how well the passage's words match the question. Combined: both
-        scaled to 0–1 over these answers and averaged.
-      </p>
+      <p class="muted score-help" id="score-help">${single ? SCORE_HELP_SINGLE : SCORE_HELP}</p>
     </section>`;
   }
 
