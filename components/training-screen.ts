@@ -10,6 +10,7 @@
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
 import type { Split } from '../src/data/split.js';
+import { DEFAULT_WINDOWS, resolveWindows, type WindowSettings } from '../src/session/windows.js';
 import { DEFAULT_TRAIN_CONFIG, checkTrainConfig, suggestedLearningRate, type TrainConfig } from '../src/train/config.js';
 import type { BaseInfo } from '../workers/protocol.js';
 import { formatDuration } from './reader-screen.js';
@@ -73,8 +74,20 @@ const FIELDS: ReadonlyArray<{ key: NumericField; label: string; step: string; he
   },
 ];
 
-/** The workbench's defaults: BERT's settings (src/train/config.ts) with a shorter window for a CPU. */
-export const START_SETTINGS: TrainConfig = { ...DEFAULT_TRAIN_CONFIG, maxLength: 256, stride: 64, evalEvery: 0 };
+/** Each field's label, for other screens that name a setting (the checkpoint comparison). */
+export const SETTING_LABELS: Readonly<Record<NumericField, string>> = Object.fromEntries(FIELDS.map((f) => [f.key, f.label])) as Record<
+  NumericField,
+  string
+>;
+
+/**
+ * The workbench's defaults: BERT's settings (src/train/config.ts), the window settings of
+ * src/session/windows.ts (DEFAULT_WINDOWS, which resolveWindows fills in) and one
+ * evaluation per epoch. The fields start from these and the help quotes them.
+ */
+export const START_SETTINGS: TrainConfig = { ...DEFAULT_TRAIN_CONFIG, ...DEFAULT_WINDOWS, evalEvery: 0 };
+
+const WINDOW_KEYS: ReadonlySet<keyof TrainConfig> = new Set<keyof WindowSettings>(['maxLength', 'stride', 'maxQueryLength']);
 
 @customElement('training-screen')
 export class TrainingScreen extends LitElement {
@@ -106,7 +119,7 @@ export class TrainingScreen extends LitElement {
     `,
   ];
 
-  @property({ attribute: false }) settings: TrainConfig = DEFAULT_TRAIN_CONFIG;
+  @property({ attribute: false }) settings: TrainConfig = START_SETTINGS;
   /** the current or last run, from the shell */
   @property({ attribute: false }) run: RunRecord | null = null;
   @property({ attribute: false }) baseInfo: BaseInfo | null = null;
@@ -120,10 +133,20 @@ export class TrainingScreen extends LitElement {
 
   @state() private formError = '';
 
-  /** A setting's default; the learning rate's depends on the loaded reader's width. */
+  /**
+   * A setting's default: the learning rate's depends on the loaded reader's width, the
+   * window settings on its position table — the values resolveWindows gives when nothing
+   * is asked, which is what a run of this reader uses by default.
+   */
   private _defaultOf(key: keyof TrainConfig): string {
     if (key === 'learningRate' && this.baseInfo !== null)
       return `${suggestedLearningRate(this.baseInfo.config.hiddenSize)} for this reader's width`;
+    if (WINDOW_KEYS.has(key)) {
+      const resolved = resolveWindows({}, this.baseInfo?.config ?? { maxPositions: Infinity }).settings;
+      const value = resolved[key as keyof WindowSettings];
+      const cut = this.baseInfo !== null && value !== DEFAULT_WINDOWS[key as keyof WindowSettings];
+      return cut ? `${value} for this reader's ${this.baseInfo!.config.maxPositions} positions` : String(value);
+    }
     return String(START_SETTINGS[key]);
   }
 
