@@ -7,9 +7,11 @@ import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
 import type { CheckpointSummary, StoreUsage } from '../src/io/checkpoint-store.js';
 import type { RunMeta } from '../src/train/finetune.js';
+import { checkpointLabel, metricLabel, stageLabel } from '../src/session/labels.js';
 import type { BaseInfo } from '../workers/protocol.js';
 import type { EngineClient } from './engine-client.js';
 import { screenStyles } from './shared-styles.js';
+import { SETTING_LABELS } from './training-screen.js';
 
 const MB = 1024 * 1024;
 const mb = (n: number | undefined) => (n === undefined ? '–' : `${(n / MB).toFixed(1)} MB`);
@@ -133,15 +135,13 @@ export class CheckpointScreen extends LitElement {
                         <td>
                           <input
                             type="checkbox"
-                            aria-label="Compare ${c.id}"
+                            aria-label="Compare ${checkpointLabel(c.meta)}"
                             .checked=${this.compare.has(c.id)}
                             @change=${() => this._onToggleCompare(c.id)}
                           />
                         </td>
-                        <td><code>${c.id}</code></td>
-                        <td class="stage">
-                          ${c.meta.stage === 'practice' ? 'practice' : c.meta.stage === 'domain' ? 'masked-LM' : 'fine-tuning'}
-                        </td>
+                        <td>${checkpointLabel(c.meta)} <code class="muted id">${c.id}</code></td>
+                        <td class="stage">${stageLabel(c.meta.stage)}</td>
                         <td class="num">${c.meta.step}</td>
                         <td>${c.meta.label ?? ''}</td>
                         <td class="num">${score(c.meta.metrics.validationEM)}</td>
@@ -172,26 +172,26 @@ export class CheckpointScreen extends LitElement {
         <thead>
           <tr>
             <th></th>
-            ${chosen.map((c) => html`<th class="num">update ${c.meta.step}</th>`)}
+            ${chosen.map((c) => html`<th class="num">${checkpointLabel(c.meta)}</th>`)}
           </tr>
         </thead>
         <tbody>
           ${keys.map(
             (k) =>
               html`<tr>
-                <th>${k}</th>
+                <th>${metricLabel(k)}</th>
                 ${chosen.map((c) => html`<td class="num">${score(c.meta.metrics[k])}</td>`)}
               </tr>`,
           )}
           ${settings.map(
             (k) =>
               html`<tr>
-                <th>${k}</th>
+                <th>${SETTING_LABELS[k]}</th>
                 ${chosen.map((c) => html`<td class="num">${String(c.meta.runConfig?.train?.[k] ?? '–')}</td>`)}
               </tr>`,
           )}
           <tr>
-            <th>base</th>
+            <th>Base reader</th>
             ${chosen.map((c) => html`<td class="num">${c.meta.runConfig?.base ?? '–'}</td>`)}
           </tr>
         </tbody>
@@ -210,11 +210,13 @@ export class CheckpointScreen extends LitElement {
     this.error = '';
     try {
       const r = await this.engine.call({ kind: 'restore-checkpoint', id });
-      if (r.stage === 'practice') {
-        this.message = `Restored ${id} (update ${r.step}) as the reader the next fine-tuning run starts from.`;
+      if (r.stage === 'practice' || r.stage === 'domain') {
+        this.message = `Restored the ${r.label} checkpoint as the reader the next fine-tuning run starts from.`;
       } else {
-        this.message = `Restored ${id} (update ${r.step}) as the fine-tuned reader.`;
-        this.dispatchEvent(new CustomEvent('tuned-change', { detail: { name: `checkpoint ${id}` }, bubbles: true, composed: true }));
+        this.message = `Restored the ${r.label} checkpoint as the fine-tuned reader.`;
+        this.dispatchEvent(
+          new CustomEvent('tuned-change', { detail: { name: `${r.label} (restored checkpoint)` }, bubbles: true, composed: true }),
+        );
       }
     } catch (err) {
       this.error = (err as Error).message;
@@ -225,7 +227,8 @@ export class CheckpointScreen extends LitElement {
     if (!this.engine) return;
     this.error = '';
     await this.engine.call({ kind: 'delete-checkpoint', id });
-    this.message = `Deleted ${id}.`;
+    const gone = this.checkpoints.find((c) => c.id === id);
+    this.message = `Deleted the ${gone ? checkpointLabel(gone.meta) : id} checkpoint.`;
     await this.refresh();
   }
 

@@ -111,8 +111,8 @@ export class EvaluationScreen extends LitElement {
         <thead>
           <tr>
             <th></th>
-            <th class="num">base</th>
-            <th class="num">fine-tuned</th>
+            <th class="num">base${base ? html`<br /><small class="muted reader-name">${base.reader}</small>` : ''}</th>
+            <th class="num">fine-tuned${tuned ? html`<br /><small class="muted reader-name">${tuned.reader}</small>` : ''}</th>
           </tr>
         </thead>
         <tbody>
