@@ -2,8 +2,9 @@
 // profile: import the demo data, label a passage holding markup, load a checkpoint
 // folder, train a few updates and watch the charts, reload mid-run and continue from the
 // last checkpoint, pause, evaluate, draw a learning curve (three throwaway runs in the
-// worker), ask, export and parse the downloaded safetensors (and run the downloaded
-// model.onnx in onnxruntime-node against the engine), open the app again offline, load
+// worker), ask over all passages and over one, export bundles (one .zip each, named
+// apart) and parse the downloaded safetensors (and run the downloaded model.onnx in
+// onnxruntime-node against the engine), export a saved checkpoint, open the app again offline, load
 // the shipped base reader (tiny-models/base/), import a training and a validation file
 // with the validation file kept as the validation set (after a reload too), and import
 // the training file again to see the questions already present summed up in one line.
@@ -24,7 +25,8 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import * as tf from '@tensorflow/tfjs';
 import * as ort from 'onnxruntime-node';
-import type { Page } from 'playwright-core';
+import { unzipSync } from 'fflate';
+import type { Download, Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { CAUTION } from '../../src/io/model-card.js';
 import { configFromHf, paramCount } from '../../src/model/config.js';
@@ -82,6 +84,29 @@ async function setField(name: string, value: number): Promise<void> {
 
 async function chartPoints(id: string): Promise<number> {
   return Number((await page.locator(`#${id}`).getAttribute('data-points')) ?? '0');
+}
+
+/** A downloaded bundle's files by their names inside its one folder (fflate's unzipSync). */
+async function unzipDownload(download: Download): Promise<Map<string, Uint8Array>> {
+  const stem = download.suggestedFilename().replace(/\.zip$/, '');
+  const entries = unzipSync(new Uint8Array(readFileSync(await download.path())));
+  const files = new Map<string, Uint8Array>();
+  for (const [name, bytes] of Object.entries(entries)) {
+    expect(name.startsWith(`${stem}/`), `${name} in ${stem}.zip`).toBe(true);
+    files.set(name.slice(stem.length + 1), bytes);
+  }
+  return files;
+}
+
+/** Exports the chosen reader as `variant` and downloads the bundle it offers. */
+async function exportBundle(variant: string, reader: string): Promise<Download> {
+  const link = page.locator(`#downloads a[data-variant="${variant}"][data-reader="${reader}"]`);
+  const alert = page.locator('export-screen [role="alert"]');
+  await page.locator(`#export-${variant}`).click();
+  await link.or(alert).first().waitFor({ timeout: 60_000 });
+  expect(await alert.allTextContents()).toEqual([]);
+  const [download] = await Promise.all([page.waitForEvent('download'), link.click()]);
+  return download;
 }
 
 async function waitForEngine(): Promise<void> {
@@ -308,6 +333,19 @@ describe('the browser workbench', () => {
     const stages = new Set((await page.locator('#checkpoint-table tbody td.stage').allTextContents()).map((t) => t.trim()));
     expect([...stages].sort()).toEqual(['fine-tuning', 'masked-LM', 'practice']);
     await expect(page.locator('#storage').textContent()).resolves.toMatch(/Checkpoints take\s+[\d.]+ MB/);
+    // two ticked side by side: headed by stage and update, rows by names for people, never by ids or keys
+    const boxes = page.locator('#checkpoint-table tbody input[type="checkbox"]');
+    await boxes.nth(0).check();
+    await boxes.nth(1).check();
+    await page.locator('#comparison').waitFor();
+    const heads = (await page.locator('#comparison thead th').allTextContents()).map((t) => t.trim()).filter((t) => t !== '');
+    expect(heads.length).toBe(2);
+    for (const h of heads) expect(h).toMatch(/^(fine-tuned|practice|masked-LM), update \d+$/);
+    const comparison = (await page.locator('#comparison').textContent()) ?? '';
+    for (const id of await page.locator('#checkpoint-table tbody tr').evaluateAll((rows) => rows.map((r) => r.getAttribute('data-id')!)))
+      expect(comparison).not.toContain(id);
+    expect(comparison).not.toMatch(/validationF1|learningRate|batchSize/);
+    expect(comparison).toContain('Learning rate');
     await shot('checkpoints');
   });
 
@@ -389,44 +427,59 @@ describe('the browser workbench', () => {
     await page.locator('#ask-button').click();
     await page.locator('#answers').waitFor({ timeout: 60_000 });
     expect(await page.locator('#answers ol.answers li').count()).toBeGreaterThan(0);
+    await expect(page.locator('#score-help').textContent()).resolves.toMatch(/Reader:.*Retriever:.*Combined:/);
     await shot('ask', true);
   });
 
-  it("exports the fine-tuned model: the download parses as safetensors, and model.onnx runs to the engine's logits", async () => {
+  it('answers over one passage by the reader alone, with no retriever score', async () => {
+    await page.locator('ask-screen input[name="scope"][value="one"]').check();
+    await page.locator('#ask-button').click();
+    await page.locator('#answers[data-mode="single-passage"]').waitFor({ timeout: 60_000 });
+    expect(await page.locator('#answers ol.answers li').count()).toBeGreaterThan(0);
+    const text = (await page.locator('#answers').textContent()) ?? '';
+    expect(text).not.toContain('BM25');
+    expect(text).not.toMatch(/retriever \d|combined \d/i);
+    await expect(page.locator('#score-help').textContent()).resolves.toMatch(/Reader:.*alone ranks/);
+    await shot('ask-one-passage');
+  });
+
+  it("exports the fine-tuned model: one .zip per bundle, named apart; the safetensors parse, and model.onnx runs to the engine's logits", async () => {
     await screen('export');
-    await page.locator('#export-fp32').click();
-    const link = page.locator('a[data-file="model.safetensors"]');
-    await link.waitFor({ timeout: 60_000 });
-    const [download] = await Promise.all([page.waitForEvent('download'), link.click()]);
-    const bytes = new Uint8Array(readFileSync(await download.path()));
-    const exported = readSafetensors(bytes, 'downloaded model.safetensors').tensors;
+    const fp32 = await exportBundle('fp32', 'tuned');
+    expect(fp32.suggestedFilename()).toMatch(/^spanwright-fine-tuned-[a-z0-9-]+-float32\.zip$/);
+    const fp32Files = await unzipDownload(fp32);
+    expect([...fp32Files.keys()].sort()).toEqual(['MODEL_CARD.md', 'config.json', 'model.safetensors', 'vocab.txt']);
+    expect(new TextDecoder().decode(fp32Files.get('MODEL_CARD.md'))).toContain(CAUTION);
+    const exported = readSafetensors(fp32Files.get('model.safetensors')!, 'downloaded model.safetensors').tensors;
     const base = readSafetensors(new Uint8Array(readFileSync(join(FIXTURE, 'model.safetensors'))), 'fixture').tensors;
     const head = exported.get('qa_outputs.weight');
     expect(head?.shape).toEqual(base.get('qa_outputs.weight')?.shape);
     // training moved the span head away from the base weights
     const before = base.get('qa_outputs.weight')!.data;
     expect(head!.data.some((v, i) => v !== before[i])).toBe(true);
+    // the float16 bundle of the same reader downloads under its own name: neither replaces the other
+    const fp16 = await exportBundle('fp16', 'tuned');
+    expect(fp16.suggestedFilename()).toMatch(/-float16\.zip$/);
+    expect(fp16.suggestedFilename()).not.toBe(fp32.suggestedFilename());
+    expect(fp16.suggestedFilename().replace(/float16\.zip$/, '')).toBe(fp32.suggestedFilename().replace(/float32\.zip$/, ''));
+    const fp16Files = await unzipDownload(fp16);
+    expect(fp16Files.get('model.safetensors')!.length).toBeLessThan(fp32Files.get('model.safetensors')!.length);
+    expect(await page.locator('#downloads a[data-variant]').count()).toBe(2);
     // int8 weights (with their measured logit drift in the card) are built in the worker too
     await page.locator('#export-int8').click();
     for (const name of ['model.int8.safetensors', 'MODEL_CARD.md']) {
-      await page.locator(`a[data-file="${name}"]`).waitFor({ timeout: 60_000 });
+      await page.locator(`li:has(a[data-variant="int8"]) code[data-entry="${name}"]`).waitFor({ timeout: 60_000 });
     }
     // model.onnx is built in the worker under the page's CSP (no 'unsafe-eval'); run by
     // onnxruntime-node (the reference ONNX runtime, npm `onnxruntime-node`) it gives the
     // engine's logits (tfjs cpu backend) for the fp32 weights downloaded above, within 1e-4
-    await page.locator('#export-onnx').click();
-    const onnxLink = page.locator('a[data-file="model.onnx"]');
-    const alert = page.locator('export-screen [role="alert"]');
-    await onnxLink.or(alert).first().waitFor({ timeout: 60_000 });
-    expect(await alert.allTextContents()).toEqual([]);
-    const [onnxDownload] = await Promise.all([page.waitForEvent('download'), onnxLink.click()]);
-    const session = await ort.InferenceSession.create(new Uint8Array(readFileSync(await onnxDownload.path())), { logSeverityLevel: 3 });
+    const onnxFiles = await unzipDownload(await exportBundle('onnx', 'tuned'));
+    const session = await ort.InferenceSession.create(onnxFiles.get('model.onnx')!, { logSeverityLevel: 3 });
     const ids = [2, 17, 33, 5, 9, 3, 41, 12, 60, 3, 2, 8, 8, 50, 3, 19, 0, 0, 0, 0]; // [2, 10], the second padded after 6
     const mask = ids.map((_, i) => (i < 16 ? 1 : 0));
     // the exported config.json: the practice stage turned the word-match token types on,
     // so context tokens carry types 2–4, which the ONNX graph must read like the engine
-    const [configDownload] = await Promise.all([page.waitForEvent('download'), page.locator('a[data-file="config.json"]').click()]);
-    const config = configFromHf(JSON.parse(readFileSync(await configDownload.path(), 'utf8')));
+    const config = configFromHf(JSON.parse(new TextDecoder().decode(onnxFiles.get('config.json'))));
     expect(config.questionMatch).toBe('words+sentence');
     const types = ids.map((_, i) => (i % 10 >= 5 ? [1, 2, 3, 4, 1][(i % 10) - 5]! : 0));
     const feed = (v: number[]) => new ort.Tensor('int64', BigInt64Array.from(v.map(BigInt)), [2, 10]);
@@ -457,6 +510,21 @@ describe('the browser workbench', () => {
     await page.locator('#data-jsonl').click();
     await page.locator('a[data-file="dataset.jsonl"]').waitFor();
     await shot('export');
+  });
+
+  it('exports a saved checkpoint, not only the reader in use', async () => {
+    const choice = page.locator('#export-model optgroup option').first();
+    const value = (await choice.getAttribute('value')) ?? '';
+    expect(value).toMatch(/^checkpoint:/);
+    expect((await choice.textContent())?.trim()).toMatch(/^checkpoint: (fine-tuned|practice|masked-LM), update \d+/);
+    await page.locator('#export-model').selectOption(value);
+    const download = await exportBundle('fp32', 'checkpoint');
+    expect(download.suggestedFilename()).toMatch(/^spanwright-(fine-tuned|practice|masked-lm)-update-\d+-[0-9-]*float32\.zip$/);
+    const files = await unzipDownload(download);
+    const card = new TextDecoder().decode(files.get('MODEL_CARD.md'));
+    expect(card).toMatch(/checkpoint saved at update \d+/);
+    expect(card).toContain(CAUTION);
+    expect(readSafetensors(files.get('model.safetensors')!, 'checkpoint export').tensors.has('qa_outputs.weight')).toBe(true);
   });
 
   it('opens offline from its cache', async () => {
