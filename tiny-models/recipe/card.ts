@@ -90,6 +90,8 @@ export interface ReadingStageFacts {
     answerableF1: number | null;
     unanswerableF1: number | null;
   };
+  /** an earlier pass of this stage that this one continued from (`--from` its folder), if any */
+  earlier?: ReadingStageFacts;
 }
 
 const f = (x: number, digits = 2) => (Number.isFinite(x) ? x.toFixed(digits) : 'n/a');
@@ -237,7 +239,7 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null,
     const pc = (x: number | null | undefined) => (x === null || x === undefined ? 'n/a' : f(x, 1));
     out.push('## Reading stage', '');
     out.push(
-      `Then the reader was trained once through ${reading.questions.toLocaleString('en-US')} practice questions — ${reading.method} — written by Spanwright's own ` +
+      `Then the reader was trained ${reading.earlier ? 'in two passes' : 'once'} through ${(reading.questions + (reading.earlier?.questions ?? 0)).toLocaleString('en-US')} practice questions — ${reading.method} — written by Spanwright's own ` +
         "generator (`src/practice/`, the one the workbench and `train --practice-from` run on a user's passages): a sentence turned into a question about one of its " +
         'names, numbers, dates or phrases (cloze-to-question rules in the manner of Lewis et al. 2019), a span that recurs in the passage asked about from one ' +
         'occurrence with that sentence taken out (recurring-span selection, Ram et al. 2021), and a quarter of them asked again of a context without the answer. ' +
@@ -248,8 +250,16 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null,
           : ''),
       '',
     );
+    for (const e of reading.earlier ? [reading.earlier] : []) {
+      out.push(
+        `- A first pass: ${e.questions.toLocaleString('en-US')} questions (seed ${e.settings.seed}, ${e.settings.perPassage} per passage at most), ` +
+          `${e.updates.toLocaleString('en-US')} updates of ${e.settings.batchSize} windows of ${e.settings.maxLength} tokens at peak learning rate ${e.settings.learningRate}, ` +
+          `${f(e.minutes, 1)} minutes` +
+          (e.heldOut ? `; held-out practice F1 after it ${pc(e.heldOut.f1)} (answerable ${pc(e.heldOut.answerableF1)}).` : '.'),
+      );
+    }
     out.push(
-      `- ${reading.passages.toLocaleString('en-US')} passages, ${s.perPassage} questions each at most, ${reading.updates.toLocaleString('en-US')} updates of ${s.batchSize} windows of ` +
+      `- ${reading.earlier ? 'Then a second pass over new questions: ' : ''}${reading.passages.toLocaleString('en-US')} passages, ${s.perPassage} questions each at most, ${reading.updates.toLocaleString('en-US')} updates of ${s.batchSize} windows of ` +
         `${s.maxLength} tokens (every window holding an answer, a tenth of the others), peak learning rate ${s.learningRate} with 10% warmup and linear decay, ` +
         `${f(reading.minutes, 1)} minutes on 2 shared cores, the project's own training loop through the session (ReaderSession.practice).`,
     );
@@ -306,7 +316,7 @@ export function renderBaseCard(c: CardFacts, span: SpanStageFacts | null = null,
   out.push('## What it can and cannot do', '');
   out.push(
     '- Can: after fine-tuning, pick out short, literal answer spans (names, dates, numbers, short phrases) when the question shares words with the passage; run fast on a CPU, in a browser tab.',
-    `- Cannot: reason over several sentences, paraphrase, count, or compare reliably; it knows little vocabulary beyond 19th–21st-century American political prose, a 19th-century novel and dictionary glosses; it is English only and uncased; ${span === null ? 'it was never trained on questions' : 'the only questions it was trained on are mechanical dictionary questions'}; the masked-word accuracy above is a rough measure of how much of the language it has absorbed.`,
+    `- Cannot: reason over several sentences, paraphrase, count, or compare reliably; it knows little vocabulary beyond 19th–21st-century American political prose, a 19th-century novel and dictionary glosses; it is English only and uncased; ${reading !== null ? 'the questions it was trained on are mechanical ones (dictionary questions and practice questions written by rule from prose), never questions people asked' : span === null ? 'it was never trained on questions' : 'the only questions it was trained on are mechanical dictionary questions'}; the masked-word accuracy above is a rough measure of how much of the language it has absorbed.`,
     '',
   );
 

@@ -225,6 +225,10 @@ const facts = {
     questionMatch: match,
   },
   from,
+  // a pass that continued an earlier one keeps that one's facts (the card lists both)
+  ...(existsSync(join(from, 'reading-stage.json'))
+    ? { earlier: JSON.parse(readFileSync(join(from, 'reading-stage.json'), 'utf8')) as unknown }
+    : {}),
 };
 writeFileSync(join(out, 'reading-stage.json'), `${JSON.stringify(facts, null, 2)}\n`);
 // 5. measure
