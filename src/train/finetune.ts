@@ -90,6 +90,11 @@ export function weightsOf(tensors: NamedTensors): NamedTensors {
   return new Map([...tensors].filter(([name]) => !name.startsWith('adam.')));
 }
 
+/** The optimizer's moments of a checkpoint's tensors (`adam.m.*`, `adam.v.*`). */
+export function momentsOf(tensors: NamedTensors): NamedTensors {
+  return new Map([...tensors].filter(([name]) => name.startsWith('adam.')));
+}
+
 export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
   const { config } = req;
   if (req.maskedLm) return maskedLmRun(req, req.maskedLm.texts);

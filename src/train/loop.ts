@@ -19,6 +19,14 @@
 // Resume: pass the RunState of a checkpoint (and restore the weights and the trainer's
 // moments first). Everything random is a function of (seed, epoch, update), so the
 // resumed run takes exactly the updates the uninterrupted one would have.
+//
+// A time budget (TimeBudget, for pretraining) replaces the update count as the clock:
+// the learning rate warms up over the budget's first share of *training time* and
+// decays linearly to 0 at its end, and the run ends when its share of the budget is
+// spent (or the plan's updates, an upper bound, run out). Evaluation and checkpoint
+// time is not training time. The rate reaches 0 when the budget ends however fast the
+// (shared) machine turns out to be; the price is that such a run is not repeatable
+// update for update, only its data order, masks and dropout are.
 
 import type { NamedTensors } from '../io/tensors.js';
 import type { AdamWState } from './adamw.js';
@@ -50,6 +58,32 @@ export interface RunState {
   /** the plan's size, to refuse resuming with different data or settings */
   totalUpdates: number;
   features: number;
+  /** training milliseconds spent on a TimeBudget's clock (time-budgeted runs only) */
+  trainingMs?: number;
+}
+
+/**
+ * A schedule on training time. `totalMs` is the whole schedule, which may span several
+ * loops (phases at different window lengths); this loop trains from `fromMs` to
+ * `untilMs` on that clock (a resumed loop from its RunState's `trainingMs`).
+ */
+export interface TimeBudget {
+  totalMs: number;
+  fromMs: number;
+  untilMs: number;
+  /** share of `totalMs` spent warming the rate up from 0 */
+  warmupShare: number;
+  /** evaluate / checkpoint every this much training time instead of the config's update counts */
+  evalEveryMs?: number;
+  checkpointEveryMs?: number;
+}
+
+/** The rate at `ms` of training time under `budget`: linear warmup, then linear decay to 0 at `totalMs`. */
+export function learningRateAtTime(baseLearningRate: number, budget: Pick<TimeBudget, 'totalMs' | 'warmupShare'>, ms: number): number {
+  const fraction = Math.min(1, Math.max(0, ms / budget.totalMs));
+  if (fraction < budget.warmupShare) return (baseLearningRate * fraction) / budget.warmupShare;
+  if (budget.warmupShare >= 1) return 0;
+  return baseLearningRate * Math.max(0, (1 - fraction) / (1 - budget.warmupShare));
 }
 
 /** Plain metrics from the evaluate callback (EM, F1, loss, …). */
@@ -81,12 +115,16 @@ export type LoopEvent =
       loss: number;
       lr: number;
       gradNorm: number;
+      /** real (unpadded) tokens in this update */
+      tokens: number;
       /** real (unpadded) tokens per second of this update's step time */
       tokensPerSecond: number;
       /** wall time of this update's step */
       stepMs: number;
-      /** remaining updates × mean step time so far in this session */
+      /** remaining updates × mean step time so far in this session (under a TimeBudget: the budget left) */
       etaMs: number;
+      /** training time on the TimeBudget's clock after this update (time-budgeted runs only) */
+      trainingMs?: number;
     }
   | { type: 'evaluated'; update: number; metrics: Metrics }
   /** `id`: the store's id of the checkpoint, when the save callback gave one */
@@ -114,7 +152,13 @@ export type LoopOutcome =
   /** stopped on request between two updates; resume from `state` */
   | { status: 'stopped'; state: RunState; lastLoss: number | null };
 
-export async function trainLoop(trainer: Trainer, task: TrainTask, hooks: LoopHooks = {}, resume?: RunState): Promise<LoopOutcome> {
+export async function trainLoop(
+  trainer: Trainer,
+  task: TrainTask,
+  hooks: LoopHooks = {},
+  resume?: RunState,
+  budget?: TimeBudget,
+): Promise<LoopOutcome> {
   const plan = trainer.plan;
   const config = trainer.config;
   const now = hooks.now ?? (() => performance.now());
@@ -128,21 +172,38 @@ export async function trainLoop(trainer: Trainer, task: TrainTask, hooks: LoopHo
     order = resume.order;
   }
   const startUpdate = trainer.updatesDone;
+  // the budget's clock: training time only (evaluations and saves are paused out of it)
+  const clockStart = budget === undefined ? 0 : (resume?.trainingMs ?? budget.fromMs);
+  const sessionStart = now();
+  let pausedMs = 0;
+  const clock = () => clockStart + (now() - sessionStart - pausedMs);
+  const paused = async <T>(work: () => Promise<T>): Promise<T> => {
+    const t0 = now();
+    try {
+      return await work();
+    } finally {
+      pausedMs += now() - t0;
+    }
+  };
   const state = (): RunState => ({
     trainer: trainer.state(),
     order: { ...order },
     totalUpdates: plan.totalUpdates,
     features: plan.features,
+    ...(budget === undefined ? {} : { trainingMs: clock() }),
   });
   const save = async (reason: CheckpointRequest['reason'], metrics: Metrics | null) => {
     if (hooks.saveCheckpoint === undefined) return;
-    const id = await hooks.saveCheckpoint({
-      reason,
-      state: state(),
-      metrics,
-      weights: () => trainer.params.toNamed(),
-      optimizer: () => trainer.optimizerState(),
-    });
+    const saveState = state();
+    const id = await paused(async () =>
+      hooks.saveCheckpoint!({
+        reason,
+        state: saveState,
+        metrics,
+        weights: () => trainer.params.toNamed(),
+        optimizer: () => trainer.optimizerState(),
+      }),
+    );
     emit(
       typeof id === 'string'
         ? { type: 'checkpoint', update: trainer.updatesDone, reason, id }
@@ -151,7 +212,7 @@ export async function trainLoop(trainer: Trainer, task: TrainTask, hooks: LoopHo
   };
   const evaluate = async (update: number): Promise<Metrics | null> => {
     if (hooks.evaluate === undefined) return null;
-    const metrics = await hooks.evaluate(update);
+    const metrics = await paused(async () => hooks.evaluate!(update));
     emit({ type: 'evaluated', update, metrics });
     return metrics;
   };
@@ -161,15 +222,27 @@ export async function trainLoop(trainer: Trainer, task: TrainTask, hooks: LoopHo
   let lastLoss: number | null = null;
   let stepTimeTotal = 0;
 
-  for (let k = startUpdate; k < plan.totalUpdates; k++) {
+  const budgetLeft = () => budget === undefined || clock() < budget.untilMs;
+  let lastEvalMs = clockStart;
+  let lastCheckpointMs = clockStart;
+  const due = (k: number) => {
+    let evalDue = config.evalEvery > 0 ? k % config.evalEvery === 0 : k % plan.updatesPerEpoch === 0;
+    let checkpointDue = config.checkpointEvery > 0 ? k % config.checkpointEvery === 0 : evalDue;
+    if (budget?.evalEveryMs !== undefined && budget.evalEveryMs > 0) evalDue = clock() - lastEvalMs >= budget.evalEveryMs;
+    if (budget?.checkpointEveryMs !== undefined && budget.checkpointEveryMs > 0)
+      checkpointDue = clock() - lastCheckpointMs >= budget.checkpointEveryMs;
+    if (evalDue) lastEvalMs = clock();
+    if (checkpointDue) lastCheckpointMs = clock();
+    return { evalDue, checkpointDue };
+  };
+  for (let k = startUpdate; k < plan.totalUpdates && budgetLeft(); k++) {
     // 1. learning rate
-    const lr = trainer.learningRate(k);
+    const lr = budget === undefined ? trainer.learningRate(k) : learningRateAtTime(plan.baseLearningRate, budget, clock());
 
     // 2. evaluate / checkpoint when due — never at the update a run starts or resumes from:
     // a resumed run's checkpoint of that update is the one it was loaded from
     if (k > startUpdate) {
-      const evalDue = config.evalEvery > 0 ? k % config.evalEvery === 0 : k % plan.updatesPerEpoch === 0;
-      const checkpointDue = config.checkpointEvery > 0 ? k % config.checkpointEvery === 0 : evalDue;
+      const { evalDue, checkpointDue } = due(k);
       const metrics = evalDue ? await evaluate(k) : null;
       if (checkpointDue) await save('interval', metrics);
     }
@@ -192,20 +265,22 @@ export async function trainLoop(trainer: Trainer, task: TrainTask, hooks: LoopHo
       loss: result.loss,
       lr,
       gradNorm: result.gradNorm,
+      tokens: result.tokens,
       tokensPerSecond: stepMs > 0 ? (result.tokens * 1000) / stepMs : 0,
       stepMs,
-      etaMs: (stepTimeTotal / done) * (plan.totalUpdates - (k + 1)),
+      etaMs: budget === undefined ? (stepTimeTotal / done) * (plan.totalUpdates - (k + 1)) : Math.max(0, budget.untilMs - clock()),
+      ...(budget === undefined ? {} : { trainingMs: clock() }),
     });
 
     // 5. stop?
     await yieldToEvents();
-    if (stopRequested() && k + 1 < plan.totalUpdates) {
+    if (stopRequested() && k + 1 < plan.totalUpdates && budgetLeft()) {
       await save('stop', null);
       return { status: 'stopped', state: state(), lastLoss };
     }
   }
 
-  const metrics = await evaluate(plan.totalUpdates);
+  const metrics = await evaluate(trainer.updatesDone);
   await save('end', metrics);
   return { status: 'finished', state: state(), lastLoss, metrics };
 }

@@ -1,6 +1,6 @@
 // defines: Trainer (one optimizer update at a time: span fine-tuning `step`, MLM
-// pretraining `mlmStep`, eval-mode `evalLogits`), StepResult, TrainerState,
-// NonFiniteError.
+// pretraining `mlmStep` and its held-out `mlmEvaluate`, eval-mode `evalLogits`),
+// StepResult, TrainerState, MlmEvaluation, NonFiniteError.
 //
 // The step function the CLI and the Web Worker both drive (through loop.ts). One update:
 //
@@ -90,6 +90,16 @@ export class NonFiniteError extends Error {
   }
 }
 
+/** A held-out masked-LM measurement (Trainer.mlmEvaluate). */
+export interface MlmEvaluation {
+  /** mean cross-entropy over the masked positions */
+  loss: number;
+  /** share of masked positions whose arg-max prediction is the original token */
+  accuracy: number;
+  /** masked positions scored */
+  predicted: number;
+}
+
 /** Span logits of one batch in eval mode, read back: row-major [B, T]. */
 export interface EvalLogits {
   size: number;
@@ -165,6 +175,40 @@ export class Trainer {
       }); // [M, V]
       return mlmLoss(tf.expandDims(logits, 0) as tf.Tensor3D, tf.tensor2d(labels, [1, positions.length], 'int32'));
     });
+  }
+
+  /**
+   * Masked-LM loss and accuracy over the masked positions of `batches`, in eval mode (no
+   * dropout): the held-out measure of a pretraining run. Batches with no masked position
+   * are skipped; NaN when none has one.
+   */
+  mlmEvaluate(batches: readonly MlmBatch[]): MlmEvaluation {
+    let lossSum = 0;
+    let correct = 0;
+    let predicted = 0;
+    for (const batch of batches) {
+      const positions = maskedPositions(batch);
+      if (positions.length === 0) continue;
+      const [loss, hits] = tf.tidy(() => {
+        const labels = new Int32Array(positions.length);
+        positions.forEach((at, k) => (labels[k] = batch.labels[at]!));
+        const logits = mlmLogitsAt(this.params, this.modelConfig, readerInputs(batch), tf.tensor1d(positions, 'int32'), {
+          training: false,
+        }); // [M, V]
+        const gold = tf.tensor1d(labels, 'int32');
+        const ce = mlmLoss(tf.expandDims(logits, 0) as tf.Tensor3D, tf.expandDims(gold, 0) as tf.Tensor2D);
+        const right = tf.sum(tf.cast(tf.equal(tf.argMax(logits, -1), gold), 'int32'));
+        return [ce.dataSync()[0]!, right.dataSync()[0]!];
+      });
+      lossSum += loss * positions.length;
+      correct += hits;
+      predicted += positions.length;
+    }
+    return {
+      loss: predicted > 0 ? lossSum / predicted : Number.NaN,
+      accuracy: predicted > 0 ? correct / predicted : Number.NaN,
+      predicted,
+    };
   }
 
   /** Start/end logits in eval mode (no dropout), read back to the CPU. */

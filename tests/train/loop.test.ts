@@ -217,3 +217,83 @@ describe('trainLoop', () => {
     expect(await run()).toEqual(first);
   });
 });
+
+describe('trainLoop on a time budget', () => {
+  // a fake clock: every update takes 100 ms of training time, each evaluation 1 s that must not count
+  function clock() {
+    let t = 0;
+    return { now: () => t, advance: (ms: number) => (t += ms) };
+  }
+
+  it('warms up and decays on training time and ends when its share of the budget is spent', async () => {
+    const trainer = fresh({ epochs: 50 });
+    const c = clock();
+    const events: LoopEvent[] = [];
+    const budget = { totalMs: 1000, fromMs: 0, untilMs: 600, warmupShare: 0.1, evalEveryMs: 250 };
+    const outcome = await trainLoop(
+      trainer,
+      { kind: 'span', features: FEATURES },
+      {
+        evaluate: () => {
+          c.advance(1000);
+          return { f1: 0 };
+        },
+        onEvent: (e) => {
+          events.push(e);
+          if (e.type === 'progress') c.advance(100);
+        },
+        now: c.now,
+        yieldToEvents: noWait,
+      },
+      undefined,
+      budget,
+    );
+    const progress = events.filter((e) => e.type === 'progress');
+    // 6 updates of 100 ms fill 600 ms; the evaluations' 1 s each is paused out of the clock
+    expect(progress).toHaveLength(6);
+    expect(outcome.status).toBe('finished');
+    expect(outcome.state.trainingMs).toBe(600);
+    // the rate at 0, 100, … 500 ms of a 1 000 ms schedule with 10% warmup: 0, then (1 − f)/0.9 of the peak
+    const peak = SETTINGS.learningRate!;
+    const expected = [0, 0.9, 0.8, 0.7, 0.6, 0.5].map((f, i) => (i === 0 ? 0 : (peak * f) / 0.9));
+    progress.forEach((e, i) => expect(e.lr).toBeCloseTo(expected[i]!, 12));
+    // an evaluation once 250 ms of training time had passed since the start (at 300 ms), and one at the end
+    expect(events.filter((e) => e.type === 'evaluated').map((e) => e.update)).toEqual([3, 6]);
+  });
+
+  it('resumes on the saved clock: a stopped phase continues from its training time', async () => {
+    const c = clock();
+    const budget = { totalMs: 1000, fromMs: 0, untilMs: 1000, warmupShare: 0 };
+    let saved: RunState | null = null;
+    let stopAfter = 3;
+    const first = fresh({ epochs: 50 });
+    const stopped = await trainLoop(
+      first,
+      { kind: 'span', features: FEATURES },
+      {
+        saveCheckpoint: (r) => void (saved = r.state),
+        onEvent: (e) => e.type === 'progress' && c.advance(100),
+        shouldStop: () => --stopAfter <= 0,
+        now: c.now,
+        yieldToEvents: noWait,
+      },
+      undefined,
+      budget,
+    );
+    expect(stopped.status).toBe('stopped');
+    expect(saved!.trainingMs).toBe(300);
+    const lrs: number[] = [];
+    const second = fresh({ epochs: 50 }, first.params.toNamed());
+    second.restore(saved!.trainer, first.optimizerState());
+    await trainLoop(
+      second,
+      { kind: 'span', features: FEATURES },
+      { onEvent: (e) => e.type === 'progress' && (lrs.push(e.lr), c.advance(100)), now: c.now, yieldToEvents: noWait },
+      saved!,
+      budget,
+    );
+    // 7 more updates fill the budget's 1 000 ms; the first of them at 300 ms: lr = peak · 0.7
+    expect(lrs).toHaveLength(7);
+    expect(lrs[0]).toBeCloseTo(SETTINGS.learningRate! * 0.7, 12);
+  });
+});

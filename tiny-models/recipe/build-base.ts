@@ -11,24 +11,26 @@
 //                  tokens by frequency (vocab.ts)
 //   3. tokens      every document tokenized once with the project's WordPieceTokenizer,
 //                  cached as int32 files (train.ids, heldout.ids + their .starts)
-//   4. pretrain    masked-LM only (no next-sentence task) with the project's engine on
-//                  wasm + fast kernels: rows packed to T (src/train/mlm-data.ts), BERT's
-//                  15% / 80-10-10 masking, AdamW, clipping. The last --long-share of the
-//                  time budget trains at 512 tokens so every position embedding a
-//                  384-token fine-tuning window reads has been trained (BERT did the
-//                  same with its last 10% of steps, Devlin et al. 2019 appendix A.2).
-//                  Held-out MLM loss and accuracy are logged every --eval-minutes, a
-//                  checkpoint is written every --checkpoint-minutes and on SIGINT/SIGTERM,
-//                  and a rerun resumes from the newest checkpoint.
+//   4. pretrain    masked-LM only (no next-sentence task) through the core's own loop
+//                  (src/train/loop.ts trainLoop with Trainer.mlmStep, the head scoring
+//                  only the masked positions): rows packed to T (src/train/mlm-data.ts),
+//                  BERT's 15% / 80-10-10 masking, AdamW, clipping. The last --long-share
+//                  of the time budget is a second phase at 512 tokens, so every position
+//                  embedding a 384-token fine-tuning window reads has been trained (BERT
+//                  did the same with its last 10% of steps, Devlin et al. 2019 appendix
+//                  A.2); the optimizer's moments carry over. Held-out MLM loss and
+//                  accuracy (Trainer.mlmEvaluate) every --eval-minutes, a checkpoint every
+//                  --checkpoint-minutes and on SIGINT/SIGTERM, and a rerun resumes from
+//                  the newest checkpoint. --documents N keeps N documents per source, for
+//                  a short check (tests/recipe/build-base.test.ts).
 //   5. finish      at the end of the budget (or at once with --finish): the newest
 //                  checkpoint becomes `--out`: config.json, model.safetensors (fp16),
 //                  vocab.txt, MODEL_CARD.md, pretraining.json.
 //
 // Learning rate: linear warmup over the first --warmup-share of the *time budget*, then
-// linear decay to 0 at its end. The schedule runs on training time rather than on a
-// step count fixed in advance, so the rate reaches 0 when the budget ends however fast
-// the machine turns out to be (it is shared); the price is that a run is not repeatable
-// step for step. The elapsed training time is saved with each checkpoint.
+// linear decay to 0 at its end: the core loop's TimeBudget (src/train/loop.ts says why a
+// run is then not repeatable update for update). The training time spent is saved with
+// each checkpoint.
 
 import { mkdirSync, readFileSync, existsSync, writeFileSync, appendFileSync, statSync } from 'node:fs';
 import { dirname, join, relative, resolve } from 'node:path';
@@ -40,13 +42,18 @@ import { namedToSafetensors, readSafetensors } from '../../src/io/safetensors.js
 import type { NamedTensors } from '../../src/io/tensors.js';
 import { configFromHf, configToHf, paramCount, presetConfig, type ReaderConfig } from '../../src/model/config.js';
 import { ReaderParams } from '../../src/model/params.js';
+import type { AdamWState } from '../../src/train/adamw.js';
 import type { MlmBatch, MlmMasking } from '../../src/train/batches.js';
-import { maskedBatch, packDocuments, type DocumentTokens, type PackedSequences } from '../../src/train/mlm-data.js';
-import { seedAt, shuffledOrder } from '../../src/train/random.js';
+import { trainConfig, type TrainConfig } from '../../src/train/config.js';
+import { momentsOf, weightsOf } from '../../src/train/finetune.js';
+import { trainLoop, type CheckpointRequest, type RunState } from '../../src/train/loop.js';
+import { maskedBatch, packDocuments, packedExample, type DocumentTokens, type PackedSequences } from '../../src/train/mlm-data.js';
+import { seedAt } from '../../src/train/random.js';
+import { planTraining } from '../../src/train/schedule.js';
+import { Trainer } from '../../src/train/trainer.js';
 import { WordPieceTokenizer } from '../../src/text/wordpiece.js';
 import { heldOutIds, readCorpus, SOURCES } from './corpus.js';
 import { renderBaseCard, type CardFacts } from './card.js';
-import { MaskedLmTrainer } from './masked-lm.js';
 import { CANDIDATES, type SizeMeasurement } from './measure-sizes.js';
 import { buildVocabulary, type VocabReport } from './vocab.js';
 import { useWasm } from './wasm.js';
@@ -92,6 +99,8 @@ export interface RecipeSettings {
    * pretraining.json) to continue from instead of a random start; null = random start
    */
   init: string | null;
+  /** keep only the first N documents of each source (0 = all): for a short check of the recipe */
+  documents: number;
 }
 
 const DEFAULTS: RecipeSettings = {
@@ -114,6 +123,7 @@ const DEFAULTS: RecipeSettings = {
   out: join(repo, 'tiny-models', 'base'),
   work: join(repo, 'runs', 'base-build'),
   init: null,
+  documents: 0,
 };
 
 interface Args {
@@ -138,6 +148,7 @@ function parseArgs(argv: string[]): Args {
     '--seed': 'seed',
     '--checkpoint-minutes': 'checkpointMinutes',
     '--eval-minutes': 'evalMinutes',
+    '--documents': 'documents',
   };
   for (let i = 0; i < argv.length; i++) {
     const flag = argv[i]!;
@@ -206,6 +217,8 @@ interface Prepared {
 
 interface Manifest {
   vocabSize: number;
+  /** documents kept per source (0 = all) */
+  perSource?: number;
   vocabReport: VocabReport;
   documents: { train: number; heldout: number; bySource: Record<string, { documents: number; heldout: number; tokens: number }> };
   tokens: { train: number; heldout: number };
@@ -243,7 +256,7 @@ async function prepare(s: RecipeSettings): Promise<Prepared> {
     const manifest = JSON.parse(readFileSync(manifestPath, 'utf8')) as Manifest;
     const vocabText = readFileSync(join(dir, 'vocab.txt'), 'utf8');
     const initText = s.init === null ? null : readFileSync(join(s.init, 'vocab.txt'), 'utf8');
-    if (manifest.vocabSize === s.vocabSize && (initText === null || initText === vocabText)) {
+    if (manifest.vocabSize === s.vocabSize && (manifest.perSource ?? 0) === s.documents && (initText === null || initText === vocabText)) {
       log(`data: cached in ${dir} (${manifest.tokens.train} training tokens, ${manifest.tokens.heldout} held out)`);
       return {
         vocab: vocabText.trimEnd().split('\n'),
@@ -258,7 +271,7 @@ async function prepare(s: RecipeSettings): Promise<Prepared> {
   mkdirSync(dir, { recursive: true });
 
   // 1. corpus
-  const docs = readCorpus();
+  const docs = firstPerSource(readCorpus(), s.documents);
   const held = heldOutIds(docs);
   const trainDocs = docs.filter((d) => !held.has(d.id));
   const heldDocs = docs.filter((d) => held.has(d.id));
@@ -308,6 +321,7 @@ async function prepare(s: RecipeSettings): Promise<Prepared> {
   heldDocs.forEach((d, i) => (bySource[d.source]!.tokens += heldLists[i]!.length));
   const manifest: Manifest = {
     vocabSize: s.vocabSize,
+    perSource: s.documents,
     vocabReport: report,
     documents: { train: trainDocs.length, heldout: heldDocs.length, bySource },
     tokens: { train: train.ids.length, heldout: heldout.ids.length },
@@ -324,18 +338,27 @@ async function prepare(s: RecipeSettings): Promise<Prepared> {
 /** What a checkpoint remembers beyond the store's common fields. */
 interface PretrainMeta extends CheckpointMeta {
   settings: RecipeSettings;
-  /** training milliseconds spent so far, over all sessions */
-  elapsedMs: number;
-  /** real tokens (padding excluded) fed to the encoder so far */
+  /** which phase the run state belongs to: the main one at maxLen or the last one at longLen */
+  phase: 'main' | 'long';
+  /** the core loop's run state within that phase (trainingMs is the whole budget's clock) */
+  run: RunState;
+  /** updates taken by the phases before this one */
+  updatesBefore: number;
+  /** real tokens (padding excluded) fed to the encoder so far, all phases */
   tokensSeen: number;
-  /** T of the phase the data position refers to */
-  phaseLength: number;
   /** AdamW's per-parameter step counts */
-  adamSteps: Record<string, number>;
+  optimizerSteps: Record<string, number>;
   /** the latest held-out measurement */
   heldout: { loss: number; accuracy: number; predicted: number; atStep: number } | null;
   /** the earlier run this one continued from (--init), as its pretraining.json tells */
   initFrom: InitFrom | null;
+}
+
+/** What a finished pretraining hands to stage 5. */
+interface Pretrained {
+  meta: PretrainMeta;
+  params: ReaderParams;
+  config: ReaderConfig;
 }
 
 /** What a continued run inherited: the earlier run's own counts and settings. */
@@ -407,17 +430,19 @@ class Phases {
   }
 }
 
-function phaseLength(s: RecipeSettings, fraction: number): number {
-  return fraction >= 1 - s.longShare ? s.longLen : s.maxLen;
+/** The first `n` documents of each source, in corpus order (all of them for n = 0). */
+function firstPerSource<D extends { source: string }>(docs: readonly D[], n: number): D[] {
+  if (n === 0) return [...docs];
+  const seen = new Map<string, number>();
+  return docs.filter((d) => {
+    const k = seen.get(d.source) ?? 0;
+    seen.set(d.source, k + 1);
+    return k < n;
+  });
 }
 
-/** lr at a fraction of the budget: warmup, then linear decay to 0 at the end. */
-function learningRateAt(s: RecipeSettings, fraction: number): number {
-  if (fraction < s.warmupShare) return (s.learningRate * fraction) / s.warmupShare;
-  return s.learningRate * Math.max(0, (1 - fraction) / (1 - s.warmupShare));
-}
-
-function heldoutBatches(packed: PackedSequences, rows: number, masking: MlmMasking, seed: number, batchRows: number): MlmBatch[] {
+/** The held-out evaluation's batches: the first `rows` packed rows, masks fixed by (seed, T, row). */
+export function heldoutBatches(packed: PackedSequences, rows: number, masking: MlmMasking, seed: number, batchRows: number): MlmBatch[] {
   const n = Math.min(rows, packed.count);
   const out: MlmBatch[] = [];
   for (let start = 0; start < n; start += batchRows) {
@@ -428,33 +453,69 @@ function heldoutBatches(packed: PackedSequences, rows: number, masking: MlmMaski
   return out;
 }
 
-async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMeta; params: ReaderParams; config: ReaderConfig } | null> {
+/** The phases of a budget: T and where each trains on the budget's clock. */
+function phasesOf(s: RecipeSettings): { phase: PretrainMeta['phase']; T: number; fromMs: number; untilMs: number }[] {
+  const totalMs = s.minutes * 60_000;
+  const boundary = (1 - s.longShare) * totalMs;
+  return [
+    { phase: 'main', T: s.maxLen, fromMs: 0, untilMs: boundary },
+    { phase: 'long', T: s.longLen, fromMs: boundary, untilMs: totalMs },
+  ];
+}
+
+/**
+ * The core's TrainConfig for one phase: the recipe is a configuration of the core loop.
+ * Epochs only bound the plan (the budget ends the phase first); warmup and decay run on
+ * the budget's clock (TimeBudget), so `warmupRatio` is not used.
+ */
+function phaseConfig(s: RecipeSettings, T: number): TrainConfig {
+  return trainConfig({
+    learningRate: s.learningRate,
+    batchSize: Math.max(1, Math.round(s.tokensPerUpdate / T)),
+    gradAccumulation: 1,
+    epochs: 1000,
+    weightDecay: s.weightDecay,
+    maxGradNorm: s.maxGradNorm,
+    seed: s.seed,
+    maxLength: T,
+    stride: Math.floor(T / 4),
+    maxQueryLength: Math.floor(T / 4),
+    dropout: s.dropout,
+    trimPadding: true,
+    mlmProbability: 0.15,
+  });
+}
+
+async function pretrain(args: Args, data: Prepared): Promise<Pretrained | null> {
   const store = new FsCheckpointStore<PretrainMeta>(join(args.settings.work, 'checkpoints'));
   const saved = (await store.list()).at(-1);
   let s = args.settings;
   let meta: PretrainMeta;
   let params: ReaderParams;
-  let adam: { steps: Record<string, number>; tensors: NamedTensors } | null = null;
+  let optimizer: AdamWState | null = null;
 
   // 1. start afresh, or continue from the newest checkpoint with its own settings
   if (saved !== undefined) {
     const ckpt = await store.load(saved.id);
     meta = ckpt.meta;
+    if (meta.run === undefined)
+      throw new Error(
+        `checkpoint ${saved.id}: written by an earlier version of this recipe (no run state); pass a new --work, or --init a finished folder`,
+      );
     if (meta.datasetHash !== data.manifest.datasetHash)
       throw new Error(`checkpoint ${saved.id}: made on other training data (hash ${meta.datasetHash}, now ${data.manifest.datasetHash})`);
-    const overridden = [...args.given].filter((k) => k !== 'out' && k !== 'work' && meta.settings[k] !== s[k]);
-    // the budget and the output folder may change on a rerun; the rest stays as saved
-    const minutes = args.given.has('minutes') ? s.minutes : meta.settings.minutes;
+    const overridden = [...args.given].filter((k) => k !== 'out' && k !== 'work' && k !== 'minutes' && meta.settings[k] !== s[k]);
+    // the output folder may change on a rerun; the budget too, but only before the last phase began
+    const minutes = args.given.has('minutes') && meta.phase === 'main' ? s.minutes : meta.settings.minutes;
     s = { ...meta.settings, minutes, out: s.out, work: s.work };
     meta.settings = s;
-    if (overridden.filter((k) => k !== 'minutes').length > 0)
-      log(`resume: keeping the saved ${overridden.filter((k) => k !== 'minutes').join(', ')} (a run's settings cannot change midway)`);
+    if (overridden.length > 0) log(`resume: keeping the saved ${overridden.join(', ')} (a run's settings cannot change midway)`);
     const config = modelConfig(s, data.vocab.length);
-    const weights: NamedTensors = new Map([...ckpt.tensors].filter(([k]) => !k.startsWith('adam.')));
-    params = ReaderParams.fromNamed(config, weights, { source: saved.id }).params;
-    adam = { steps: meta.adamSteps, tensors: new Map([...ckpt.tensors].filter(([k]) => k.startsWith('adam.'))) };
+    params = ReaderParams.fromNamed(config, weightsOf(ckpt.tensors), { source: saved.id }).params;
+    optimizer = { steps: meta.optimizerSteps, tensors: momentsOf(ckpt.tensors) };
     log(
-      `resume: ${saved.id} — step ${meta.step}, ${(meta.elapsedMs / 60000).toFixed(1)} of ${s.minutes} min, ${meta.tokensSeen} tokens seen`,
+      `resume: ${saved.id} — update ${meta.step}, ${((meta.run.trainingMs ?? 0) / 60000).toFixed(1)} of ${s.minutes} min, ` +
+        `${meta.tokensSeen} tokens seen`,
     );
   } else {
     const config = modelConfig(s, data.vocab.length);
@@ -472,16 +533,17 @@ async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMet
     meta = {
       step: 0,
       schedulePosition: 0,
-      rngState: null,
+      rngState: { seed: s.seed },
       dataPosition: { epoch: 0, index: 0 },
       runConfig: { model: config },
       datasetHash: data.manifest.datasetHash,
       metrics: {},
       settings: s,
-      elapsedMs: 0,
+      phase: 'main',
+      run: { trainer: { update: 0, seed: s.seed }, order: { epoch: 0, index: 0 }, totalUpdates: 0, features: 0, trainingMs: 0 },
+      updatesBefore: 0,
       tokensSeen: 0,
-      phaseLength: s.maxLen,
-      adamSteps: {},
+      optimizerSteps: {},
       heldout: null,
       initFrom,
     };
@@ -493,155 +555,135 @@ async function pretrain(args: Args, data: Prepared): Promise<{ meta: PretrainMet
   if (args.finish && saved === undefined)
     throw new Error(`--finish: no checkpoint in ${join(s.work, 'checkpoints')} to finish from; run without --finish first`);
 
-  const trainer = new MaskedLmTrainer(params, config, { weightDecay: s.weightDecay, maxGradNorm: s.maxGradNorm });
-  if (adam !== null) trainer.restoreOptimizer(adam);
   const tok = data.tokenizer;
-  const masking: MlmMasking = {
-    probability: 0.15,
+  const masking = {
     maskId: tok.maskId,
     vocabSize: data.vocab.length,
     specialIds: [tok.padId, tok.unkId, tok.clsId, tok.sepId, tok.maskId],
   };
   const phases = new Phases(data);
-  const budgetMs = s.minutes * 60_000;
+  const budget = { totalMs: s.minutes * 60_000, warmupShare: s.warmupShare };
 
-  const evaluate = (T: number, rows: number) => {
+  const evaluateWith = (trainer: Trainer, T: number, rows: number) => {
     const batchRows = Math.max(1, Math.round(s.tokensPerUpdate / T));
-    const result = trainer.evaluate(heldoutBatches(phases.at(T).heldout, rows, masking, s.seed, batchRows));
+    const result = trainer.mlmEvaluate(heldoutBatches(phases.at(T).heldout, rows, { ...masking, probability: 0.15 }, s.seed, batchRows));
     meta.heldout = { ...result, atStep: meta.step };
     meta.metrics = { ...meta.metrics, heldoutLoss: result.loss, heldoutAccuracy: result.accuracy };
     log(
       `held-out (T ${T}, ${result.predicted} masked tokens): MLM loss ${result.loss.toFixed(4)}, accuracy ${(100 * result.accuracy).toFixed(2)}%`,
     );
+    return { heldoutLoss: result.loss, heldoutAccuracy: result.accuracy };
   };
-  const save = async (label: string) => {
-    const optimizer = trainer.optimizerState();
-    meta.adamSteps = optimizer.steps;
+  const save = async (request: CheckpointRequest): Promise<string> => {
+    const moments = request.optimizer();
+    meta.run = request.state;
+    meta.step = meta.updatesBefore + request.state.trainer.update;
     meta.schedulePosition = meta.step;
-    meta.label = label;
-    const tensors: NamedTensors = new Map([...params.toNamed(), ...optimizer.tensors]);
-    const summary = await store.save({ meta: { ...meta, savedAt: undefined }, tensors });
+    meta.dataPosition = request.state.order;
+    meta.optimizerSteps = moments.steps;
+    meta.label = request.reason === 'interval' ? 'interval' : request.reason === 'stop' ? 'stopped' : `end of ${meta.phase} phase`;
+    const summary = await store.save({
+      meta: { ...meta, savedAt: undefined },
+      tensors: new Map([...request.weights(), ...moments.tensors]),
+    });
     await store.prune({ keepLast: 2 });
-    log(`checkpoint: ${summary.id} (${label}, ${(summary.bytes / 1e6).toFixed(1)} MB)`);
+    log(`checkpoint: ${summary.id} (${meta.label}, ${(summary.bytes / 1e6).toFixed(1)} MB)`);
+    return summary.id;
   };
 
-  let stop: string | null = null;
+  const abort = new AbortController();
   const onSignal = (name: string) => () => {
-    if (stop === null) log(`${name}: stopping after this update`);
-    stop = name;
+    if (!abort.signal.aborted) log(`${name}: stopping after this update`);
+    abort.abort();
   };
   process.on('SIGINT', onSignal('SIGINT'));
   process.on('SIGTERM', onSignal('SIGTERM'));
 
-  let sessionStart = performance.now() - meta.elapsedMs;
-  let lastCheckpoint = meta.elapsedMs;
-  let lastEval = meta.heldout === null ? -Infinity : meta.elapsedMs;
-  let windowLoss = 0;
-  let windowSteps = 0;
-  let windowTokens = 0;
-  let windowStart = performance.now();
-  let lastReport = performance.now();
-
-  while (!args.finish) {
-    const elapsed = performance.now() - sessionStart;
-    const fraction = elapsed / budgetMs;
-    if (fraction >= 1 || stop !== null) break;
-
-    // 1. learning rate and phase
-    const lr = learningRateAt(s, fraction);
-    const T = phaseLength(s, fraction);
-    if (T !== meta.phaseLength) {
-      log(`phase: T ${meta.phaseLength} → ${T}`);
-      meta.phaseLength = T;
-      meta.dataPosition = { epoch: 0, index: 0 };
+  // 2. each phase through the core loop, the optimizer's moments carried from one to the next
+  let lastTrainer: Trainer | null = null;
+  for (const phase of phasesOf(s)) {
+    if (args.finish) break;
+    if (phase.phase === 'main' && meta.phase === 'long') continue;
+    if ((meta.run.trainingMs ?? 0) >= phase.untilMs && meta.phase === phase.phase) {
+      // this phase's budget was spent before the last save: the next one starts from its end
+      continue;
     }
-    const { train } = phases.at(T);
-    const rows = Math.max(1, Math.round(s.tokensPerUpdate / T));
-
-    // 2. evaluate / checkpoint when due (time-based, training time only)
-    if (elapsed - lastEval >= s.evalMinutes * 60_000) {
-      const t0 = performance.now();
-      evaluate(T, Math.ceil((s.evalRows * s.maxLen) / T));
-      lastEval = elapsed;
-      sessionStart += performance.now() - t0; // evaluation time is not training time
+    const { train } = phases.at(phase.T);
+    const sequences = Array.from({ length: train.count }, (_, r) => packedExample(train, r));
+    const cfg = phaseConfig(s, phase.T);
+    const plan = planTraining(cfg, sequences.length);
+    const trainer = new Trainer(params, config, cfg, plan);
+    const continuing = meta.phase === phase.phase && meta.run.totalUpdates === plan.totalUpdates;
+    if (meta.phase !== phase.phase) {
+      log(`phase: T ${meta.phase === 'main' ? s.maxLen : s.longLen} → ${phase.T}`);
+      meta.updatesBefore = meta.step;
+      meta.phase = phase.phase;
     }
-    if (elapsed - lastCheckpoint >= s.checkpointMinutes * 60_000) {
-      meta.elapsedMs = performance.now() - sessionStart;
-      const t0 = performance.now();
-      await save('interval');
-      lastCheckpoint = meta.elapsedMs;
-      sessionStart += performance.now() - t0;
+    const resume = continuing && meta.run.trainer.update > 0 ? meta.run : undefined;
+    if (optimizer !== null) trainer.restore({ update: resume?.trainer.update ?? 0, seed: s.seed }, optimizer);
+    let windowLoss = 0;
+    let windowSteps = 0;
+    let windowTokens = 0;
+    let windowStart = performance.now();
+    const outcome = await trainLoop(
+      trainer,
+      { kind: 'mlm', sequences, masking },
+      {
+        evaluate: () => evaluateWith(trainer, phase.T, Math.ceil((s.evalRows * s.maxLen) / phase.T)),
+        saveCheckpoint: save,
+        signal: abort.signal,
+        yieldToEvents: () => new Promise<void>((r) => setImmediate(r)), // lets a signal be seen
+        onEvent: (event) => {
+          if (event.type !== 'progress') return;
+          meta.tokensSeen += event.tokens;
+          meta.metrics = { ...meta.metrics, loss: event.loss };
+          windowLoss += event.loss;
+          windowSteps++;
+          windowTokens += event.tokens;
+          const now = performance.now();
+          if (now - windowStart < 30_000) return;
+          const tps = (windowTokens * 1000) / (now - windowStart);
+          log(
+            `update ${meta.updatesBefore + event.update} T ${phase.T} loss ${(windowLoss / windowSteps).toFixed(4)} lr ${event.lr.toExponential(2)} ` +
+              `|g| ${event.gradNorm.toFixed(2)} ${tps.toFixed(0)} tok/s; ${(meta.tokensSeen / 1e6).toFixed(2)} M tokens; ` +
+              `${((event.trainingMs ?? 0) / 60000).toFixed(1)}/${s.minutes} min; epoch ${event.epoch}; tensors ${tf.memory().numTensors}`,
+          );
+          meta.metrics = { ...meta.metrics, tokensPerSecond: tps };
+          windowLoss = 0;
+          windowSteps = 0;
+          windowTokens = 0;
+          windowStart = now;
+        },
+      },
+      resume,
+      {
+        ...budget,
+        fromMs: phase.fromMs,
+        untilMs: phase.untilMs,
+        evalEveryMs: s.evalMinutes * 60_000,
+        checkpointEveryMs: s.checkpointMinutes * 60_000,
+      },
+    );
+    optimizer = trainer.optimizerState();
+    if (outcome.status === 'stopped') {
+      trainer.dispose();
+      params.dispose();
+      return null;
     }
-
-    // 3. the update's rows, in this epoch's seeded order; masks and dropout from (seed, step)
-    const order = shuffledOrderCached(train.count, seedAt(s.seed, 'shuffle', T, meta.dataPosition.epoch));
-    const picked: number[] = [];
-    let { epoch, index } = meta.dataPosition;
-    let tokens = 0;
-    while (picked.length < rows) {
-      if (index >= train.count) {
-        epoch++;
-        index = 0;
-        continue;
-      }
-      const r =
-        epoch === meta.dataPosition.epoch ? order[index]! : shuffledOrderCached(train.count, seedAt(s.seed, 'shuffle', T, epoch))[index]!;
-      picked.push(r);
-      tokens += train.lengths[r]!;
-      index++;
-    }
-    const batch = maskedBatch(train, picked, masking, seedAt(s.seed, 'mlm', meta.step));
-    const result = trainer.step(batch, lr, seedAt(s.seed, 'dropout', meta.step));
-    meta.dataPosition = { epoch, index };
-    meta.step++;
-    meta.tokensSeen += tokens;
-    meta.metrics = { ...meta.metrics, loss: result.loss };
-    windowLoss += result.loss;
-    windowSteps++;
-    windowTokens += tokens;
-
-    // 4. report
-    const now = performance.now();
-    if (now - lastReport >= 30_000) {
-      const tps = (windowTokens * 1000) / (now - windowStart);
-      log(
-        `step ${meta.step} T ${T} loss ${(windowLoss / windowSteps).toFixed(4)} lr ${lr.toExponential(2)} ` +
-          `|g| ${result.gradNorm.toFixed(2)} ${tps.toFixed(0)} tok/s; ${(meta.tokensSeen / 1e6).toFixed(2)} M tokens; ` +
-          `${((now - sessionStart) / 60000).toFixed(1)}/${s.minutes} min; epoch ${epoch}; tensors ${tf.memory().numTensors}`,
-      );
-      meta.metrics = { ...meta.metrics, tokensPerSecond: tps };
-      windowLoss = 0;
-      windowSteps = 0;
-      windowTokens = 0;
-      windowStart = now;
-      lastReport = now;
-    }
-    await new Promise<void>((r) => setImmediate(r)); // lets a signal be seen
+    meta.run = outcome.state;
+    meta.step = meta.updatesBefore + outcome.state.trainer.update;
+    lastTrainer?.dispose();
+    lastTrainer = trainer;
   }
 
-  meta.elapsedMs = performance.now() - sessionStart;
-  if (stop !== null) {
-    await save(`stopped by ${stop}`);
-    trainer.dispose();
-    params.dispose();
-    return null;
-  }
-  // the budget is spent (or --finish): a full held-out evaluation at both lengths, then the last checkpoint
-  evaluate(s.maxLen, Number.MAX_SAFE_INTEGER);
+  // 3. the budget is spent (or --finish): a full held-out evaluation at both lengths
+  const finalTrainer = lastTrainer ?? new Trainer(params, config, phaseConfig(s, s.maxLen), planTraining(phaseConfig(s, s.maxLen), 1));
+  evaluateWith(finalTrainer, s.maxLen, Number.MAX_SAFE_INTEGER);
   const short = meta.heldout!;
-  evaluate(s.longLen, Number.MAX_SAFE_INTEGER);
+  evaluateWith(finalTrainer, s.longLen, Number.MAX_SAFE_INTEGER);
   meta.metrics = { ...meta.metrics, heldoutLossShort: short.loss, heldoutAccuracyShort: short.accuracy };
-  // --finish only reads the store: a run still going keeps its own checkpoints
-  if (!args.finish) await save('end of budget');
-  trainer.dispose();
+  finalTrainer.dispose();
   return { meta, params, config };
-}
-
-let orderCache: { count: number; seed: number; order: Uint32Array } | null = null;
-function shuffledOrderCached(count: number, seed: number): Uint32Array {
-  if (orderCache === null || orderCache.count !== count || orderCache.seed !== seed)
-    orderCache = { count, seed, order: shuffledOrder(count, seed) };
-  return orderCache.order;
 }
 
 // ---- stage 5: the shipped folder ---------------------------------------------------
@@ -667,7 +709,7 @@ async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, par
     preset: s.preset,
     steps: meta.step,
     tokensSeen: meta.tokensSeen,
-    trainingMinutes: meta.elapsedMs / 60000,
+    trainingMinutes: (meta.run.trainingMs ?? 0) / 60000,
     heldout: meta.heldout,
     metrics: meta.metrics,
     initFrom: meta.initFrom ?? null,
@@ -680,7 +722,7 @@ async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, par
     params: paramCount(config),
     steps: meta.step,
     tokensSeen: meta.tokensSeen,
-    trainingMinutes: meta.elapsedMs / 60000,
+    trainingMinutes: (meta.run.trainingMs ?? 0) / 60000,
     heldout: meta.heldout,
     heldoutShort:
       meta.metrics.heldoutLossShort === undefined
