@@ -3,9 +3,12 @@
 // decodeCheckpoint (the byte layout both stores share), sha256Hex, choosePrunable,
 // newCheckpointId.
 //
-// A checkpoint is stored as ONE blob: a safetensors file (src/io/safetensors.ts) whose
-// tensors are the weights and optimizer moments, all F32, and whose `__metadata__` holds
-// the meta as JSON under the key "spanwright.checkpoint". Beside the blob each store keeps
+// A checkpoint is {meta, weights, optimizer: {m, v, step} | null}. It is stored as ONE
+// blob: a safetensors file (src/io/safetensors.ts), all F32, whose tensors are the
+// weights under their own names and the moments under `adam.m.<name>` / `adam.v.<name>`
+// (the only place that prefix exists: encodeCheckpoint and decodeCheckpoint), and whose
+// `__metadata__` holds the meta as JSON under "spanwright.checkpoint" and the moments'
+// step counts under "spanwright.optimizer-step". Beside the blob each store keeps
 // a small summary (id, meta, byte size, SHA-256 of the blob) for listing without reading
 // tensors. On load the blob's SHA-256 is recomputed and must equal the summary's; the
 // meta is then read from the blob itself, so a damaged summary cannot mislead a resume.
@@ -13,16 +16,20 @@
 import { SafetensorsError, namedToSafetensors, readSafetensors } from './safetensors.js';
 import type { NamedTensors } from './tensors.js';
 
+/** An optimizer's state, keyed by parameter name (AdamW's, src/train/adamw.ts). */
+export interface OptimizerState {
+  /** first moments */
+  m: NamedTensors;
+  /** second moments */
+  v: NamedTensors;
+  /** updates each parameter has had */
+  step: Record<string, number>;
+}
+
 /** Where the training loop was, in plain data. The trainer may extend it (see Checkpoint<M>). */
 export interface CheckpointMeta {
-  /** optimizer updates completed */
+  /** optimizer updates completed (a trainer's own run state, in its meta, says where its data and schedule stand) */
   step: number;
-  /** the learning-rate schedule's position k (usually equal to `step`) */
-  schedulePosition: number;
-  /** the random generator's state (a number for Rng; any JSON-able value) */
-  rngState: unknown;
-  /** where the data order stands: epoch and the index of the next example within it */
-  dataPosition: { epoch: number; index: number };
   /** the run's settings as plain data (TrainConfig, ReaderConfig, …) */
   runConfig: object;
   /** hash of the training data (src/data hashing), to refuse a resume on other data */
@@ -35,11 +42,17 @@ export interface CheckpointMeta {
   label?: string;
 }
 
-/** What a store saves: plain-data meta and named tensors (weights, `adam.m.*`, `adam.v.*`). */
+/** What a store saves: plain-data meta, the weights, and the optimizer's state (null when none is kept). */
 export interface Checkpoint<M extends CheckpointMeta = CheckpointMeta> {
   meta: M;
-  tensors: NamedTensors;
+  weights: NamedTensors;
+  optimizer: OptimizerState | null;
 }
+
+const M_PREFIX = 'adam.m.';
+const V_PREFIX = 'adam.v.';
+/** The metadata key of the moments' step counts. */
+export const OPTIMIZER_STEP_KEY = 'spanwright.optimizer-step';
 
 /** A listed checkpoint: enough to choose one without reading its tensors. */
 export interface CheckpointSummary<M extends CheckpointMeta = CheckpointMeta> {
@@ -49,7 +62,7 @@ export interface CheckpointSummary<M extends CheckpointMeta = CheckpointMeta> {
   bytes: number;
   /** SHA-256 of the blob, lowercase hex */
   sha256: string;
-  /** number of tensors in the blob */
+  /** number of tensors in the blob (weights and moments) */
   tensorCount: number;
 }
 
@@ -129,13 +142,24 @@ export async function encodeCheckpoint<M extends CheckpointMeta>(
   } catch (err) {
     throw new CheckpointError(id, `meta is not plain data (${(err as Error).message})`);
   }
-  const blob = namedToSafetensors(ckpt.tensors, { dtype: 'F32', metadata: { [META_KEY]: json } });
+  const tensors: NamedTensors = new Map(ckpt.weights);
+  for (const name of ckpt.weights.keys()) {
+    if (name.startsWith(M_PREFIX) || name.startsWith(V_PREFIX))
+      throw new CheckpointError(id, `weight "${name}": names starting with "adam." are kept for the optimizer's moments`);
+  }
+  const metadata: Record<string, string> = { [META_KEY]: json };
+  if (ckpt.optimizer !== null) {
+    for (const [name, t] of ckpt.optimizer.m) tensors.set(M_PREFIX + name, t);
+    for (const [name, t] of ckpt.optimizer.v) tensors.set(V_PREFIX + name, t);
+    metadata[OPTIMIZER_STEP_KEY] = JSON.stringify(ckpt.optimizer.step);
+  }
+  const blob = namedToSafetensors(tensors, { dtype: 'F32', metadata });
   const summary: CheckpointSummary<M> = {
     id,
     meta: JSON.parse(json) as M,
     bytes: blob.length,
     sha256: await sha256Hex(blob),
-    tensorCount: ckpt.tensors.size,
+    tensorCount: tensors.size,
   };
   return { blob, summary };
 }
@@ -168,7 +192,41 @@ export async function decodeCheckpoint<M extends CheckpointMeta>(
   } catch (err) {
     throw new CheckpointError(id, `the stored meta is not valid JSON (${(err as Error).message})`);
   }
-  return { meta, tensors: read.tensors };
+  return { meta, ...splitTensors(id, read.tensors, read.metadata[OPTIMIZER_STEP_KEY], meta) };
+}
+
+/**
+ * The blob's tensors → weights and moments. Checkpoints saved before the moments' step
+ * counts moved into the blob's metadata carried them in the meta (`optimizerSteps` of a
+ * fine-tuning run, `adamSteps` of the base recipe); those are read too.
+ */
+function splitTensors(
+  id: string,
+  tensors: NamedTensors,
+  stepJson: string | undefined,
+  meta: CheckpointMeta,
+): { weights: NamedTensors; optimizer: OptimizerState | null } {
+  const weights: NamedTensors = new Map();
+  const m: NamedTensors = new Map();
+  const v: NamedTensors = new Map();
+  for (const [name, t] of tensors) {
+    if (name.startsWith(M_PREFIX)) m.set(name.slice(M_PREFIX.length), t);
+    else if (name.startsWith(V_PREFIX)) v.set(name.slice(V_PREFIX.length), t);
+    else weights.set(name, t);
+  }
+  if (m.size === 0 && v.size === 0) return { weights, optimizer: null };
+  let step: unknown;
+  const legacy = meta as { optimizerSteps?: unknown; adamSteps?: unknown };
+  if (stepJson !== undefined) {
+    try {
+      step = JSON.parse(stepJson);
+    } catch (err) {
+      throw new CheckpointError(id, `the stored "${OPTIMIZER_STEP_KEY}" is not valid JSON (${(err as Error).message})`);
+    }
+  } else step = legacy.optimizerSteps ?? legacy.adamSteps;
+  if (step === null || typeof step !== 'object')
+    throw new CheckpointError(id, "the optimizer's moments are stored without their step counts");
+  return { weights, optimizer: { m, v, step: step as Record<string, number> } };
 }
 
 function checkMeta(id: string, meta: CheckpointMeta): void {
@@ -179,10 +237,6 @@ function checkMeta(id: string, meta: CheckpointMeta): void {
     if (typeof v !== 'number' || !Number.isSafeInteger(v) || v < 0) fail(field, `must be a non-negative integer, got ${JSON.stringify(v)}`);
   };
   nonNegativeInteger('step', meta.step);
-  nonNegativeInteger('schedulePosition', meta.schedulePosition);
-  if (meta.dataPosition === null || typeof meta.dataPosition !== 'object') fail('dataPosition', 'must be {epoch, index}');
-  nonNegativeInteger('dataPosition.epoch', meta.dataPosition.epoch);
-  nonNegativeInteger('dataPosition.index', meta.dataPosition.index);
   if (typeof meta.datasetHash !== 'string') fail('datasetHash', 'must be a string');
   if (meta.runConfig === null || typeof meta.runConfig !== 'object') fail('runConfig', 'must be an object');
   if (meta.metrics === null || typeof meta.metrics !== 'object') fail('metrics', 'must be an object');

@@ -43,8 +43,6 @@ export interface ExportReport {
   files: Array<{ name: string; bytes: number }>;
   /** per-tensor int8 errors, when int8 was requested */
   int8?: Int8TensorReport[];
-  /** tensors left out of the export (optimizer moments) */
-  skipped: string[];
 }
 
 const CARD_FILE = 'MODEL_CARD.md';
@@ -59,18 +57,9 @@ const DESCRIPTIONS: Record<string, string> = {
   'model.int8.onnx': 'the forward graph, ONNX opset 17, int8 weights with DequantizeLinear',
 };
 
-/** Optimizer state and other non-weight tensors never leave in an export. */
-function isWeight(name: string): boolean {
-  return !name.startsWith('adam.');
-}
-
 export function exportModel(req: ExportRequest): { files: ExportFile[]; report: ExportReport } {
-  const weights: NamedTensors = new Map();
-  const skipped: string[] = [];
-  for (const [name, t] of req.tensors) {
-    if (isWeight(name)) weights.set(name, t);
-    else skipped.push(name);
-  }
+  // weights only: a checkpoint keeps the optimizer's state apart (src/io/checkpoint-store.ts), so none reaches here
+  const weights: NamedTensors = req.tensors;
   const encoder = new TextEncoder();
   const files: ExportFile[] = [];
   files.push({ name: 'config.json', bytes: encoder.encode(`${JSON.stringify(configToHf(req.config), null, 2)}\n`) });
@@ -109,7 +98,6 @@ export function exportModel(req: ExportRequest): { files: ExportFile[]; report: 
     report: {
       files: files.map((f) => ({ name: f.name, bytes: f.bytes.length })),
       int8: quantized?.report,
-      skipped,
     },
   };
 }

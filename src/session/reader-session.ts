@@ -34,7 +34,7 @@ import { combineScores } from '../retrieve/combine.js';
 import { FeatureBuilder } from '../text/features.js';
 import type { WordPieceTokenizer } from '../text/wordpiece.js';
 import type { TrainConfig } from '../train/config.js';
-import { fineTune, weightsOf, type RunMeta, type RunStage } from '../train/finetune.js';
+import { fineTune, type RunMeta, type RunStage } from '../train/finetune.js';
 import type { LoopEvent } from '../train/loop.js';
 import type {
   AnswerView,
@@ -608,7 +608,7 @@ export class ReaderSession {
     const b = this.base;
     const ckpt = await this.needStore().load(id);
     const config = ckpt.meta.runConfig?.model ?? b.config;
-    const { params } = ReaderParams.fromNamed(config, weightsOf(ckpt.tensors), { source: `checkpoint ${id}` });
+    const { params } = ReaderParams.fromNamed(config, ckpt.weights, { source: `checkpoint ${id}` });
     return { reader: { name: `checkpoint ${checkpointLabel(ckpt.meta)}`, config, params, tokenizer: b.tokenizer }, meta: ckpt.meta };
   }
 

@@ -16,7 +16,7 @@
 // and each parameter counts its own steps.
 
 import * as tf from '@tensorflow/tfjs';
-import type { NamedTensors } from '../io/tensors.js';
+import type { OptimizerState } from '../io/checkpoint-store.js';
 import { adamwUpdate } from '../kernels/adamw-update.js';
 
 export interface AdamWOptions {
@@ -42,15 +42,12 @@ export function decaysWeight(name: string): boolean {
   return !(name.endsWith('.bias') || name.includes('LayerNorm'));
 }
 
-/** The optimizer's state as plain data: `adam.m.<name>`, `adam.v.<name>`, and step counts. */
-export interface AdamWState {
-  /** parameter name → how many updates it has had (torch's per-parameter `state['step']`) */
-  steps: Record<string, number>;
-  tensors: NamedTensors;
-}
-
-const M_PREFIX = 'adam.m.';
-const V_PREFIX = 'adam.v.';
+/**
+ * The optimizer's state as plain data, every part keyed by parameter name: first and
+ * second moments and how many updates each parameter has had (torch's per-parameter
+ * `state['step']`) — the checkpoint's optimizer part (src/io/checkpoint-store.ts).
+ */
+export type AdamWState = OptimizerState;
 
 interface Slot {
   m: tf.Variable;
@@ -121,16 +118,13 @@ export class AdamW {
   /** A copy of the moments and step counts, in the shape of each parameter's variable. */
   exportState(): AdamWState {
     this.assertLive();
-    const steps: Record<string, number> = {};
-    const tensors: NamedTensors = new Map();
+    const state: AdamWState = { m: new Map(), v: new Map(), step: {} };
     for (const [name, slot] of this.slots) {
-      steps[name] = slot.step;
-      tensors.set(M_PREFIX + name, { shape: [...slot.m.shape], data: Float32Array.from(slot.m.dataSync()) });
+      state.step[name] = slot.step;
+      state.m.set(name, { shape: [...slot.m.shape], data: Float32Array.from(slot.m.dataSync()) });
+      state.v.set(name, { shape: [...slot.v.shape], data: Float32Array.from(slot.v.dataSync()) });
     }
-    for (const [name, slot] of this.slots) {
-      tensors.set(V_PREFIX + name, { shape: [...slot.v.shape], data: Float32Array.from(slot.v.dataSync()) });
-    }
-    return { steps, tensors };
+    return state;
   }
 
   /**
@@ -141,30 +135,31 @@ export class AdamW {
   importState(state: AdamWState): void {
     this.assertLive();
     for (const [name, slot] of this.slots) {
-      const step = state.steps[name];
+      const step = state.step[name];
       if (typeof step !== 'number' || !Number.isInteger(step) || step < 0) {
-        throw new Error(`AdamW.importState: steps["${name}"] must be a whole number ≥ 0, got ${String(step)}`);
+        throw new Error(`AdamW.importState: step["${name}"] must be a whole number ≥ 0, got ${String(step)}`);
       }
-      for (const key of [M_PREFIX + name, V_PREFIX + name]) {
-        const tensor = state.tensors.get(key);
-        if (tensor === undefined) throw new Error(`AdamW.importState: tensor "${key}" is missing`);
+      for (const part of ['m', 'v'] as const) {
+        const key = `${part}["${name}"]`;
+        const tensor = state[part].get(name);
+        if (tensor === undefined) throw new Error(`AdamW.importState: ${key} is missing`);
         const want = slot.m.shape;
         if (tensor.shape.length !== want.length || tensor.shape.some((d, i) => d !== want[i])) {
-          throw new Error(`AdamW.importState: tensor "${key}" has shape [${tensor.shape}], expected [${want}]`);
+          throw new Error(`AdamW.importState: ${key} has shape [${tensor.shape}], expected [${want}]`);
         }
         if (tensor.data.length !== slot.m.size) {
-          throw new Error(`AdamW.importState: tensor "${key}" holds ${tensor.data.length} values, expected ${slot.m.size}`);
+          throw new Error(`AdamW.importState: ${key} holds ${tensor.data.length} values, expected ${slot.m.size}`);
         }
       }
     }
     for (const [name, slot] of this.slots) {
-      const m = state.tensors.get(M_PREFIX + name)!;
-      const v = state.tensors.get(V_PREFIX + name)!;
+      const m = state.m.get(name)!;
+      const v = state.v.get(name)!;
       tf.tidy(() => {
         slot.m.assign(tf.tensor(m.data, slot.m.shape, 'float32'));
         slot.v.assign(tf.tensor(v.data, slot.v.shape, 'float32'));
       });
-      slot.step = state.steps[name]!;
+      slot.step = state.step[name]!;
     }
   }
 

@@ -1,4 +1,4 @@
-// defines: fineTune, FineTuneRequest, RunMeta, RunStage, weightsOf — one training run of a
+// defines: fineTune, FineTuneRequest, RunMeta, RunStage — one training run of a
 // reader, with evaluation and checkpoints, shared by every stage the session runs
 // (fine-tuning on labelled questions, the practice stage, masked-LM on the user's
 // passages). The loop itself is loop.ts; this file wires its callbacks:
@@ -16,7 +16,6 @@ import { mulberry32 } from '../data/random.js';
 import type { QARecord } from '../data/record.js';
 import { evaluateRecords } from '../eval/evaluate.js';
 import type { Checkpoint, CheckpointMeta, CheckpointStore } from '../io/checkpoint-store.js';
-import type { NamedTensors } from '../io/tensors.js';
 import type { ReaderConfig } from '../model/config.js';
 import { ReaderParams } from '../model/params.js';
 import { FeatureBuilder, type FeatureTokenizer } from '../text/features.js';
@@ -29,9 +28,8 @@ import { Trainer } from './trainer.js';
 
 /** What a fine-tuning checkpoint carries beyond the store's common fields. */
 export interface RunMeta extends CheckpointMeta {
+  /** where the run stands: update count, data position, plan size (the one copy of each) */
   run: RunState;
-  /** AdamW's per-parameter step counts (the moments are tensors) */
-  optimizerSteps: Record<string, number>;
   runConfig: { train: TrainConfig; model: ReaderConfig; base: string };
   /** which stage saved it: fine-tuning on labelled questions (absent in older checkpoints), the practice stage, or masked-LM on the user's passages */
   stage?: RunStage;
@@ -83,16 +81,6 @@ export interface FineTuneResult {
   windows: number;
   /** the last evaluation's metrics, if any */
   metrics: Metrics | null;
-}
-
-/** Weights only: a checkpoint's tensors without the optimizer's moments. */
-export function weightsOf(tensors: NamedTensors): NamedTensors {
-  return new Map([...tensors].filter(([name]) => !name.startsWith('adam.')));
-}
-
-/** The optimizer's moments of a checkpoint's tensors (`adam.m.*`, `adam.v.*`). */
-export function momentsOf(tensors: NamedTensors): NamedTensors {
-  return new Map([...tensors].filter(([name]) => name.startsWith('adam.')));
 }
 
 export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
@@ -211,12 +199,10 @@ async function startRun(
         `checkpoint "${req.resumeFrom}" was trained on other data (dataset hash ${ckpt.meta.datasetHash}, now ${req.datasetHash})`,
       );
     }
-    params = ReaderParams.fromNamed(req.base.config, weightsOf(ckpt.tensors), { source: `checkpoint ${req.resumeFrom}` }).params;
+    if (ckpt.optimizer === null) throw new Error(`checkpoint "${req.resumeFrom}" holds no optimizer state to continue from`);
+    params = ReaderParams.fromNamed(req.base.config, ckpt.weights, { source: `checkpoint ${req.resumeFrom}` }).params;
     resume = ckpt.meta.run;
-    optimizer = {
-      steps: ckpt.meta.optimizerSteps,
-      tensors: new Map([...ckpt.tensors].filter(([name]) => name.startsWith('adam.'))),
-    };
+    optimizer = ckpt.optimizer;
   } else {
     params = ReaderParams.fromNamed(req.base.config, req.base.params.toNamed(), { seed: config.seed, source: req.base.name }).params;
   }
@@ -237,22 +223,16 @@ function checkpointSaver(req: FineTuneRequest): LoopHooks['saveCheckpoint'] {
   const store = req.store;
   return store
     ? async (request: Parameters<NonNullable<LoopHooks['saveCheckpoint']>>[0]) => {
-        const opt = request.optimizer();
-        const tensors: NamedTensors = new Map([...request.weights(), ...opt.tensors]);
         const meta: RunMeta = {
           step: request.state.trainer.update,
-          schedulePosition: request.state.trainer.update,
-          rngState: { seed: config.seed },
-          dataPosition: request.state.order,
           runConfig: { train: config, model: req.base.config, base: req.base.name },
           datasetHash: req.datasetHash,
           metrics: { ...(request.metrics ?? {}) },
           label: request.reason,
           run: request.state,
-          optimizerSteps: opt.steps,
           stage: req.stage ?? 'fine-tune',
         };
-        const ckpt: Checkpoint<RunMeta> = { meta, tensors };
+        const ckpt: Checkpoint<RunMeta> = { meta, weights: request.weights(), optimizer: request.optimizer() };
         const saved = await store.save(ckpt);
         req.onCheckpoint?.(saved.id);
         // 5. prune

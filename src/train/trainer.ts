@@ -231,13 +231,12 @@ export class Trainer {
   }
 
   /**
-   * The optimizer's moments as checkpoint tensors (`adam.m.<name>`, `adam.v.<name>`),
-   * in the checkpoint layout (Linear weights [out, in], like `ReaderParams.toNamed`),
-   * and its per-parameter step counts.
+   * The optimizer's moments in the checkpoint layout (Linear weights [out, in], like
+   * `ReaderParams.toNamed`), and its per-parameter step counts.
    */
   optimizerState(): AdamWState {
-    const { steps, tensors } = this.optimizer.exportState();
-    return { steps, tensors: swapLinearAxes(tensors, this.linear) };
+    const { m, v, step } = this.optimizer.exportState();
+    return { m: swapLinearAxes(m, this.linear), v: swapLinearAxes(v, this.linear), step };
   }
 
   /**
@@ -251,7 +250,11 @@ export class Trainer {
     if (!Number.isInteger(state.update) || state.update < 0 || state.update > this.plan.totalUpdates) {
       throw new Error(`Trainer.restore: saved update ${state.update} is outside this plan's 0…${this.plan.totalUpdates}`);
     }
-    this.optimizer.importState({ steps: optimizer.steps, tensors: swapLinearAxes(optimizer.tensors, this.linear) });
+    this.optimizer.importState({
+      m: swapLinearAxes(optimizer.m, this.linear),
+      v: swapLinearAxes(optimizer.v, this.linear),
+      step: optimizer.step,
+    });
     this.update = state.update;
   }
 
@@ -321,16 +324,15 @@ export class Trainer {
  */
 export function swapLinearAxes(tensors: NamedTensors, linear: ReadonlyMap<string, boolean>): NamedTensors {
   const out: NamedTensors = new Map();
-  for (const [key, tensor] of tensors) {
-    const name = key.replace(/^adam\.[mv]\./, '');
+  for (const [name, tensor] of tensors) {
     if (linear.get(name) !== true || tensor.shape.length !== 2) {
-      out.set(key, tensor);
+      out.set(name, tensor);
       continue;
     }
     const [rows, cols] = tensor.shape;
     const data = new Float32Array(rows * cols);
     for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) data[c * rows + r] = tensor.data[r * cols + c];
-    out.set(key, { shape: [cols, rows], data });
+    out.set(name, { shape: [cols, rows], data });
   }
   return out;
 }

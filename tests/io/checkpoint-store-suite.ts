@@ -13,22 +13,22 @@ export interface StoreHarness {
 }
 
 export function sampleCheckpoint(step: number, validationF1?: number): Checkpoint {
-  const tensors: NamedTensors = new Map([
+  const weights: NamedTensors = new Map([
     ['qa_outputs.weight', { shape: [2, 3], data: Float32Array.from([1, -2, 3.5, 0.25, -0.125, step]) }],
-    ['adam.m.qa_outputs.weight', { shape: [2, 3], data: new Float32Array(6).fill(step * 0.001) }],
-    ['adam.v.qa_outputs.weight', { shape: [2, 3], data: new Float32Array(6).fill(1e-8) }],
   ]);
+  const optimizer = {
+    m: new Map([['qa_outputs.weight', { shape: [2, 3], data: new Float32Array(6).fill(step * 0.001) }]]),
+    v: new Map([['qa_outputs.weight', { shape: [2, 3], data: new Float32Array(6).fill(1e-8) }]]),
+    step: { 'qa_outputs.weight': step },
+  };
   const meta: CheckpointMeta = {
     step,
-    schedulePosition: step,
-    rngState: 0x9e3779b9 ^ step,
-    dataPosition: { epoch: Math.floor(step / 10), index: step % 10 },
     runConfig: { learningRate: 5e-5, batchSize: 16, seed: 7 },
     datasetHash: 'sha256:0123abcd',
     metrics: validationF1 === undefined ? { loss: 1.5 } : { loss: 1.5, validationF1, validationEM: validationF1 - 5 },
     label: `step ${step}`,
   };
-  return { meta, tensors };
+  return { meta, weights, optimizer };
 }
 
 export function checkpointStoreSuite(name: string, makeHarness: () => Promise<StoreHarness>): void {
@@ -55,11 +55,17 @@ export function checkpointStoreSuite(name: string, makeHarness: () => Promise<St
         expect(listed[0]!.meta.metrics.validationF1).toBe(61.5);
         const back = await store.load(summary.id);
         expect(back.meta).toEqual({ ...ckpt.meta, savedAt: summary.meta.savedAt });
-        expect([...back.tensors.keys()]).toEqual([...ckpt.tensors.keys()]);
-        for (const [k, t] of ckpt.tensors) {
-          expect(back.tensors.get(k)!.shape).toEqual(t.shape);
-          expect(Array.from(back.tensors.get(k)!.data)).toEqual(Array.from(t.data));
-        }
+        const same = (a: NamedTensors, b: NamedTensors) => {
+          expect([...a.keys()]).toEqual([...b.keys()]);
+          for (const [k, t] of b) {
+            expect(a.get(k)!.shape).toEqual(t.shape);
+            expect(Array.from(a.get(k)!.data)).toEqual(Array.from(t.data));
+          }
+        };
+        same(back.weights, ckpt.weights);
+        same(back.optimizer!.m, ckpt.optimizer!.m);
+        same(back.optimizer!.v, ckpt.optimizer!.v);
+        expect(back.optimizer!.step).toEqual({ 'qa_outputs.weight': 12 });
       }),
     );
 

@@ -9,7 +9,8 @@ import { join } from 'node:path';
 import { deleteDB, openDB } from 'idb';
 import { afterEach, describe, expect, it } from 'vitest';
 import { FsCheckpointStore } from '../../src/cli/fs-store.js';
-import { CheckpointError, choosePrunable, decodeCheckpoint, encodeCheckpoint, sha256Hex } from '../../src/io/checkpoint-store.js';
+import { CheckpointError, choosePrunable, decodeCheckpoint, encodeCheckpoint, META_KEY, sha256Hex } from '../../src/io/checkpoint-store.js';
+import { namedToSafetensors } from '../../src/io/safetensors.js';
 import { IdbCheckpointStore } from '../../src/io/idb-store.js';
 import { checkpointStoreSuite, sampleCheckpoint } from './checkpoint-store-suite.js';
 
@@ -83,6 +84,51 @@ describe('SHA-256', () => {
     );
     expect(choosePrunable(summaries, { keepLast: 1, datasetHash: 'labelled' })).toEqual(['s2']);
     expect(choosePrunable(summaries, { keepLast: 1 })).toEqual(['s0', 's1', 's2']);
+  });
+});
+
+describe('the checkpoint layout', () => {
+  it('keeps weights and the optimizer apart: {weights, optimizer: {m, v, step}}', async () => {
+    const ckpt = sampleCheckpoint(4);
+    const { blob, summary } = await encodeCheckpoint('layout', ckpt);
+    const back = await decodeCheckpoint('layout', blob, summary.sha256);
+    expect([...back.weights.keys()]).toEqual(['qa_outputs.weight']);
+    expect([...back.optimizer!.m.keys()]).toEqual(['qa_outputs.weight']);
+    expect(back.optimizer!.step).toEqual({ 'qa_outputs.weight': 4 });
+    // no optimizer: a checkpoint of weights only
+    const bare = await encodeCheckpoint('bare', { ...ckpt, optimizer: null });
+    expect((await decodeCheckpoint('bare', bare.blob, bare.summary.sha256)).optimizer).toBeNull();
+    // a weight may not take the moments' names
+    const clash = { ...ckpt, weights: new Map([['adam.m.x', { shape: [1], data: new Float32Array(1) }]]) };
+    await expect(encodeCheckpoint('clash', clash)).rejects.toThrow(/"adam\.m\.x": names starting with "adam\." are kept/);
+  });
+
+  it('reads a checkpoint saved before the layout: moments by prefix, step counts in the meta', async () => {
+    // the earlier layout, written as the stores wrote it: one flat name map and meta.optimizerSteps
+    const meta = {
+      step: 2,
+      schedulePosition: 2,
+      dataPosition: { epoch: 0, index: 4 },
+      rngState: { seed: 1 },
+      runConfig: {},
+      datasetHash: 'h',
+      metrics: {},
+      optimizerSteps: { w: 2 },
+    };
+    const t = (x: number) => ({ shape: [1], data: Float32Array.of(x) });
+    const blob = namedToSafetensors(
+      new Map([
+        ['w', t(1)],
+        ['adam.m.w', t(0.1)],
+        ['adam.v.w', t(0.01)],
+      ]),
+      { dtype: 'F32', metadata: { [META_KEY]: JSON.stringify(meta) } },
+    );
+    const back = await decodeCheckpoint('old', blob, await sha256Hex(blob));
+    expect([...back.weights.keys()]).toEqual(['w']);
+    expect(back.optimizer!.m.get('w')!.data[0]).toBeCloseTo(0.1, 7);
+    expect(back.optimizer!.v.get('w')!.data[0]).toBeCloseTo(0.01, 7);
+    expect(back.optimizer!.step).toEqual({ w: 2 });
   });
 });
 

@@ -18,7 +18,7 @@ import { ReaderParams } from '../../src/model/params.js';
 import { nestedShares, passagesOf, ReaderSession } from '../../src/session/reader-session.js';
 import { practiceTrainSettings, resolveWindows } from '../../src/session/windows.js';
 import { trainConfig } from '../../src/train/config.js';
-import { weightsOf, type RunMeta } from '../../src/train/finetune.js';
+import type { RunMeta } from '../../src/train/finetune.js';
 import { useBackend } from '../helpers/backend.js';
 
 const require = createRequire(import.meta.url);
@@ -224,7 +224,7 @@ describe('exporting a saved checkpoint', () => {
     const { files, notes } = await session.exportCheckpoint({ id: first.id, fp16: false, int8: false, onnx: false, card: {} });
     expect(session.reader('tuned')).toBe(inUse);
     const exported = readSafetensors(files.find((f) => f.name === 'model.safetensors')!.bytes, 'export').tensors;
-    const saved = weightsOf((await store.load(first.id)).tensors);
+    const saved = (await store.load(first.id)).weights;
     const last = inUse.params.toNamed();
     for (const name of ['qa_outputs.weight', 'bert.encoder.layer.0.attention.self.query.weight']) {
       expect(exported.get(name)!.data, name).toEqual(saved.get(name)!.data);

@@ -71,9 +71,9 @@ describe('AdamW update', () => {
     expect(read(w)[0]).toBeCloseTo(0.9474458403, 6);
     expect(opt.stepOf('w')).toBe(3);
 
-    const { tensors } = opt.exportState();
-    expect(tensors.get('adam.m.w')!.data[0]).toBeCloseTo(-0.0245, 7);
-    expect(tensors.get('adam.v.w')!.data[0]).toBeCloseTo(0.00131100025, 9);
+    const { m, v } = opt.exportState();
+    expect(m.get('w')!.data[0]).toBeCloseTo(-0.0245, 7);
+    expect(v.get('w')!.data[0]).toBeCloseTo(0.00131100025, 9);
   });
 
   it('under a constant gradient moves every step by lr·g/(|g| + ε), decayed geometrically', () => {
@@ -107,7 +107,7 @@ describe('AdamW update', () => {
     owned.push(opt);
     applyOnce(opt, { b: [4] }, 0.1, 0.25);
     expect(read(params.get('b')!)[0]).toBeCloseTo(1 - 0.1 / 1.000001, 7);
-    expect(opt.exportState().tensors.get('adam.v.b')!.data[0]).toBeCloseTo(0.001, 9); // (1 − β2)·1²
+    expect(opt.exportState().v.get('b')!.data[0]).toBeCloseTo(0.001, 9); // (1 − β2)·1²
   });
 
   it('skips a parameter without a gradient entirely, as torch skips grad None', () => {
@@ -159,8 +159,9 @@ describe('AdamW state export/import', () => {
     for (const g of grads.slice(0, 2)) applyOnce(optB, { 'x.weight': g }, 0.05);
     const saved = optB.exportState();
     const weights = read(resumed.get('x.weight')!);
-    expect([...saved.tensors.keys()]).toEqual(['adam.m.x.weight', 'adam.v.x.weight']);
-    expect(saved.steps).toEqual({ 'x.weight': 2 });
+    expect([...saved.m.keys()]).toEqual(['x.weight']);
+    expect([...saved.v.keys()]).toEqual(['x.weight']);
+    expect(saved.step).toEqual({ 'x.weight': 2 });
 
     const again = variables({ 'x.weight': weights });
     const optC = new AdamW(again, { weightDecay: 0.01 });
@@ -175,12 +176,11 @@ describe('AdamW state export/import', () => {
     const opt = new AdamW(params);
     owned.push(opt);
     const good = opt.exportState();
-    const missing = { steps: good.steps, tensors: new Map([...good.tensors].filter(([k]) => k !== 'adam.v.w')) };
-    expect(() => opt.importState(missing)).toThrow(/"adam\.v\.w" is missing/);
-    const wrong = new Map(good.tensors);
-    wrong.set('adam.m.w', { shape: [3], data: new Float32Array(3) });
-    expect(() => opt.importState({ steps: good.steps, tensors: wrong })).toThrow(/"adam\.m\.w" has shape \[3\], expected \[2\]/);
-    expect(() => opt.importState({ steps: {}, tensors: good.tensors })).toThrow(/steps\["w"\]/);
+    expect(() => opt.importState({ ...good, v: new Map() })).toThrow(/v\["w"\] is missing/);
+    const wrong = new Map(good.m);
+    wrong.set('w', { shape: [3], data: new Float32Array(3) });
+    expect(() => opt.importState({ ...good, m: wrong })).toThrow(/m\["w"\] has shape \[3\], expected \[2\]/);
+    expect(() => opt.importState({ ...good, step: {} })).toThrow(/step\["w"\]/);
     expect(opt.stepOf('w')).toBe(0);
   });
 });

@@ -45,7 +45,6 @@ import { ReaderParams } from '../../src/model/params.js';
 import type { AdamWState } from '../../src/train/adamw.js';
 import type { MlmBatch, MlmMasking } from '../../src/train/batches.js';
 import { trainConfig, type TrainConfig } from '../../src/train/config.js';
-import { momentsOf, weightsOf } from '../../src/train/finetune.js';
 import { trainLoop, type CheckpointRequest, type RunState } from '../../src/train/loop.js';
 import { maskedBatch, packDocuments, packedExample, type DocumentTokens, type PackedSequences } from '../../src/train/mlm-data.js';
 import { seedAt } from '../../src/train/random.js';
@@ -346,8 +345,6 @@ interface PretrainMeta extends CheckpointMeta {
   updatesBefore: number;
   /** real tokens (padding excluded) fed to the encoder so far, all phases */
   tokensSeen: number;
-  /** AdamW's per-parameter step counts */
-  optimizerSteps: Record<string, number>;
   /** the latest held-out measurement */
   heldout: { loss: number; accuracy: number; predicted: number; atStep: number } | null;
   /** the earlier run this one continued from (--init), as its pretraining.json tells */
@@ -511,8 +508,8 @@ async function pretrain(args: Args, data: Prepared): Promise<Pretrained | null> 
     meta.settings = s;
     if (overridden.length > 0) log(`resume: keeping the saved ${overridden.join(', ')} (a run's settings cannot change midway)`);
     const config = modelConfig(s, data.vocab.length);
-    params = ReaderParams.fromNamed(config, weightsOf(ckpt.tensors), { source: saved.id }).params;
-    optimizer = { steps: meta.optimizerSteps, tensors: momentsOf(ckpt.tensors) };
+    params = ReaderParams.fromNamed(config, ckpt.weights, { source: saved.id }).params;
+    optimizer = ckpt.optimizer;
     log(
       `resume: ${saved.id} — update ${meta.step}, ${((meta.run.trainingMs ?? 0) / 60000).toFixed(1)} of ${s.minutes} min, ` +
         `${meta.tokensSeen} tokens seen`,
@@ -532,9 +529,6 @@ async function pretrain(args: Args, data: Prepared): Promise<Pretrained | null> 
     }
     meta = {
       step: 0,
-      schedulePosition: 0,
-      rngState: { seed: s.seed },
-      dataPosition: { epoch: 0, index: 0 },
       runConfig: { model: config },
       datasetHash: data.manifest.datasetHash,
       metrics: {},
@@ -543,7 +537,6 @@ async function pretrain(args: Args, data: Prepared): Promise<Pretrained | null> 
       run: { trainer: { update: 0, seed: s.seed }, order: { epoch: 0, index: 0 }, totalUpdates: 0, features: 0, trainingMs: 0 },
       updatesBefore: 0,
       tokensSeen: 0,
-      optimizerSteps: {},
       heldout: null,
       initFrom,
     };
@@ -575,16 +568,13 @@ async function pretrain(args: Args, data: Prepared): Promise<Pretrained | null> 
     return { heldoutLoss: result.loss, heldoutAccuracy: result.accuracy };
   };
   const save = async (request: CheckpointRequest): Promise<string> => {
-    const moments = request.optimizer();
     meta.run = request.state;
     meta.step = meta.updatesBefore + request.state.trainer.update;
-    meta.schedulePosition = meta.step;
-    meta.dataPosition = request.state.order;
-    meta.optimizerSteps = moments.steps;
     meta.label = request.reason === 'interval' ? 'interval' : request.reason === 'stop' ? 'stopped' : `end of ${meta.phase} phase`;
     const summary = await store.save({
       meta: { ...meta, savedAt: undefined },
-      tensors: new Map([...request.weights(), ...moments.tensors]),
+      weights: request.weights(),
+      optimizer: request.optimizer(),
     });
     await store.prune({ keepLast: 2 });
     log(`checkpoint: ${summary.id} (${meta.label}, ${(summary.bytes / 1e6).toFixed(1)} MB)`);
