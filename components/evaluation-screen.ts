@@ -3,7 +3,9 @@
 // no-answer threshold that maximises F1, the base reader beside the fine-tuned one, and
 // a per-question table (filterable to the misses) whose rows open onto the passage with
 // the gold answer and the prediction marked; below them, a learning curve on request
-// (<learning-curve>: F1 and EM against the number of training questions).
+// (<learning-curve>: F1 and EM against the number of training questions). Scoring shows
+// its progress ("question 40 of 82") and can be cancelled; the warnings under the table
+// say which of its rows they compare.
 // Events out: evaluated {result} for each reader scored.
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
@@ -64,6 +66,10 @@ export class EvaluationScreen extends LitElement {
   @property({ attribute: false }) results: { base?: EvaluationResult; tuned?: EvaluationResult } = {};
 
   @state() private busy = '';
+  /** the evaluation in progress: which reader, how far, whether a cancel was asked */
+  @state() private progress: { evaluationId: string; reader: string; done: number; total: number; cancelling: boolean } | null = null;
+  @state() private cancelled = '';
+  private stopListening: (() => void) | null = null;
   @state() private error = '';
   @state() private shown: 'base' | 'tuned' = 'tuned';
   @state() private missesOnly = false;
@@ -81,9 +87,25 @@ export class EvaluationScreen extends LitElement {
           <button id="evaluate" class="primary" @click=${this._onEvaluate} ?disabled=${!can}>
             Evaluate the base${this.tunedName ? ' and the fine-tuned reader' : ' reader'}
           </button>
-          ${this.busy ? html`<span class="muted">${this.busy}</span>` : ''}
+          ${
+            this.progress
+              ? html`<button id="evaluate-cancel" @click=${this._onCancel} ?disabled=${this.progress.cancelling}>Cancel</button>`
+              : ''
+          }
           ${!this.tunedName ? html`<span class="muted">No fine-tuned reader yet: train one, or restore a checkpoint.</span>` : ''}
         </div>
+        ${
+          this.progress
+            ? html`<p id="evaluate-progress" role="status" data-done=${this.progress.done} data-total=${this.progress.total}>
+                ${this.progress.cancelling ? 'cancelling after the questions in hand… ' : ''}Scoring ${this.progress.reader}: question
+                ${this.progress.done} of ${this.progress.total}
+                <progress max=${Math.max(1, this.progress.total)} .value=${this.progress.done}></progress>
+              </p>`
+            : this.busy
+              ? html`<p class="muted">${this.busy}</p>`
+              : ''
+        }
+        ${this.cancelled ? html`<p class="note" role="status" id="evaluate-cancelled">${this.cancelled}</p>` : ''}
         ${this.error ? html`<p class="note bad" role="alert">${this.error}</p>` : ''}
       </section>
       ${base || tuned ? this.renderSummary(base, tuned) : ''}
@@ -121,21 +143,22 @@ export class EvaluationScreen extends LitElement {
           ${row('F1, unanswerable', (s) => s.unanswerable.f1)}
           <tr>
             <th>No-answer threshold (F1-best)</th>
-            ${cols.map((r) => html`<td class="num">${r?.tuned ? r.tuned.threshold.toFixed(3) : '–'}</td>`)}
+            ${cols.map((r) => html`<td class="num">${r?.bestCut ? r.bestCut.threshold.toFixed(3) : '–'}</td>`)}
           </tr>
           <tr>
             <th>F1 at that threshold</th>
-            ${cols.map((r) => html`<td class="num">${r?.tuned ? pct(r.tuned.summary.f1) : '–'}</td>`)}
+            ${cols.map((r) => html`<td class="num">${r?.bestCut ? pct(r.bestCut.summary.f1) : '–'}</td>`)}
           </tr>
           <tr>
             <th>EM at that threshold</th>
-            ${cols.map((r) => html`<td class="num">${r?.tuned ? pct(r.tuned.summary.em) : '–'}</td>`)}
+            ${cols.map((r) => html`<td class="num">${r?.bestCut ? pct(r.bestCut.summary.em) : '–'}</td>`)}
           </tr>
         </tbody>
       </table>
       ${
         tuned
-          ? readerWarnings(tuned.tuned?.summary ?? tuned.summary, base ? (base.tuned?.summary ?? base.summary) : null).map(
+          ? // the same numbers as the table's "F1, all" row (no-answer threshold 0), and the warning says so
+            readerWarnings(tuned.summary, base ? base.summary : null, null, 'the “F1, all” row').map(
               (w) => html`<p class="note warn reader-warning">${w.replace(/^warning: (.)/, (_, c: string) => c.toUpperCase())}</p>`,
             )
           : ''
@@ -205,22 +228,62 @@ export class EvaluationScreen extends LitElement {
   }
 
   private async _onEvaluate(): Promise<void> {
-    if (!this.engine || !this.settings) return;
+    const engine = this.engine;
+    if (!engine || !this.settings) return;
     const { maxLength, stride, maxQueryLength } = this.settings;
     this.error = '';
+    this.cancelled = '';
     const models: ModelChoice[] = this.tunedName ? ['base', 'tuned'] : ['base'];
+    this.busy = 'starting…';
     try {
       for (const model of models) {
-        this.busy = `scoring the ${model === 'base' ? 'base' : 'fine-tuned'} reader…`;
-        const result = await this.engine.call({ kind: 'evaluate', model, records: this.validation, maxLength, stride, maxQueryLength });
-        this.dispatchEvent(new CustomEvent('evaluated', { detail: { result }, bubbles: true, composed: true }));
+        const evaluationId = `evaluation-${Date.now().toString(36)}-${model}`;
+        const reader =
+          model === 'base' ? `the base reader${this.baseInfo ? ` ${this.baseInfo.name}` : ''}` : `the fine-tuned reader ${this.tunedName}`;
+        this.progress = { evaluationId, reader, done: 0, total: this.validation.length, cancelling: false };
+        this.stopListening?.();
+        this.stopListening = engine.onEvaluationProgress((id, done, total) => {
+          if (this.progress?.evaluationId === id) this.progress = { ...this.progress, done, total };
+        });
+        const ended = await engine.call({
+          kind: 'evaluate-in-steps',
+          evaluationId,
+          model,
+          records: this.validation,
+          maxLength,
+          stride,
+          maxQueryLength,
+        });
+        if (ended.status === 'cancelled') {
+          this.cancelled = `Cancelled after ${ended.done} of ${ended.total} questions of ${reader}; the scores shown are those of the last evaluation that finished.`;
+          return;
+        }
+        this.dispatchEvent(new CustomEvent('evaluated', { detail: { result: ended.result }, bubbles: true, composed: true }));
       }
       this.shown = this.tunedName ? 'tuned' : 'base';
     } catch (err) {
       this.error = (err as Error).message;
     } finally {
+      this.stopListening?.();
+      this.stopListening = null;
+      this.progress = null;
       this.busy = '';
     }
+  }
+
+  private _onCancel(): void {
+    const p = this.progress;
+    if (!p || !this.engine) return;
+    this.progress = { ...p, cancelling: true };
+    void this.engine.call({ kind: 'cancel-evaluation', evaluationId: p.evaluationId });
+  }
+
+  override disconnectedCallback(): void {
+    super.disconnectedCallback();
+    // scores nobody is waiting for any more
+    if (this.progress && this.engine) void this.engine.call({ kind: 'cancel-evaluation', evaluationId: this.progress.evaluationId });
+    this.stopListening?.();
+    this.stopListening = null;
   }
 }
 

@@ -1,7 +1,8 @@
 // defines: the `spanwright` command line. Each command lives in ./commands/<name>.ts and
 // exports `register(program)`; this file only wires them together.
-import { Command } from 'commander';
+import { Command, InvalidArgumentError } from 'commander';
 import { setDebug } from './common.js';
+import { setThreadsOption } from './kernel-threads.js';
 import { commands } from './commands/index.js';
 
 // `spanwright inspect … | head`: when the reader of our output goes away, stop quietly (what
@@ -13,12 +14,23 @@ for (const stream of [process.stdout, process.stderr]) {
   });
 }
 
+function parseThreads(value: string): number {
+  const n = Number(value);
+  if (!Number.isInteger(n) || n < 1) throw new InvalidArgumentError('a whole number of threads, 1 or more');
+  return n;
+}
+
 const program = new Command();
 program
   .name('spanwright')
   .description('Adapt a small extractive question-answering reader to your own documents, on the CPU, offline.')
   .option('--debug', 'print stack traces for internal errors')
-  .hook('preAction', (cmd) => setDebug(Boolean(cmd.optsWithGlobals().debug)))
+  .option('--threads <n>', 'threads for the training kernels (default: every core, or SPANWRIGHT_THREADS)', parseThreads)
+  .hook('preAction', (cmd) => {
+    const opts = cmd.optsWithGlobals<{ debug?: boolean; threads?: number }>();
+    setDebug(Boolean(opts.debug));
+    setThreadsOption(opts.threads ?? null);
+  })
   .showHelpAfterError();
 
 for (const register of commands) register(program);

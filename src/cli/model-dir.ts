@@ -65,7 +65,7 @@ export async function loadRecords(path: string, log: (line: string) => void): Pr
 
 let started = false;
 
-/** tfjs on the wasm backend with the project's fast kernels (src/kernels/register.ts). */
+/** tfjs on the wasm backend with the project's fast kernels (src/kernels/register.ts) on every core (kernel-threads.ts). */
 export async function startEngine(): Promise<typeof import('@tensorflow/tfjs')> {
   const tf = await import('@tensorflow/tfjs');
   if (!started) {
@@ -77,6 +77,9 @@ export async function startEngine(): Promise<typeof import('@tensorflow/tfjs')> 
     registerFastKernels();
     if (!(await tf.setBackend('wasm'))) throw new Error('the wasm backend failed to start');
     await tf.ready();
+    // the kernels' helper threads: every core unless --threads or SPANWRIGHT_THREADS says fewer
+    const { startKernelThreads } = await import('./kernel-threads.js');
+    await startKernelThreads(undefined, tf.backend() as never);
     started = true;
   }
   return tf;

@@ -51,7 +51,7 @@ export function trainingProgress(label = 'training'): { onEvent: (e: LoopEvent) 
         const m = e.metrics;
         const line =
           `validation at update ${e.update}: EM ${m.validationEM?.toFixed(1)} F1 ${m.validationF1?.toFixed(1)}` +
-          (m.tunedF1 !== undefined ? ` (tuned threshold: F1 ${m.tunedF1.toFixed(1)})` : '');
+          (m.bestCutF1 !== undefined ? ` (best no-answer cut: F1 ${m.bestCutF1.toFixed(1)})` : '');
         if (bar) bar.stop();
         process.stderr.write(`${line}\n`);
         if (bar && e.update < (bar.getTotal?.() ?? Infinity))

@@ -17,12 +17,12 @@ function plain(s: SquadScores) {
 
 /**
  * `{em, f1, total, answerable, unanswerable}` at the decoder's threshold (0), plus
- * `tuned` — the same at the F1-best no-answer threshold, which is `threshold`.
+ * `bestCut` — the same at the F1-best no-answer threshold, which is `threshold`.
  */
-export function scoresObject(report: Pick<EvaluationReport, 'summary'> & { tuned?: { threshold: number; summary: SquadScores } | null }) {
+export function scoresObject(report: Pick<EvaluationReport, 'summary'> & { bestCut?: { threshold: number; summary: SquadScores } | null }) {
   return {
     ...plain(report.summary),
-    ...(report.tuned ? { threshold: round(report.tuned.threshold), tuned: plain(report.tuned.summary) } : {}),
+    ...(report.bestCut ? { threshold: round(report.bestCut.threshold), bestCut: plain(report.bestCut.summary) } : {}),
   };
 }
 

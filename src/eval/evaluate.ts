@@ -1,6 +1,6 @@
 // defines: readerLogits, predictRecords, evaluateRecords — the reader run over records:
 // records → windows (src/text/features.ts) → start/end logits (eval mode) → decoded
-// answers (decode.ts) → the SQuAD 2.0 report (report.ts). The CLI, the worker, the
+// answers (span-choice.ts) → the SQuAD 2.0 report (report.ts). The CLI, the worker, the
 // training loop's evaluation and the int8 check all go through here.
 //
 // Letters: W windows, B windows per forward pass, T tokens per window (trimmed).
@@ -11,7 +11,7 @@ import type { ReaderConfig } from '../model/config.js';
 import { spanLogits } from '../model/encoder.js';
 import type { ReaderParams } from '../model/params.js';
 import { FeatureBuilder, type Feature, type FeatureOptions, type FeatureTokenizer } from '../text/features.js';
-import { predictAll, type DecodableWindow, type Decoded, type DecodeOptions, type WindowLogits } from './decode.js';
+import { predictAll, type DecodableWindow, type Decoded, type SpanChoiceOptions, type WindowLogits } from './span-choice.js';
 import { buildReport, questionsFromRecords, type EvaluationReport } from './report.js';
 
 /** A window with its model inputs; a Feature fits structurally. */
@@ -101,7 +101,7 @@ export interface ReaderParts {
 
 export interface PredictOptions {
   features?: Partial<FeatureOptions>;
-  decode?: DecodeOptions;
+  decode?: SpanChoiceOptions;
   batchSize?: number;
   onProgress?: (done: number, total: number) => void;
   /** windows already built for these records with the same options (skips tokenizing) */

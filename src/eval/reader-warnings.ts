@@ -9,9 +9,15 @@ export const UNUSABLE_ANSWERABLE_F1 = 5;
  * Plain-language warnings under a score table, so a weak reader is not mistaken for a
  * working one: almost no answerable question answered, fine-tuning that did not raise F1
  * over the base (`before`), or a reader no better than the word-overlap baseline
- * (`baseline`). Empty when none holds.
+ * (`baseline`). Empty when none holds. `compared` names the row of a table the F1 values
+ * come from ("the “F1, all” row"), so the warning says which numbers it compares.
  */
-export function readerWarnings(after: SquadScores, before: SquadScores | null = null, baseline: SquadScores | null = null): string[] {
+export function readerWarnings(
+  after: SquadScores,
+  before: SquadScores | null = null,
+  baseline: SquadScores | null = null,
+  compared?: string,
+): string[] {
   const out: string[] = [];
   const ans = after.answerable;
   if (ans.total > 0 && ans.f1 !== null && ans.f1 < UNUSABLE_ANSWERABLE_F1) {
@@ -22,7 +28,8 @@ export function readerWarnings(after: SquadScores, before: SquadScores | null = 
     );
   }
   if (before !== null && before.f1 !== null && after.f1 !== null && after.f1 <= before.f1) {
-    out.push(`warning: fine-tuning did not raise F1 (base ${before.f1.toFixed(1)}, fine-tuned ${after.f1.toFixed(1)}).`);
+    const which = compared ? `${compared}: ` : '';
+    out.push(`warning: fine-tuning did not raise F1 (${which}base ${before.f1.toFixed(1)}, fine-tuned ${after.f1.toFixed(1)}).`);
   }
   if (baseline !== null && baseline.f1 !== null && after.f1 !== null && after.f1 <= baseline.f1) {
     out.push(

@@ -1,6 +1,6 @@
 // defines: outcomeOf, questionsFromRecords, buildReport — the per-question "what went
 // wrong" view: each question's gold answers, prediction, EM/F1 and outcome, and the
-// summary scores with and without a tuned no-answer threshold.
+// summary scores at the decoder's no-answer cut and at the best one (bestCut).
 import type { QARecord } from '../data/record.js';
 import {
   applyNoAnswerThreshold,
@@ -73,7 +73,8 @@ export interface QuestionReport {
 
 export type OutcomeCounts = Record<Outcome, number>;
 
-export interface TunedResult {
+/** The report at the no-answer cut that scores best on these questions (an optimistic figure: chosen on them). */
+export interface BestCut {
   /** the search over thresholds */
   search: ThresholdSearch;
   /** the threshold applied: the one that maximises F1 (common practice) */
@@ -90,7 +91,7 @@ export interface EvaluationReport {
   /** ids with no prediction (scored as "") */
   missing: string[];
   /** present when best spans and score differences were given */
-  tuned?: TunedResult;
+  bestCut?: BestCut;
 }
 
 export interface ReportOptions {
@@ -143,13 +144,13 @@ export function buildReport(gold: readonly ReportQuestion[], predictions: Predic
   if (options.bestSpans && options.scoreDiffs) {
     const search = findBestThresholds(gold, options.bestSpans, options.scoreDiffs);
     const threshold = search.bestF1Threshold;
-    const tunedPredictions = applyNoAnswerThreshold(options.bestSpans, options.scoreDiffs, threshold);
-    const tunedQuestions = reportQuestions(gold, tunedPredictions);
-    report.tuned = {
+    const cutPredictions = applyNoAnswerThreshold(options.bestSpans, options.scoreDiffs, threshold);
+    const cutQuestions = reportQuestions(gold, cutPredictions);
+    report.bestCut = {
       search,
       threshold,
-      summary: summarize(tunedQuestions),
-      counts: countOutcomes(tunedQuestions),
+      summary: summarize(cutQuestions),
+      counts: countOutcomes(cutQuestions),
     };
   }
   return report;

@@ -7,7 +7,7 @@
 
 import { mulberry32 } from '../data/random.js';
 import type { QARecord } from '../data/record.js';
-import { predictAll } from '../eval/decode.js';
+import { predictAll } from '../eval/span-choice.js';
 import { readerLogits, type InputWindow } from '../eval/evaluate.js';
 import { evaluate, goldFromRecords, type SquadScores } from '../eval/squad-metric.js';
 import type { ReaderConfig } from '../model/config.js';

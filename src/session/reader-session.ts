@@ -17,6 +17,7 @@
 import { mulberry32, shuffleInPlace } from '../data/random.js';
 import type { QARecord } from '../data/record.js';
 import { evaluateRecords, predictRecords, readerWindows } from '../eval/evaluate.js';
+import { buildReport, questionsFromRecords, type EvaluationReport } from '../eval/report.js';
 import { lexicalBaselineScores } from '../eval/lexical-baseline.js';
 import { applyNoAnswerThreshold, evaluate, findBestThresholds, goldFromRecords, type SquadScores } from '../eval/squad-metric.js';
 import { loadCheckpointDir } from '../io/checkpoint-dir.js';
@@ -46,6 +47,7 @@ import type {
   EvaluationSummaryPair,
   ExportCardInput,
   ExportResult,
+  FineTuneEnded,
   LearningCurve,
   ModelChoice,
   ModelFiles,
@@ -56,6 +58,7 @@ import type {
   TrainEnded,
 } from './types.js';
 import { checkpointLabel, stageLabel } from './labels.js';
+import { keepsTunedReader, tunedReaderName } from './runs.js';
 import { resolveWindows, type WindowSettings } from './windows.js';
 
 /** A reader the session holds: weights, their config and tokenizer, and a name for people. */
@@ -82,6 +85,8 @@ export interface RunHooks {
 
 export interface FineTuneArgs extends RunHooks {
   runId: string;
+  /** the run's name for people (src/session/runs.ts), kept in its checkpoints' meta; default "run <runId>" */
+  runName?: string;
   train: QARecord[];
   validation: QARecord[];
   config: TrainConfig;
@@ -95,6 +100,8 @@ export interface FineTuneArgs extends RunHooks {
 
 export interface PracticeArgs extends RunHooks {
   runId: string;
+  /** the run's name for people, kept in its checkpoints' meta */
+  runName?: string;
   /** the passages to write questions from: never the validation passages */
   passages: PracticePassage[];
   questions?: Partial<PracticeOptions>;
@@ -169,6 +176,8 @@ export class ReaderSession {
   private tunedReader: SessionReader | null = null;
   /** the training run in progress (fine-tuning or practice) and whether it was asked to halt */
   private running: { runId: string; halt: boolean } | null = null;
+  /** the evaluation in steps in progress, and whether it was asked to stop */
+  private evaluation: { evaluationId: string; cancel: boolean } | null = null;
   /** the learning curve being drawn, whether it was asked to stop, and its end */
   private curve: { curveId: string; cancel: boolean; ended: Promise<void> } | null = null;
 
@@ -386,6 +395,7 @@ export class ReaderSession {
         from,
         {
           runId: args.runId,
+          runName: args.runName,
           train: made,
           validation: [],
           config: args.config,
@@ -421,6 +431,7 @@ export class ReaderSession {
   async domainPretrain(
     args: RunHooks & {
       runId: string;
+      runName?: string;
       passages: PracticePassage[];
       config: TrainConfig;
       minutes: number;
@@ -471,6 +482,7 @@ export class ReaderSession {
       from,
       {
         runId: args.runId,
+        runName: args.runName,
         train: [],
         validation: [],
         config: { ...config, epochs: passes },
@@ -498,15 +510,25 @@ export class ReaderSession {
   }
 
   /** Fine-tunes the start reader on labelled questions (or continues a run from a checkpoint). */
-  async fineTune(args: FineTuneArgs): Promise<TrainEnded> {
+  async fineTune(args: FineTuneArgs): Promise<FineTuneEnded> {
     // leaving the Evaluation screen cancels its curve: a run started right after waits for the update in hand
     if (this.curve?.cancel) await this.curve.ended;
     const from = this.reader('start');
     const run = this.beginRun(args.runId);
     const ended = await this.train(run, from, args, 'fine-tune');
+    // src/session/runs.ts: a run with nothing saved leaves the reader in use as it was
+    if (!keepsTunedReader(ended.result)) {
+      ended.params.dispose();
+      return { ...ended.result, tunedReader: this.tunedReader?.name ?? null, replacedTuned: false };
+    }
     this.tunedReader?.params.dispose();
-    this.tunedReader = { name: `fine-tuned run ${args.runId}`, config: from.config, params: ended.params, tokenizer: from.tokenizer };
-    return ended.result;
+    const name = tunedReaderName(
+      { name: args.runName ?? `run ${args.runId}` },
+      ended.result.update,
+      ended.result.status === 'finished' ? 'finished' : 'stopped',
+    );
+    this.tunedReader = { name, config: from.config, params: ended.params, tokenizer: from.tokenizer };
+    return { ...ended.result, tunedReader: name, replacedTuned: true };
   }
 
   /** One training run from a copy of `from`; the caller takes the trained weights. */
@@ -531,6 +553,7 @@ export class ReaderSession {
         datasetHash: args.datasetHash,
         store,
         stage,
+        run: { id: args.runId, name: args.runName ?? `run ${args.runId}` },
         resumeFrom: args.resumeFrom,
         noAnswerWindowShare,
         maskedLm,
@@ -591,16 +614,25 @@ export class ReaderSession {
   }
 
   /** Loads a checkpoint's weights as the fine-tuned reader (a practice checkpoint: as the start reader). */
-  async restoreCheckpoint(args: { id: string }): Promise<{ id: string; step: number; stage: RunStage; label: string }> {
+  /**
+   * Loads a checkpoint's weights as the fine-tuned reader (a practice checkpoint: as the
+   * start reader). `name` is what the reader is called from then on: its run's name and
+   * update ("run 2, update 16 (restored checkpoint)") when the checkpoint carries a run name.
+   */
+  async restoreCheckpoint(args: {
+    id: string;
+  }): Promise<{ id: string; step: number; stage: RunStage; label: string; run: string | null; name: string }> {
     const { reader, meta } = await this.checkpointReader(args.id);
     if (meta.stage === 'practice' || meta.stage === 'domain') {
       this.startReader?.params.dispose();
       this.startReader = reader;
     } else {
+      if (meta.runName !== undefined) reader.name = tunedReaderName({ name: meta.runName }, meta.step, 'restored');
       this.tunedReader?.params.dispose();
       this.tunedReader = reader;
     }
-    return { id: args.id, step: meta.step, stage: meta.stage ?? 'fine-tune', label: checkpointLabel(meta) };
+    const label = checkpointLabel(meta);
+    return { id: args.id, step: meta.step, stage: meta.stage ?? 'fine-tune', label, run: meta.runName ?? null, name: reader.name };
   }
 
   /** A checkpoint's weights as a reader of its own (the caller disposes it), named for people. */
@@ -609,7 +641,8 @@ export class ReaderSession {
     const ckpt = await this.needStore().load(id);
     const config = ckpt.meta.runConfig?.model ?? b.config;
     const { params } = ReaderParams.fromNamed(config, ckpt.weights, { source: `checkpoint ${id}` });
-    return { reader: { name: `checkpoint ${checkpointLabel(ckpt.meta)}`, config, params, tokenizer: b.tokenizer }, meta: ckpt.meta };
+    const of = ckpt.meta.runName !== undefined ? ` of ${ckpt.meta.runName}` : '';
+    return { reader: { name: `checkpoint ${checkpointLabel(ckpt.meta)}${of}`, config, params, tokenizer: b.tokenizer }, meta: ckpt.meta };
   }
 
   // ---- measuring ------------------------------------------------------------------
@@ -709,6 +742,71 @@ export class ReaderSession {
   ): EvaluationResult {
     const r = this.reader(args.model);
     const { report, decoded } = evaluateRecords(r, args.records, { features: this.windows(args, r).features, onProgress: args.onProgress });
+    return this.evaluationView(args, r, report, decoded);
+  }
+
+  /**
+   * `evaluate` in steps the worker answers messages between, for the workbench: the
+   * questions are read a few at a time (each question's windows together, so decoding is
+   * the same as in one go), `onProgress(done, total)` counts questions after each step,
+   * and `cancelEvaluation` ends it after the step in hand. The scores are those of
+   * `evaluate`: the same windows, decoding and report over all the questions.
+   */
+  async evaluateInSteps(
+    args: {
+      evaluationId: string;
+      model: ModelChoice;
+      records: QARecord[];
+      /** questions per step (default 8) */
+      step?: number;
+      onProgress?: (done: number, total: number) => void;
+    } & WindowArgs,
+  ): Promise<{ status: 'finished'; result: EvaluationResult } | { status: 'cancelled'; done: number; total: number }> {
+    if (this.evaluation) throw new Error('an evaluation is already running; cancel it or wait for it');
+    const r = this.reader(args.model);
+    const evaluation = { evaluationId: args.evaluationId, cancel: false };
+    this.evaluation = evaluation;
+    try {
+      const features = this.windows(args, r).features;
+      const step = Math.max(1, args.step ?? 8);
+      const total = args.records.length;
+      const decoded: ReturnType<typeof predictRecords> = { predictions: {}, bestSpans: {}, scoreDiffs: {}, decodings: new Map(), windows: 0 };
+      args.onProgress?.(0, total);
+      for (let at = 0; at < total; at += step) {
+        // let a cancel request in
+        await new Promise<void>((resolve) => setTimeout(resolve, 0));
+        if (evaluation.cancel) return { status: 'cancelled', done: at, total };
+        const part = predictRecords(r, args.records.slice(at, at + step), { features });
+        Object.assign(decoded.predictions, part.predictions);
+        Object.assign(decoded.bestSpans, part.bestSpans);
+        Object.assign(decoded.scoreDiffs, part.scoreDiffs);
+        for (const [id, d] of part.decodings) decoded.decodings.set(id, d);
+        decoded.windows += part.windows;
+        args.onProgress?.(Math.min(at + step, total), total);
+      }
+      const report = buildReport(questionsFromRecords(args.records), decoded.predictions, {
+        bestSpans: decoded.bestSpans,
+        scoreDiffs: decoded.scoreDiffs,
+      });
+      return { status: 'finished', result: this.evaluationView(args, r, report, decoded) };
+    } finally {
+      this.evaluation = null;
+    }
+  }
+
+  cancelEvaluation(args: { evaluationId: string }): { accepted: boolean } {
+    if (!this.evaluation || this.evaluation.evaluationId !== args.evaluationId) return { accepted: false };
+    this.evaluation.cancel = true;
+    return { accepted: true };
+  }
+
+  /** An evaluation's result as the page shows it: the scores and each question with its spans. */
+  private evaluationView(
+    args: { model: ModelChoice; records: QARecord[] },
+    r: SessionReader,
+    report: EvaluationReport,
+    decoded: Pick<ReturnType<typeof predictRecords>, 'decodings'>,
+  ): EvaluationResult {
     const byId = new Map(args.records.map((rec) => [rec.id, rec]));
     const questions = report.questions.map((q): QuestionView => {
       const rec = byId.get(q.id)!;
@@ -732,7 +830,7 @@ export class ReaderSession {
       reader: r.name,
       summary: report.summary,
       counts: report.counts,
-      tuned: report.tuned ? { threshold: report.tuned.threshold, summary: report.tuned.summary } : null,
+      bestCut: report.bestCut ? { threshold: report.bestCut.threshold, summary: report.bestCut.summary } : null,
       questions,
     };
   }

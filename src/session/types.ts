@@ -60,6 +60,14 @@ export interface TrainEnded {
   checkpointId: string | null;
 }
 
+/** A fine-tuning run's end, and what became of the fine-tuned reader in use (src/session/runs.ts keepsTunedReader). */
+export interface FineTuneEnded extends TrainEnded {
+  /** the name of the fine-tuned reader in use after the run; null when there is none */
+  tunedReader: string | null;
+  /** whether this run's weights became it (false: the reader in use before stays) */
+  replacedTuned: boolean;
+}
+
 /** One practice question as the page shows it before training on them. */
 export interface PracticeSampleItem {
   id: string;
@@ -149,7 +157,8 @@ export interface EvaluationResult {
   reader: string;
   summary: EvaluationReport['summary'];
   counts: EvaluationReport['counts'];
-  tuned: { threshold: number; summary: EvaluationReport['summary'] } | null;
+  /** the scores at the no-answer cut that is best on these questions, and that cut */
+  bestCut: { threshold: number; summary: EvaluationReport['summary'] } | null;
   questions: QuestionView[];
 }
 

@@ -29,9 +29,9 @@ export interface WindowSettings {
 
 /** 384 / 128 / 64, the usual SQuAD settings (src/text/features.ts says where they come from). */
 export const DEFAULT_WINDOWS: Readonly<WindowSettings> = Object.freeze({
-  maxLength: DEFAULT_FEATURE_OPTIONS.maxLen,
+  maxLength: DEFAULT_FEATURE_OPTIONS.maxLength,
   stride: DEFAULT_FEATURE_OPTIONS.stride,
-  maxQueryLength: DEFAULT_FEATURE_OPTIONS.maxQueryTokens,
+  maxQueryLength: DEFAULT_FEATURE_OPTIONS.maxQueryLength,
 });
 
 export interface ResolvedWindows {
@@ -87,7 +87,7 @@ export function resolveWindows(
   return {
     settings: { maxLength, stride, maxQueryLength },
     // 5.
-    features: { maxLen: maxLength, stride, maxQueryTokens: maxQueryLength, questionMatch: reader.questionMatch },
+    features: { maxLength: maxLength, stride, maxQueryLength: maxQueryLength, questionMatch: reader.questionMatch },
     notes,
   };
 }

@@ -10,19 +10,19 @@
 // the context. (BERT's original `doc_stride` is the distance between window starts
 // instead; with this definition that distance is room − stride.)
 //
-// Letters used below: n context tokens; q question tokens (at most maxQueryTokens);
-// room = maxLen − q − 3 context tokens fit beside the question and the three special tokens.
+// Letters used below: n context tokens; q question tokens (at most maxQueryLength);
+// room = maxLength − q − 3 context tokens fit beside the question and the three special tokens.
 import type { QARecord } from '../data/record.js';
 import type { QuestionMatch } from '../model/config.js';
 import type { FlatEncoding, WordPieceTokenizer } from './wordpiece.js';
 
 export interface FeatureOptions {
   /** max sequence length in tokens, special tokens included; 384 as in BERT's SQuAD runs */
-  maxLen: number;
+  maxLength: number;
   /** context tokens shared by consecutive windows (see the top of this file); 128, common practice */
   stride: number;
-  /** longer questions keep their first maxQueryTokens tokens; 64 as in BERT's SQuAD runs */
-  maxQueryTokens: number;
+  /** longer questions keep their first maxQueryLength tokens; 64 as in BERT's SQuAD runs */
+  maxQueryLength: number;
   /**
    * Word-match token types (the reader's `questionMatch`, src/model/config.ts):
    *   'words'           context tokens of a word the question also holds get type 2. A
@@ -41,7 +41,7 @@ export interface FeatureOptions {
   questionMatch?: QuestionMatch;
 }
 
-export const DEFAULT_FEATURE_OPTIONS: Readonly<FeatureOptions> = { maxLen: 384, stride: 128, maxQueryTokens: 64 };
+export const DEFAULT_FEATURE_OPTIONS: Readonly<FeatureOptions> = { maxLength: 384, stride: 128, maxQueryLength: 64 };
 
 /** What feature building needs of a tokenizer (a WordPieceTokenizer, or a stand-in in benchmarks). */
 export type FeatureTokenizer = Pick<WordPieceTokenizer, 'encodeFlat' | 'clsId' | 'sepId' | 'padId'>;
@@ -51,13 +51,13 @@ export interface Feature {
   recordId: string;
   /** index of this window among the record's windows */
   window: number;
-  inputIds: Int32Array; // [maxLen]
-  tokenTypeIds: Int32Array; // [maxLen] 0 for [CLS] question [SEP], 1 for context [SEP]
-  attentionMask: Int32Array; // [maxLen] 1 for tokens, 0 for padding
+  inputIds: Int32Array; // [maxLength]
+  tokenTypeIds: Int32Array; // [maxLength] 0 for [CLS] question [SEP], 1 for context [SEP]
+  attentionMask: Int32Array; // [maxLength] 1 for tokens, 0 for padding
   /** answer start token in this window; 0 ([CLS]) when there is no whole answer in it */
   startPosition: number;
   endPosition: number;
-  /** [2 × maxLen]: character start, end of each context token; -1, -1 for every other token */
+  /** [2 × maxLength]: character start, end of each context token; -1, -1 for every other token */
   offsets: Int32Array;
 }
 
@@ -108,16 +108,16 @@ export class FeatureBuilder {
     options: Partial<FeatureOptions> = {},
   ) {
     const o = { ...DEFAULT_FEATURE_OPTIONS, ...options };
-    for (const key of ['maxLen', 'stride', 'maxQueryTokens'] as const) {
+    for (const key of ['maxLength', 'stride', 'maxQueryLength'] as const) {
       if (!Number.isInteger(o[key]) || o[key] < (key === 'stride' ? 0 : 1)) {
         throw new RangeError(`${key} must be a whole number${key === 'stride' ? '' : ' above 0'}, not ${o[key]}`);
       }
     }
-    const minRoom = o.maxLen - o.maxQueryTokens - 3;
+    const minRoom = o.maxLength - o.maxQueryLength - 3;
     if (minRoom <= o.stride) {
       throw new RangeError(
         `stride (${o.stride}) must be smaller than the context tokens a window holds beside the longest question: ` +
-          `max length ${o.maxLen} − max question tokens ${o.maxQueryTokens} − 3 special tokens = ${minRoom}`,
+          `max length ${o.maxLength} − max question tokens ${o.maxQueryLength} − 3 special tokens = ${minRoom}`,
       );
     }
     this.options = o;
@@ -138,25 +138,25 @@ export class FeatureBuilder {
   }
 
   build(record: QARecord): RecordFeatures {
-    const { maxLen, stride, maxQueryTokens } = this.options;
+    const { maxLength, stride, maxQueryLength } = this.options;
     const tok = this.tokenizer;
     const warnings: string[] = [];
     const ctx = this.contextEncoding(record.context);
     const n = ctx.ids.length;
 
-    // 1. the question, truncated to maxQueryTokens
+    // 1. the question, truncated to maxQueryLength
     const qEnc = tok.encodeFlat(record.question);
     let qIds = qEnc.ids;
-    if (qIds.length > maxQueryTokens) {
-      warnings.push(`record "${record.id}": the question has ${qIds.length} tokens; only the first ${maxQueryTokens} are kept`);
-      qIds = qIds.subarray(0, maxQueryTokens);
+    if (qIds.length > maxQueryLength) {
+      warnings.push(`record "${record.id}": the question has ${qIds.length} tokens; only the first ${maxQueryLength} are kept`);
+      qIds = qIds.subarray(0, maxQueryLength);
     }
     // which context tokens belong to a word the (kept) question holds
     const asked = this.options.questionMatch ? wordKeys(qEnc, record.question, qIds.length) : null;
     const matched = asked ? matchedTokens(ctx, record.context, asked) : null;
     const inBest = asked && this.options.questionMatch === 'words+sentence' ? bestSentenceTokens(ctx, record.context, asked) : null;
     const q = qIds.length;
-    const room = maxLen - q - 3;
+    const room = maxLength - q - 3;
 
     // 2. the gold answer as context tokens [aStart, aEnd] (inclusive), -1 when there is none
     let aStart = -1;
@@ -190,10 +190,10 @@ export class FeatureBuilder {
     for (let w = 0; w < starts.length; w++) {
       const from = starts[w]!;
       const to = Math.min(n, from + room);
-      const inputIds = new Int32Array(maxLen).fill(tok.padId);
-      const tokenTypeIds = new Int32Array(maxLen);
-      const attentionMask = new Int32Array(maxLen);
-      const offsets = new Int32Array(2 * maxLen).fill(-1);
+      const inputIds = new Int32Array(maxLength).fill(tok.padId);
+      const tokenTypeIds = new Int32Array(maxLength);
+      const attentionMask = new Int32Array(maxLength);
+      const offsets = new Int32Array(2 * maxLength).fill(-1);
       inputIds[0] = tok.clsId;
       inputIds.set(qIds, 1);
       inputIds[q + 1] = tok.sepId;

@@ -33,6 +33,9 @@ export interface RunMeta extends CheckpointMeta {
   runConfig: { train: TrainConfig; model: ReaderConfig; base: string };
   /** which stage saved it: fine-tuning on labelled questions (absent in older checkpoints), the practice stage, or masked-LM on the user's passages */
   stage?: RunStage;
+  /** the run that saved it: its id and its name for people (src/session/runs.ts); absent in older checkpoints */
+  runId?: string;
+  runName?: string;
 }
 
 /** The stages a run can be (RunMeta.stage). */
@@ -62,6 +65,8 @@ export interface FineTuneRequest {
   noAnswerWindowShare?: number;
   /** which stage this run is, for its checkpoints' meta (default 'fine-tune') */
   stage?: RunStage;
+  /** the run's id and name, for its checkpoints' meta; with an id, pruning keeps to this run's checkpoints */
+  run?: { id: string; name: string };
   /**
    * Train the encoder with masked-LM on these texts instead (domain- and task-adaptive
    * pretraining, Gururangan et al. 2020): packed into full `[CLS] … [SEP]` rows of
@@ -88,9 +93,9 @@ export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
   if (req.maskedLm) return maskedLmRun(req, req.maskedLm.texts);
   // 1. windows
   const builder = new FeatureBuilder(req.tokenizer, {
-    maxLen: config.maxLength,
+    maxLength: config.maxLength,
     stride: config.stride,
-    maxQueryTokens: config.maxQueryLength,
+    maxQueryLength: config.maxQueryLength,
     questionMatch: req.base.config.questionMatch,
   });
   let features = req.train.flatMap((r) => builder.build(r).features);
@@ -123,10 +128,10 @@ export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
           answerableF1: report.summary.answerable.f1 ?? 0,
           unanswerableF1: report.summary.unanswerable.f1 ?? 0,
         };
-        if (report.tuned) {
-          m.tunedF1 = report.tuned.summary.f1 ?? 0;
-          m.tunedEM = report.tuned.summary.em ?? 0;
-          m.threshold = report.tuned.threshold;
+        if (report.bestCut) {
+          m.bestCutF1 = report.bestCut.summary.f1 ?? 0;
+          m.bestCutEM = report.bestCut.summary.em ?? 0;
+          m.threshold = report.bestCut.threshold;
         }
         lastMetrics = m;
         return m;
@@ -231,12 +236,14 @@ function checkpointSaver(req: FineTuneRequest): LoopHooks['saveCheckpoint'] {
           label: request.reason,
           run: request.state,
           stage: req.stage ?? 'fine-tune',
+          ...(req.run ? { runId: req.run.id, runName: req.run.name } : {}),
         };
         const ckpt: Checkpoint<RunMeta> = { meta, weights: request.weights(), optimizer: request.optimizer() };
         const saved = await store.save(ckpt);
         req.onCheckpoint?.(saved.id);
         // 5. prune
-        await store.prune({ keepBest: 1, keepLast: 2, datasetHash: req.datasetHash });
+        // (among this run's own checkpoints when it has an id: a new run never prunes an earlier one's)
+        await store.prune({ keepBest: 1, keepLast: 2, datasetHash: req.datasetHash, ...(req.run ? { runId: req.run.id } : {}) });
         return saved.id;
       }
     : undefined;

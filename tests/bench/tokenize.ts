@@ -94,7 +94,7 @@ export async function benchTokenize(rounds = 5): Promise<TokenizeBenchResult> {
     answers: [],
     unanswerable: true,
   }));
-  const builder = new FeatureBuilder(ours, { maxLen: 384, stride: 128, maxQueryTokens: 64 });
+  const builder = new FeatureBuilder(ours, { maxLength: 384, stride: 128, maxQueryLength: 64 });
   let windows = 0;
   for (const r of records) windows += builder.build(r).features.length;
   const oursF = await best(rounds, () => {
@@ -113,7 +113,7 @@ export async function benchTokenize(rounds = 5): Promise<TokenizeBenchResult> {
       encoded.set(text, toFlat(text, e.getIds(), e.getOffsets()));
     }
     const stand = { encodeFlat: (t: string) => encoded.get(t)!, clsId: ours.clsId, sepId: ours.sepId, padId: ours.padId };
-    const b = new FeatureBuilder(stand, { maxLen: 384, stride: 128, maxQueryTokens: 64 });
+    const b = new FeatureBuilder(stand, { maxLength: 384, stride: 128, maxQueryLength: 64 });
     nativeWindows = 0;
     for (const r of records) nativeWindows += b.build(r).features.length;
   });

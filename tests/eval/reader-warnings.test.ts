@@ -32,6 +32,10 @@ describe('readerWarnings', () => {
   it('warns when fine-tuning did not raise F1 over the base', () => {
     const w = readerWarnings(scores(30, 40), scores(35, 40));
     expect(w).toEqual([expect.stringMatching(/did not raise F1 \(base 35\.9, fine-tuned 31\.8\)/)]);
+    // naming the table row the numbers come from
+    expect(readerWarnings(scores(30, 40), scores(35, 40), null, 'the “F1, all” row')).toEqual([
+      expect.stringMatching(/did not raise F1 \(the “F1, all” row: base 35\.9, fine-tuned 31\.8\)/),
+    ]);
   });
 
   it('leaves out the "no answer" clause when the set has no unanswerable questions', () => {

@@ -31,7 +31,7 @@ describe('buildReport', () => {
     // EM: ok, nn → 2/6; F1: 1 + 2/3 + 0 + 0 + 0 + 1 = 8/3 → (8/3)/6
     expect(r.summary.em).toBeCloseTo((100 * 2) / 6, 10);
     expect(r.summary.f1).toBeCloseTo((100 * 8) / 3 / 6, 10);
-    expect(r.tuned).toBeUndefined();
+    expect(r.bestCut).toBeUndefined();
   });
 
   it('a prediction that normalises to nothing counts as no answer', () => {
@@ -62,12 +62,12 @@ describe('buildReport', () => {
     const predictions = { ok: 'blue whale', part: 'Curie', wrong: '', fna: '', fa: '', nn: '' };
     const r = buildReport(gold, predictions, { bestSpans, scoreDiffs });
     expect(r.summary.em).toBeCloseTo(50, 10);
-    expect(r.tuned!.threshold).toBe(-2);
-    expect(r.tuned!.search.bestF1Threshold).toBe(-2);
-    expect(r.tuned!.search.bestF1).toBeCloseTo((100 * 11) / 3 / 6, 10);
-    expect(r.tuned!.summary.f1).toBeCloseTo(r.tuned!.search.bestF1, 10);
-    expect(r.tuned!.search.bestEm).toBeCloseTo(50, 10);
-    expect(r.tuned!.search.bestEmThreshold).toBe(-4);
+    expect(r.bestCut!.threshold).toBe(-2);
+    expect(r.bestCut!.search.bestF1Threshold).toBe(-2);
+    expect(r.bestCut!.search.bestF1).toBeCloseTo((100 * 11) / 3 / 6, 10);
+    expect(r.bestCut!.summary.f1).toBeCloseTo(r.bestCut!.search.bestF1, 10);
+    expect(r.bestCut!.search.bestEm).toBeCloseTo(50, 10);
+    expect(r.bestCut!.search.bestEmThreshold).toBe(-4);
     expect(r.questions.find((q) => q.id === 'fna')!.scoreDiff).toBe(3);
   });
 
@@ -80,9 +80,9 @@ describe('buildReport', () => {
     // all "": EM 1 (b); pass a (diff 1) → 2; pass b (diff 3) → 1. Best 2 at threshold 1.
     const r = buildReport(g, { a: '', b: '' }, { bestSpans: { a: 'x', b: 'y' }, scoreDiffs: { a: 1, b: 3 } });
     expect(r.counts['false-no-answer']).toBe(1);
-    expect(r.tuned!.threshold).toBe(1);
-    expect(r.tuned!.counts).toEqual({ correct: 2, partial: 0, 'wrong-span': 0, 'false-no-answer': 0, 'false-answer': 0 });
-    expect(r.tuned!.summary.em).toBe(100);
+    expect(r.bestCut!.threshold).toBe(1);
+    expect(r.bestCut!.counts).toEqual({ correct: 2, partial: 0, 'wrong-span': 0, 'false-no-answer': 0, 'false-answer': 0 });
+    expect(r.bestCut!.summary.em).toBe(100);
   });
 
   it('reads questions from records', () => {

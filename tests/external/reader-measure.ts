@@ -62,7 +62,7 @@ export interface WindowSettings {
 /** SQuAD 2.0 scores of a reader on records, predictions as decoded (no-answer threshold 0). */
 export function scoreReader(reader: Reader, records: readonly QARecord[], windows: WindowSettings): SquadScores {
   const { report } = evaluateRecords(reader, records, {
-    features: { maxLen: windows.maxLength, stride: windows.stride, maxQueryTokens: windows.maxQueryLength },
+    features: { maxLength: windows.maxLength, stride: windows.stride, maxQueryLength: windows.maxQueryLength },
     batchSize: 32,
   });
   return report.summary;
@@ -79,7 +79,7 @@ export function scoreReaderTuned(
   heldOut: readonly QARecord[],
   windows: WindowSettings,
 ): { scores: SquadScores; threshold: number } {
-  const features = { maxLen: windows.maxLength, stride: windows.stride, maxQueryTokens: windows.maxQueryLength };
+  const features = { maxLength: windows.maxLength, stride: windows.stride, maxQueryLength: windows.maxQueryLength };
   const tune = predictRecords(reader, tuneOn, { features, batchSize: 32 });
   const threshold = findBestThresholds(goldFromRecords(tuneOn), tune.bestSpans, tune.scoreDiffs).bestF1Threshold;
   const held = predictRecords(reader, heldOut, { features, batchSize: 32 });

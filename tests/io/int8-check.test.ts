@@ -47,7 +47,7 @@ describe('int8 measurements', () => {
       unanswerable: true,
     },
   ];
-  const builder = new FeatureBuilder(tokenizer, { maxLen: 24, stride: 4, maxQueryTokens: 8 });
+  const builder = new FeatureBuilder(tokenizer, { maxLength: 24, stride: 4, maxQueryLength: 8 });
   const windows = records.flatMap((r) => builder.build(r).features);
 
   it('scores fp32 and int8 alike when int8 holds the weights exactly', () => {

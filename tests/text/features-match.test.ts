@@ -33,9 +33,9 @@ function records(): QARecord[] {
 
 describe('word-match token types', () => {
   const recs = records();
-  const plain = new FeatureBuilder(tokenizer, { maxLen: 128, stride: 32, maxQueryTokens: 40 });
-  const words = new FeatureBuilder(tokenizer, { maxLen: 128, stride: 32, maxQueryTokens: 40, questionMatch: 'words' });
-  const sentence = new FeatureBuilder(tokenizer, { maxLen: 128, stride: 32, maxQueryTokens: 40, questionMatch: 'words+sentence' });
+  const plain = new FeatureBuilder(tokenizer, { maxLength: 128, stride: 32, maxQueryLength: 40 });
+  const words = new FeatureBuilder(tokenizer, { maxLength: 128, stride: 32, maxQueryLength: 40, questionMatch: 'words' });
+  const sentence = new FeatureBuilder(tokenizer, { maxLength: 128, stride: 32, maxQueryLength: 40, questionMatch: 'words+sentence' });
 
   it('leave ids, mask and offsets as they are, and the question side at type 0', () => {
     for (const r of recs) {

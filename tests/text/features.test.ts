@@ -110,11 +110,11 @@ describe('features on Moby-Dick with mechanical answers', () => {
   });
 
   test('windows: layout, stride overlap, coverage of the whole context', () => {
-    const { maxLen, stride } = builder.options;
+    const { maxLength, stride } = builder.options;
     for (const r of RECORDS.filter((x) => x.id.endsWith('q0'))) {
       const ctx = tokenizer.encode(r.context);
       const q = Math.min(64, tokenizer.encode(r.question).ids.length);
-      const room = maxLen - q - 3;
+      const room = maxLength - q - 3;
       const { features } = builder.build(r);
       // count: 1 + ceil(max(0, n − room) / (room − stride))
       const n = ctx.ids.length;
@@ -130,7 +130,7 @@ describe('features on Moby-Dick with mechanical answers', () => {
         // expected masks, types and context flags, compared once per window
         const want = { mask: [] as number[], types: [] as number[], isContext: [] as boolean[], pad: [] as boolean[] };
         const got = { mask: [] as number[], types: [] as number[], isContext: [] as boolean[], pad: [] as boolean[] };
-        for (let t = 0; t < maxLen; t++) {
+        for (let t = 0; t < maxLength; t++) {
           const real = t <= q + 2 + c;
           want.mask.push(real ? 1 : 0);
           want.types.push(t >= q + 2 && real ? 1 : 0);
@@ -192,15 +192,15 @@ describe('feature details', () => {
     expect(windowStarts(23, 10, 4)).toEqual([0, 6, 12, 18]);
   });
 
-  test('a long question is cut to maxQueryTokens with a warning, not printed', () => {
-    const b = new FeatureBuilder(tokenizer, { maxLen: 64, stride: 8, maxQueryTokens: 5 });
+  test('a long question is cut to maxQueryLength with a warning, not printed', () => {
+    const b = new FeatureBuilder(tokenizer, { maxLength: 64, stride: 8, maxQueryLength: 5 });
     const out = b.build(record({ question: 'call me call me call me call me' }));
     expect(out.warnings).toEqual(['record "r1": the question has 8 tokens; only the first 5 are kept']);
     expect(out.features[0]!.inputIds[6]).toBe(tokenizer.sepId);
   });
 
   test('small windows: the answer is found in the windows that hold it, [CLS] elsewhere', () => {
-    const b = new FeatureBuilder(tokenizer, { maxLen: 12, stride: 2, maxQueryTokens: 4 });
+    const b = new FeatureBuilder(tokenizer, { maxLength: 12, stride: 2, maxQueryLength: 4 });
     const out = b.build(record({ question: 'name?' }));
     expect(out.features.length).toBeGreaterThan(2);
     const holding = out.features.filter((f) => f.startPosition > 0);
@@ -211,7 +211,7 @@ describe('feature details', () => {
   });
 
   test('an answer split across windows is lost; one inside a token is a boundary mismatch', () => {
-    const b = new FeatureBuilder(tokenizer, { maxLen: 12, stride: 1, maxQueryTokens: 2 });
+    const b = new FeatureBuilder(tokenizer, { maxLength: 12, stride: 1, maxQueryLength: 2 });
     const long = b.build(record({ question: 'x', answers: [{ text: context.slice(8, 60), start: 8 }] }));
     expect(long.answerLost).toBe(true);
     expect(long.features.every((f) => f.startPosition === 0)).toBe(true);
@@ -226,7 +226,7 @@ describe('feature details', () => {
     const out = new FeatureBuilder(tokenizer).build(record({ answers: [{ text: 'Ishmael', start: 3 }] }));
     expect(out.answerLost).toBe(true);
     expect(out.warnings[0]).toMatch(/record "r1": the answer text is not at its start offset 3/);
-    expect(() => new FeatureBuilder(tokenizer, { maxLen: 100, maxQueryTokens: 64, stride: 40 })).toThrow(
+    expect(() => new FeatureBuilder(tokenizer, { maxLength: 100, maxQueryLength: 64, stride: 40 })).toThrow(
       /stride \(40\) must be smaller .* = 33/,
     );
     expect(() => new FeatureBuilder(tokenizer, { stride: -1 })).toThrow(/stride must be a whole number/);

@@ -115,7 +115,7 @@ const result = await fineTune({
 });
 const minutes = (performance.now() - started) / 60000;
 const final = evaluateRecords({ params: result.params, config: base.config, tokenizer: base.tokenizer }, heldOut, {
-  features: { maxLen: config.maxLength, stride: config.stride, maxQueryTokens: config.maxQueryLength },
+  features: { maxLength: config.maxLength, stride: config.stride, maxQueryLength: config.maxQueryLength },
 }).report.summary;
 log(
   `held-out at the end: EM ${final.em?.toFixed(1)} F1 ${final.f1?.toFixed(1)} (answerable ${final.answerable.f1?.toFixed(1)}, unanswerable ${final.unanswerable.f1?.toFixed(1)})`,

@@ -63,7 +63,7 @@ function common(cmd: Command): Command {
 
 export function register(program: Command): void {
   common(program.command('eval').description('score a model directory on labelled questions (SQuAD 2.0 EM/F1)'))
-    .option('--json', 'print one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, tuned}')
+    .option('--json', 'print one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, bestCut}')
     .action((o: ReadOptions) =>
       runCommand(async () => {
         const { session, records, windows } = await open(o);
@@ -77,13 +77,13 @@ export function register(program: Command): void {
         }
         if (o.json) return printJson(scoresObject(report));
         const rows = [{ label: 'threshold 0', scores: report.summary }];
-        if (report.tuned) rows.push({ label: `tuned ${report.tuned.threshold.toFixed(2)}`, scores: report.tuned.summary });
+        if (report.bestCut) rows.push({ label: `tuned ${report.bestCut.threshold.toFixed(2)}`, scores: report.bestCut.summary });
         process.stdout.write(`${scoresTable(rows)}\n`);
         const c = report.counts;
         process.stdout.write(
           `outcomes: ${c.correct} correct, ${c.partial} partial, ${c['wrong-span']} wrong span, ${c['false-no-answer']} answered nothing wrongly, ${c['false-answer']} answered an unanswerable question\n`,
         );
-        for (const w of readerWarnings(report.tuned?.summary ?? report.summary)) process.stdout.write(`${w}\n`);
+        for (const w of readerWarnings(report.bestCut?.summary ?? report.summary)) process.stdout.write(`${w}\n`);
       }),
     );
 

@@ -29,9 +29,9 @@ export function register(program: Command): void {
     .description('tokenize a question file and report windows per question, lost answers and token boundary mismatches')
     .argument('<file>', 'the data file (SQuAD JSON, JSONL, CSV, TSV)')
     .requiredOption('--vocab <file>', 'the vocabulary: a vocab.txt (one token per line) or a tokenizer.json')
-    .option('--max-len <n>', 'max sequence length in tokens, special tokens included', String(DEFAULT_FEATURE_OPTIONS.maxLen))
+    .option('--max-len <n>', 'max sequence length in tokens, special tokens included', String(DEFAULT_FEATURE_OPTIONS.maxLength))
     .option('--stride <n>', 'context tokens shared by consecutive windows', String(DEFAULT_FEATURE_OPTIONS.stride))
-    .option('--max-query <n>', 'question tokens kept; longer questions are cut', String(DEFAULT_FEATURE_OPTIONS.maxQueryTokens))
+    .option('--max-query <n>', 'question tokens kept; longer questions are cut', String(DEFAULT_FEATURE_OPTIONS.maxQueryLength))
     .option('--cased', 'a vocab.txt is cased: no lowercasing or accent stripping')
     .option('--uncased', 'a vocab.txt is uncased: lowercase and strip accents')
     .option('--json', 'print {questions, windows, answers_lost, boundary_mismatches, ...} as one JSON line last')
@@ -82,9 +82,9 @@ async function loadTokenizer(path: string, options: FeaturesOptions): Promise<Wo
 
 async function features(file: string, options: FeaturesOptions): Promise<number> {
   const settings: FeatureOptions = {
-    maxLen: wholeNumber(options.maxLen, '--max-len'),
+    maxLength: wholeNumber(options.maxLen, '--max-len'),
     stride: wholeNumber(options.stride, '--stride'),
-    maxQueryTokens: wholeNumber(options.maxQuery, '--max-query'),
+    maxQueryLength: wholeNumber(options.maxQuery, '--max-query'),
   };
   const tokenizer = await loadTokenizer(options.vocab, options);
   let builder: FeatureBuilder;
@@ -153,9 +153,9 @@ async function features(file: string, options: FeaturesOptions): Promise<number>
     return 0;
   }
   const out = process.stdout;
-  const { maxLen, stride, maxQueryTokens } = builder.options;
+  const { maxLength, stride, maxQueryLength } = builder.options;
   out.write(
-    `${file}: ${records.length} question(s), ${windows} window(s) (max length ${maxLen}, stride ${stride}, max question ${maxQueryTokens} tokens)\n`,
+    `${file}: ${records.length} question(s), ${windows} window(s) (max length ${maxLength}, stride ${stride}, max question ${maxQueryLength} tokens)\n`,
   );
   if (leftOut > 0) out.write(`${leftOut} record(s) with errors left out (see \`spanwright check ${file}\`)\n`);
   out.write('windows per question:\n');
@@ -164,13 +164,13 @@ async function features(file: string, options: FeaturesOptions): Promise<number>
   for (const l of lostExamples) out.write(`${l}\n`);
   out.write(`boundary mismatches (answer starts or ends inside a token): ${mismatches}\n`);
   for (const l of mismatchExamples) out.write(`${l}\n`);
-  if (truncated > 0) out.write(`questions cut to ${maxQueryTokens} tokens: ${truncated}\n`);
+  if (truncated > 0) out.write(`questions cut to ${maxQueryLength} tokens: ${truncated}\n`);
   for (const l of warningExamples) out.write(`${l}\n`);
   return 0;
 }
 
 function flagName(key: string): string {
-  return key === 'maxLen' ? 'max-len' : key === 'maxQueryTokens' ? 'max-query' : key;
+  return key === 'maxLength' ? 'max-len' : key === 'maxQueryLength' ? 'max-query' : key;
 }
 
 function clip(s: string): string {

@@ -401,7 +401,7 @@ export async function trainReader(
         scores: after
           ? {
               withoutThreshold: after.summary,
-              withThreshold: after.tuned ? { ...after.tuned.summary, threshold: after.tuned.threshold } : undefined,
+              withThreshold: after.bestCut ? { ...after.bestCut.summary, threshold: after.bestCut.threshold } : undefined,
             }
           : undefined,
         baseScores: before?.summary,
@@ -480,7 +480,7 @@ export function register(program: Command): void {
     .option('--resume', 'continue from the last checkpoint in <out>/checkpoints')
     .option(
       '--json',
-      'print the evaluation as one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, tuned}',
+      'print the evaluation as one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, bestCut}',
     )
     .addHelpText(
       'after',
@@ -517,11 +517,11 @@ Example:
           ...(run.after ? [{ label: 'trained', scores: run.after.summary }] : []),
         ];
         if (rows.length > 0) process.stdout.write(`${scoresTable(rows)}\n`);
-        if (run.after?.tuned)
+        if (run.after?.bestCut)
           process.stdout.write(
-            `with the tuned no-answer threshold ${run.after.tuned.threshold.toFixed(2)}: EM ${run.after.tuned.summary.em?.toFixed(1)} F1 ${run.after.tuned.summary.f1?.toFixed(1)}\n`,
+            `with the tuned no-answer threshold ${run.after.bestCut.threshold.toFixed(2)}: EM ${run.after.bestCut.summary.em?.toFixed(1)} F1 ${run.after.bestCut.summary.f1?.toFixed(1)}\n`,
           );
-        if (run.after) for (const w of readerWarnings(run.after.tuned?.summary ?? run.after.summary)) process.stdout.write(`${w}\n`);
+        if (run.after) for (const w of readerWarnings(run.after.bestCut?.summary ?? run.after.summary)) process.stdout.write(`${w}\n`);
         process.stdout.write(`model directory: ${run.out} (${run.files.map((f) => f.name).join(', ')}) in ${run.seconds.toFixed(0)} s\n`);
       }),
     );

@@ -3,7 +3,7 @@
 // max answer length, start + end logit, null score from [CLS] = min over windows, ""
 // when null − best > threshold) are common practice for BERT span readers.
 import { describe, expect, it } from 'vitest';
-import { decodeQuestion, predictAll, type DecodableWindow, type WindowLogits } from '../../src/eval/decode.js';
+import { chooseAnswer, predictAll, type DecodableWindow, type WindowLogits } from '../../src/eval/span-choice.js';
 
 const CONTEXT = 'Marie Curie won the Nobel Prize in 1903 for physics';
 //               word: 0     1     2   3   4     5     6  7    8   9
@@ -21,9 +21,9 @@ const FIRST = QUESTION_TOKENS + 2;
  * A window laid out as [CLS] q q [SEP] words[from..to) [SEP] [PAD]…, with offsets −1
  * for every token that is not context.
  */
-function makeWindow(recordId: string, window: number, context: string, from: number, to: number, maxLen = 16): DecodableWindow {
+function makeWindow(recordId: string, window: number, context: string, from: number, to: number, maxLength = 16): DecodableWindow {
   const words = wordSpans(context);
-  const offsets = new Int32Array(2 * maxLen).fill(-1);
+  const offsets = new Int32Array(2 * maxLength).fill(-1);
   for (let w = from; w < to; w++) {
     const t = FIRST + (w - from);
     offsets[2 * t] = words[w]![0];
@@ -33,20 +33,20 @@ function makeWindow(recordId: string, window: number, context: string, from: num
 }
 
 /** Logits of −5 everywhere except the given positions. */
-function makeLogits(maxLen: number, start: Record<number, number>, end: Record<number, number>): WindowLogits {
-  const s = new Float32Array(maxLen).fill(-5);
-  const e = new Float32Array(maxLen).fill(-5);
+function makeLogits(maxLength: number, start: Record<number, number>, end: Record<number, number>): WindowLogits {
+  const s = new Float32Array(maxLength).fill(-5);
+  const e = new Float32Array(maxLength).fill(-5);
   for (const [k, v] of Object.entries(start)) s[Number(k)] = v;
   for (const [k, v] of Object.entries(end)) e[Number(k)] = v;
   return { startLogits: s, endLogits: e };
 }
 
-describe('decodeQuestion', () => {
+describe('chooseAnswer', () => {
   it('finds the planted span and maps it to characters', () => {
     const w = makeWindow('q', 0, CONTEXT, 0, 10);
     // Nobel is word 4 → token 8, Prize word 5 → token 9; [CLS] 1 + 1 = 2
     const l = makeLogits(16, { 0: 1, [FIRST + 4]: 5 }, { 0: 1, [FIRST + 5]: 4 });
-    const d = decodeQuestion(CONTEXT, [w], [l]);
+    const d = chooseAnswer(CONTEXT, [w], [l]);
     expect(d.prediction).toBe('Nobel Prize');
     expect(d.best).toMatchObject({
       text: 'Nobel Prize',
@@ -71,7 +71,7 @@ describe('decodeQuestion', () => {
     const l0 = makeLogits(16, { 0: 1, [FIRST + 0]: 3, [FIRST + 4]: 2 }, { 0: 1, [FIRST + 1]: 3, [FIRST + 5]: 2 });
     // window 1: "in 1903" (words 6, 7 → tokens 6, 7) 4 + 4 = 8, "Nobel Prize" 1 + 1 = 2, null −2
     const l1 = makeLogits(16, { 0: -1, [FIRST + 0]: 1, [FIRST + 2]: 4 }, { 0: -1, [FIRST + 1]: 1, [FIRST + 3]: 4 });
-    const d = decodeQuestion(CONTEXT, [w0, w1], [l0, l1]);
+    const d = chooseAnswer(CONTEXT, [w0, w1], [l0, l1]);
     expect(d.prediction).toBe('in 1903');
     expect(d.best).toMatchObject({ window: 1, score: 8, startToken: FIRST + 2, endToken: FIRST + 3 });
     expect(d.nullScore).toBe(-2);
@@ -96,21 +96,21 @@ describe('decodeQuestion', () => {
     const w = makeWindow('q', 0, CONTEXT, 0, 10);
     // "Marie … physics" (10 tokens) scores 6 + 6 = 12; "Marie Curie" 6 + 2 = 8
     const l = makeLogits(16, { 0: -9, [FIRST]: 6 }, { 0: -9, [FIRST + 1]: 2, [FIRST + 9]: 6 });
-    const short = decodeQuestion(CONTEXT, [w], [l], { maxAnswerLength: 4 });
+    const short = chooseAnswer(CONTEXT, [w], [l], { maxAnswerLength: 4 });
     expect(short.prediction).toBe('Marie Curie');
     for (const c of short.nBest) expect(c.endToken - c.startToken + 1).toBeLessThanOrEqual(4);
-    const long = decodeQuestion(CONTEXT, [w], [l], { maxAnswerLength: 10 });
+    const long = chooseAnswer(CONTEXT, [w], [l], { maxAnswerLength: 10 });
     expect(long.prediction).toBe(CONTEXT);
     expect(long.best!.score).toBe(12);
     // the default (30 tokens) allows it too
-    expect(decodeQuestion(CONTEXT, [w], [l]).prediction).toBe(CONTEXT);
+    expect(chooseAnswer(CONTEXT, [w], [l]).prediction).toBe(CONTEXT);
   });
 
   it('never starts or ends a span in the question, at [SEP] or in padding', () => {
     const w = makeWindow('q', 0, CONTEXT, 0, 10);
     // question tokens 1, 2 get huge start logits; [SEP] (token 14) and [PAD] (15) huge end logits
     const l = makeLogits(16, { 0: -9, 1: 20, 2: 20, [FIRST + 4]: 1 }, { 0: -9, 14: 20, 15: 20, [FIRST + 4]: 3 });
-    const d = decodeQuestion(CONTEXT, [w], [l]);
+    const d = chooseAnswer(CONTEXT, [w], [l]);
     expect(d.prediction).toBe('Nobel');
     expect(d.best!.score).toBe(4);
     for (const c of d.nBest) {
@@ -124,7 +124,7 @@ describe('decodeQuestion', () => {
     // start peak on Prize (token 9) and end peak on Nobel (token 8) would score 10 but is
     // backwards; the best valid one is start Nobel 1 + end Nobel 5 = 6
     const l = makeLogits(16, { 0: -9, [FIRST + 5]: 5, [FIRST + 4]: 1 }, { 0: -9, [FIRST + 4]: 5 });
-    const d = decodeQuestion(CONTEXT, [w], [l]);
+    const d = chooseAnswer(CONTEXT, [w], [l]);
     expect(d.prediction).toBe('Nobel');
     expect(d.best!.score).toBe(6);
     for (const c of d.nBest) expect(c.endToken).toBeGreaterThanOrEqual(c.startToken);
@@ -134,19 +134,19 @@ describe('decodeQuestion', () => {
     const w = makeWindow('q', 0, CONTEXT, 0, 10);
     // null 5 + 5 = 10, best span "Nobel Prize" 5 + 4 = 9: diff 1
     const l = makeLogits(16, { 0: 5, [FIRST + 4]: 5 }, { 0: 5, [FIRST + 5]: 4 });
-    const d = decodeQuestion(CONTEXT, [w], [l]);
+    const d = chooseAnswer(CONTEXT, [w], [l]);
     expect(d.prediction).toBe('');
     expect(d.best!.text).toBe('Nobel Prize'); // still offered for display and threshold search
     expect(d.scoreDiff).toBe(1);
     // "" only when the difference is strictly greater than the threshold
-    expect(decodeQuestion(CONTEXT, [w], [l], { nullThreshold: 1 }).prediction).toBe('Nobel Prize');
-    expect(decodeQuestion(CONTEXT, [w], [l], { nullThreshold: 0.5 }).prediction).toBe('');
+    expect(chooseAnswer(CONTEXT, [w], [l], { nullThreshold: 1 }).prediction).toBe('Nobel Prize');
+    expect(chooseAnswer(CONTEXT, [w], [l], { nullThreshold: 0.5 }).prediction).toBe('');
   });
 
   it('keeps at most n-best distinct spans, best first', () => {
     const w = makeWindow('q', 0, CONTEXT, 0, 10);
     const l = makeLogits(16, { [FIRST + 1]: 3, [FIRST + 4]: 2 }, { [FIRST + 1]: 3, [FIRST + 5]: 2 });
-    const d = decodeQuestion(CONTEXT, [w], [l], { nBest: 3 });
+    const d = chooseAnswer(CONTEXT, [w], [l], { nBest: 3 });
     expect(d.nBest).toHaveLength(3);
     // with 3 starts and 3 ends the top pairs are Curie–Curie 6, Curie–Prize 5, Nobel–Prize 4
     expect(d.nBest.map((c) => [c.text, c.score])).toEqual([
@@ -159,7 +159,7 @@ describe('decodeQuestion', () => {
 
   it('a window without context tokens yields no span and predicts ""', () => {
     const w = makeWindow('q', 0, CONTEXT, 0, 0);
-    const d = decodeQuestion(CONTEXT, [w], [makeLogits(16, { 0: -3 }, { 0: -3 })]);
+    const d = chooseAnswer(CONTEXT, [w], [makeLogits(16, { 0: -3 }, { 0: -3 })]);
     expect(d).toMatchObject({ prediction: '', best: null, nBest: [], nullScore: -6, scoreDiff: Infinity });
   });
 
@@ -180,7 +180,7 @@ describe('decodeQuestion', () => {
       offsets[2 * (FIRST + i)] = a;
       offsets[2 * (FIRST + i) + 1] = b;
     });
-    const d = decodeQuestion(context, [{ recordId: 'q', window: 0, offsets }], [makeLogits(16, { [FIRST + 2]: 5 }, { [FIRST + 3]: 5 })]);
+    const d = chooseAnswer(context, [{ recordId: 'q', window: 0, offsets }], [makeLogits(16, { [FIRST + 2]: 5 }, { [FIRST + 3]: 5 })]);
     expect(d.prediction).toBe('1903');
     // Han characters: one token per character, and a character is a fair answer on its own
     const han = '東京都は日本の首都';
@@ -189,7 +189,7 @@ describe('decodeQuestion', () => {
       hanOffsets[2 * (FIRST + i)] = i;
       hanOffsets[2 * (FIRST + i) + 1] = i + 1;
     }
-    const h = decodeQuestion(
+    const h = chooseAnswer(
       han,
       [{ recordId: 'h', window: 0, offsets: hanOffsets }],
       [makeLogits(16, { [FIRST + 4]: 5 }, { [FIRST + 5]: 5 })],
@@ -199,7 +199,7 @@ describe('decodeQuestion', () => {
 
   it('names the record and window when logits do not fit the window', () => {
     const w = makeWindow('q7', 2, CONTEXT, 0, 10);
-    expect(() => decodeQuestion(CONTEXT, [w], [makeLogits(15, {}, {})])).toThrow(
+    expect(() => chooseAnswer(CONTEXT, [w], [makeLogits(15, {}, {})])).toThrow(
       /record "q7" window 2: startLogits has 15 values, expected 16/,
     );
   });

@@ -7,7 +7,7 @@ import { describe, expect, it } from 'vitest';
 import type { QARecord } from '../../src/data/record.js';
 import { FeatureBuilder, type Feature } from '../../src/text/features.js';
 import { WordPieceTokenizer } from '../../src/text/wordpiece.js';
-import { predictAll, type WindowLogits } from '../../src/eval/decode.js';
+import { predictAll, type WindowLogits } from '../../src/eval/span-choice.js';
 import { evaluate, goldFromRecords } from '../../src/eval/squad-metric.js';
 
 const CONTEXT =
@@ -48,7 +48,7 @@ function oracleLogits(f: Feature): WindowLogits {
 describe('decoding real features with oracle logits', () => {
   const tokenizer = new WordPieceTokenizer(VOCAB, { lowercase: true });
   // 24 tokens per window: the context (about 40 tokens) needs several windows
-  const builder = new FeatureBuilder(tokenizer, { maxLen: 24, stride: 6, maxQueryTokens: 10 });
+  const builder = new FeatureBuilder(tokenizer, { maxLength: 24, stride: 6, maxQueryLength: 10 });
   const features = RECORDS.flatMap((r) => builder.build(r).features);
 
   it('the setup spreads each context over several windows', () => {

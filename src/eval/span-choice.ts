@@ -1,4 +1,4 @@
-// defines: decodeQuestion, predictAll — from the start/end logits of every window of a
+// defines: chooseAnswer, predictAll — from the start/end logits of every window of a
 // question to an answer: the n-best spans across windows, the null ([CLS]) score, and the
 // no-answer decision.
 //
@@ -30,18 +30,18 @@ const inWord = (text: string, i: number) => i >= 0 && i < text.length && WORD_CH
 
 /**
  * The part of a `Feature` (src/text/features.ts, contract in DEVELOPERS.md) the decoder
- * reads: which record and window, and the offsets (2 × maxLen: char start, end per
+ * reads: which record and window, and the offsets (2 × maxLength: char start, end per
  * token; −1, −1 for tokens that are not context).
  */
 export type DecodableWindow = Pick<Feature, 'recordId' | 'window' | 'offsets'>;
 
-/** The reader's output for one window: one logit per token position (length maxLen). */
+/** The reader's output for one window: one logit per token position (length maxLength). */
 export interface WindowLogits {
   startLogits: ArrayLike<number>;
   endLogits: ArrayLike<number>;
 }
 
-export interface DecodeOptions {
+export interface SpanChoiceOptions {
   /** start and end candidates per window, and spans kept; 20 is common practice */
   nBest?: number;
   /** longest answer in tokens; 30 is common practice for SQuAD-like data */
@@ -50,7 +50,7 @@ export interface DecodeOptions {
   nullThreshold?: number;
 }
 
-const DEFAULTS: Required<DecodeOptions> = { nBest: 20, maxAnswerLength: 30, nullThreshold: 0 };
+const DEFAULTS: Required<SpanChoiceOptions> = { nBest: 20, maxAnswerLength: 30, nullThreshold: 0 };
 
 /** One candidate answer span. */
 export interface SpanCandidate {
@@ -91,35 +91,35 @@ function topPositions(values: ArrayLike<number>, positions: readonly number[], n
 }
 
 function checkWindow(w: DecodableWindow, l: WindowLogits): number {
-  const maxLen = w.offsets.length / 2;
-  if (!Number.isInteger(maxLen) || maxLen < 1) {
-    throw new Error(`record "${w.recordId}" window ${w.window}: offsets length ${w.offsets.length} is not 2 × maxLen`);
+  const maxLength = w.offsets.length / 2;
+  if (!Number.isInteger(maxLength) || maxLength < 1) {
+    throw new Error(`record "${w.recordId}" window ${w.window}: offsets length ${w.offsets.length} is not 2 × maxLength`);
   }
   for (const [name, logits] of [
     ['startLogits', l.startLogits],
     ['endLogits', l.endLogits],
   ] as const) {
-    if (logits.length !== maxLen) {
-      throw new Error(`record "${w.recordId}" window ${w.window}: ${name} has ${logits.length} values, expected ${maxLen}`);
+    if (logits.length !== maxLength) {
+      throw new Error(`record "${w.recordId}" window ${w.window}: ${name} has ${logits.length} values, expected ${maxLength}`);
     }
   }
-  return maxLen;
+  return maxLength;
 }
 
 /**
  * Decodes one question from all its windows. `windows[i]` and `logits[i]` belong
  * together; offsets index into `context`.
  */
-export function decodeQuestion(
+export function chooseAnswer(
   context: string,
   windows: readonly DecodableWindow[],
   logits: readonly WindowLogits[],
-  options: DecodeOptions = {},
+  options: SpanChoiceOptions = {},
 ): QuestionDecoding {
   const { nBest, maxAnswerLength, nullThreshold } = { ...DEFAULTS, ...options };
-  if (windows.length === 0) throw new Error('decodeQuestion: a question needs at least one window');
+  if (windows.length === 0) throw new Error('chooseAnswer: a question needs at least one window');
   if (windows.length !== logits.length) {
-    throw new Error(`decodeQuestion: ${windows.length} windows but ${logits.length} logit pairs`);
+    throw new Error(`chooseAnswer: ${windows.length} windows but ${logits.length} logit pairs`);
   }
 
   let nullScore = Infinity;
@@ -129,7 +129,7 @@ export function decodeQuestion(
   for (let w = 0; w < windows.length; w++) {
     const win = windows[w]!;
     const { startLogits, endLogits } = logits[w]!;
-    const maxLen = checkWindow(win, logits[w]!);
+    const maxLength = checkWindow(win, logits[w]!);
     const offsets = win.offsets;
 
     // 4. this window's null score
@@ -141,7 +141,7 @@ export function decodeQuestion(
 
     // 1. n-best starts and ends among context tokens
     const contextTokens: number[] = [];
-    for (let t = 0; t < maxLen; t++) if (offsets[2 * t]! >= 0 && offsets[2 * t + 1]! >= 0) contextTokens.push(t);
+    for (let t = 0; t < maxLength; t++) if (offsets[2 * t]! >= 0 && offsets[2 * t + 1]! >= 0) contextTokens.push(t);
     const starts = topPositions(startLogits, contextTokens, nBest);
     const ends = topPositions(endLogits, contextTokens, nBest);
 
@@ -209,7 +209,7 @@ export function predictAll(
   records: ReadonlyArray<Pick<QARecord, 'id' | 'context'>>,
   features: readonly DecodableWindow[],
   logits: readonly WindowLogits[],
-  options: DecodeOptions = {},
+  options: SpanChoiceOptions = {},
 ): Decoded {
   if (features.length !== logits.length) {
     throw new Error(`predictAll: ${features.length} features but ${logits.length} logit pairs`);
@@ -238,7 +238,7 @@ export function predictAll(
   for (const r of records) {
     const group = groups.get(r.id);
     if (!group) continue;
-    const d = decodeQuestion(r.context, group.windows, group.logits, options);
+    const d = chooseAnswer(r.context, group.windows, group.logits, options);
     out.predictions[r.id] = d.prediction;
     out.bestSpans[r.id] = d.best?.text ?? '';
     out.scoreDiffs[r.id] = d.scoreDiff;
