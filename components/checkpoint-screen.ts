@@ -2,12 +2,13 @@
 // label, validation scores and time; restore one as the fine-tuned reader, delete one,
 // compare two side by side, prune by a keep-best / keep-last policy, and the storage
 // used and still available (with what to do when the quota runs out).
-// Events out: tuned-change {name} after a restore.
+// Each row names the run that saved it. Events out: tuned-change {name, checkpointId}
+// after a restore.
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
 import type { CheckpointSummary, StoreUsage } from '../src/io/checkpoint-store.js';
 import type { RunMeta } from '../src/train/finetune.js';
-import { checkpointLabel, metricLabel, stageLabel } from '../src/session/labels.js';
+import { checkpointLabel, metricLabel, runLabel, stageLabel } from '../src/session/labels.js';
 import type { BaseInfo } from '../workers/protocol.js';
 import type { EngineClient } from './engine-client.js';
 import { screenStyles } from './shared-styles.js';
@@ -113,49 +114,53 @@ export class CheckpointScreen extends LitElement {
             ? html`<p class="muted" id="no-checkpoints">
                 No checkpoints yet: a training run saves one at every evaluation and when it is paused.
               </p>`
-            : html`<table id="checkpoint-table">
-                <thead>
-                  <tr>
-                    <th>Compare</th>
-                    <th>Checkpoint</th>
-                    <th>Stage</th>
-                    <th class="num">Update</th>
-                    <th>Why</th>
-                    <th class="num">EM</th>
-                    <th class="num">F1</th>
-                    <th>Saved</th>
-                    <th class="num">Size</th>
-                    <th></th>
-                  </tr>
-                </thead>
-                <tbody>
-                  ${this.checkpoints.map(
-                    (c) =>
-                      html`<tr class=${this.compare.has(c.id) ? 'chosen' : ''} data-id=${c.id}>
-                        <td>
-                          <input
-                            type="checkbox"
-                            aria-label="Compare ${checkpointLabel(c.meta)}"
-                            .checked=${this.compare.has(c.id)}
-                            @change=${() => this._onToggleCompare(c.id)}
-                          />
-                        </td>
-                        <td>${checkpointLabel(c.meta)} <code class="muted id">${c.id}</code></td>
-                        <td class="stage">${stageLabel(c.meta.stage)}</td>
-                        <td class="num">${c.meta.step}</td>
-                        <td>${c.meta.label ?? ''}</td>
-                        <td class="num">${score(c.meta.metrics.validationEM)}</td>
-                        <td class="num">${score(c.meta.metrics.validationF1)}</td>
-                        <td>${c.meta.savedAt ? new Date(c.meta.savedAt).toLocaleString() : ''}</td>
-                        <td class="num">${mb(c.bytes)}</td>
-                        <td>
-                          <button class="restore" @click=${() => this._onRestore(c.id)} ?disabled=${!this.baseInfo}>Restore</button>
-                          <button class="delete" @click=${() => this._onDelete(c.id)} ?disabled=${this.running}>Delete</button>
-                        </td>
-                      </tr>`,
-                  )}
-                </tbody>
-              </table>`
+            : html`<div class="scroll">
+                <table id="checkpoint-table">
+                  <thead>
+                    <tr>
+                      <th>Compare</th>
+                      <th>Run</th>
+                      <th>Checkpoint</th>
+                      <th>Stage</th>
+                      <th class="num">Update</th>
+                      <th>Why</th>
+                      <th class="num">EM</th>
+                      <th class="num">F1</th>
+                      <th>Saved</th>
+                      <th class="num">Size</th>
+                      <th></th>
+                    </tr>
+                  </thead>
+                  <tbody>
+                    ${this.checkpoints.map(
+                      (c) =>
+                        html`<tr class=${this.compare.has(c.id) ? 'chosen' : ''} data-id=${c.id}>
+                          <td>
+                            <input
+                              type="checkbox"
+                              aria-label="Compare ${checkpointLabel(c.meta)}"
+                              .checked=${this.compare.has(c.id)}
+                              @change=${() => this._onToggleCompare(c.id)}
+                            />
+                          </td>
+                          <td class="run">${runLabel(c.meta)}</td>
+                          <td>${checkpointLabel(c.meta)} <code class="muted id">${c.id}</code></td>
+                          <td class="stage">${stageLabel(c.meta.stage)}</td>
+                          <td class="num">${c.meta.step}</td>
+                          <td>${c.meta.label ?? ''}</td>
+                          <td class="num">${score(c.meta.metrics.validationEM)}</td>
+                          <td class="num">${score(c.meta.metrics.validationF1)}</td>
+                          <td>${c.meta.savedAt ? new Date(c.meta.savedAt).toLocaleString() : ''}</td>
+                          <td class="num">${mb(c.bytes)}</td>
+                          <td>
+                            <button class="restore" @click=${() => this._onRestore(c.id)} ?disabled=${!this.baseInfo}>Restore</button>
+                            <button class="delete" @click=${() => this._onDelete(c.id)} ?disabled=${this.running}>Delete</button>
+                          </td>
+                        </tr>`,
+                    )}
+                  </tbody>
+                </table>
+              </div>`
         }
         ${this.renderComparison()}
       </section>
@@ -168,34 +173,40 @@ export class CheckpointScreen extends LitElement {
     const keys = [...new Set(chosen.flatMap((c) => Object.keys(c.meta.metrics)))].sort();
     const settings = ['learningRate', 'batchSize', 'epochs', 'maxLength', 'seed'] as const;
     return html`<h3>Comparison</h3>
-      <table id="comparison">
-        <thead>
-          <tr>
-            <th></th>
-            ${chosen.map((c) => html`<th class="num">${checkpointLabel(c.meta)}</th>`)}
-          </tr>
-        </thead>
-        <tbody>
-          ${keys.map(
-            (k) =>
-              html`<tr>
-                <th>${metricLabel(k)}</th>
-                ${chosen.map((c) => html`<td class="num">${score(c.meta.metrics[k])}</td>`)}
-              </tr>`,
-          )}
-          ${settings.map(
-            (k) =>
-              html`<tr>
-                <th>${SETTING_LABELS[k]}</th>
-                ${chosen.map((c) => html`<td class="num">${String(c.meta.runConfig?.train?.[k] ?? '–')}</td>`)}
-              </tr>`,
-          )}
-          <tr>
-            <th>Base reader</th>
-            ${chosen.map((c) => html`<td class="num">${c.meta.runConfig?.base ?? '–'}</td>`)}
-          </tr>
-        </tbody>
-      </table>`;
+      <div class="scroll">
+        <table id="comparison">
+          <thead>
+            <tr>
+              <th></th>
+              ${chosen.map((c) => html`<th class="num">${checkpointLabel(c.meta)}</th>`)}
+            </tr>
+          </thead>
+          <tbody>
+            ${keys.map(
+              (k) =>
+                html`<tr>
+                  <th>${metricLabel(k)}</th>
+                  ${chosen.map((c) => html`<td class="num">${score(c.meta.metrics[k])}</td>`)}
+                </tr>`,
+            )}
+            ${settings.map(
+              (k) =>
+                html`<tr>
+                  <th>${SETTING_LABELS[k]}</th>
+                  ${chosen.map((c) => html`<td class="num">${String(c.meta.runConfig?.train?.[k] ?? '–')}</td>`)}
+                </tr>`,
+            )}
+            <tr>
+              <th>Run</th>
+              ${chosen.map((c) => html`<td class="num">${runLabel(c.meta)}</td>`)}
+            </tr>
+            <tr>
+              <th>Base reader</th>
+              ${chosen.map((c) => html`<td class="num">${c.meta.runConfig?.base ?? '–'}</td>`)}
+            </tr>
+          </tbody>
+        </table>
+      </div>`;
   }
 
   private _onToggleCompare(id: string): void {
@@ -213,10 +224,10 @@ export class CheckpointScreen extends LitElement {
       if (r.stage === 'practice' || r.stage === 'domain') {
         this.message = `Restored the ${r.label} checkpoint as the reader the next fine-tuning run starts from.`;
       } else {
-        this.message = `Restored the ${r.label} checkpoint as the fine-tuned reader.`;
-        this.dispatchEvent(
-          new CustomEvent('tuned-change', { detail: { name: `${r.label} (restored checkpoint)` }, bubbles: true, composed: true }),
-        );
+        this.message = `Restored the ${r.label} checkpoint${r.run ? ` of ${r.run}` : ''} as the fine-tuned reader.`;
+        // a checkpoint from before runs had names is called by its label
+        const name = r.run ? r.name : `${r.label} (restored checkpoint)`;
+        this.dispatchEvent(new CustomEvent('tuned-change', { detail: { name, checkpointId: id }, bubbles: true, composed: true }));
       }
     } catch (err) {
       this.error = (err as Error).message;

@@ -5,7 +5,7 @@
 // by passage and the imported validation questions; the dataset's statistics
 // (<dataset-stats>) and the labelling of plain passages (<passage-labeller>), each
 // question marked training or validation.
-// Events out: dataset-change {dataset}, split-change {split}.
+// Events out: dataset-change {dataset, edits?}, split-change {split}.
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
 import { loadDataset } from '../src/data/load.js';
@@ -16,6 +16,7 @@ import type { TrainConfig } from '../src/train/config.js';
 import type { BaseInfo } from '../workers/protocol.js';
 import type { EngineClient } from './engine-client.js';
 import { screenStyles } from './shared-styles.js';
+import type { QuestionEdit } from '../src/session/edit-history.js';
 import { emptyDataset, type Dataset, type SplitSettings } from './workbench-db.js';
 import './dataset-stats.js';
 import './passage-labeller.js';
@@ -96,6 +97,8 @@ export class DataScreen extends LitElement {
   @property({ attribute: false }) split: Split = { train: [], validation: [] };
   @property({ attribute: false }) baseInfo: BaseInfo | null = null;
   @property({ attribute: false }) settings: TrainConfig | null = null;
+  /** the labeller's undo history, kept by the shell */
+  @property({ attribute: false }) edits: QuestionEdit[] = [];
 
   @state() private reports: ImportReport[] = [];
   @state() private dragging = false;
@@ -238,6 +241,7 @@ export class DataScreen extends LitElement {
         .collection=${d}
         .focusId=${this.focusId}
         .validationSide=${validationSide}
+        .edits=${this.edits}
         @dataset-change=${this._onLabelled}
       ></passage-labeller>
     `;
@@ -288,8 +292,9 @@ export class DataScreen extends LitElement {
     </div>`;
   }
 
-  private emitDataset(dataset: Dataset): void {
-    this.dispatchEvent(new CustomEvent('dataset-change', { detail: { dataset }, bubbles: true, composed: true }));
+  /** `edits`: the undo history after a labelling change; absent for an import or a clear, whose changes undo does not cover. */
+  private emitDataset(dataset: Dataset, edits?: QuestionEdit[]): void {
+    this.dispatchEvent(new CustomEvent('dataset-change', { detail: { dataset, edits }, bubbles: true, composed: true }));
   }
 
   private async importFiles(files: Array<{ name: string; bytes: Uint8Array; role: ImportRole }>): Promise<void> {
@@ -407,10 +412,10 @@ export class DataScreen extends LitElement {
     this.renderRoot.querySelector('passage-labeller')?.scrollIntoView({ behavior: 'smooth', block: 'start' });
   }
 
-  private _onLabelled(e: CustomEvent<{ dataset: Dataset }>): void {
+  private _onLabelled(e: CustomEvent<{ dataset: Dataset; edits: QuestionEdit[] }>): void {
     // re-sent from here, so the shell hears one source
     e.stopPropagation();
-    this.emitDataset(e.detail.dataset);
+    this.emitDataset(e.detail.dataset, e.detail.edits);
   }
 }
 

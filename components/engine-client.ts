@@ -1,13 +1,14 @@
 // defines: EngineClient — the page's typed handle on the engine worker
 // (workers/engine-worker.ts): `call(request)` resolves with that request kind's result
 // (workers/protocol.ts), `onRunEvent` hears the training loop's events and
-// `onCurveEvent` a learning curve's progress. The page never
+// `onCurveEvent` a learning curve's progress, `onEvaluationProgress` an evaluation's. The page never
 // imports tfjs; everything it knows about the model arrives through here.
 import type { LoopEvent } from '../src/train/loop.js';
 import type { CurveEvent, EngineResults, RequestKind, RequestMessage, RequestOf, WorkerMessage } from '../workers/protocol.js';
 
 export type RunEventListener = (runId: string, event: LoopEvent) => void;
 export type CurveEventListener = (curveId: string, event: CurveEvent) => void;
+export type EvaluationProgressListener = (evaluationId: string, done: number, total: number) => void;
 
 export class EngineClient {
   private readonly worker: Worker;
@@ -15,6 +16,7 @@ export class EngineClient {
   private readonly pending = new Map<number, { resolve(v: unknown): void; reject(e: Error): void }>();
   private readonly listeners = new Set<RunEventListener>();
   private readonly curveListeners = new Set<CurveEventListener>();
+  private readonly evaluationListeners = new Set<EvaluationProgressListener>();
 
   constructor() {
     this.worker = new Worker(new URL('../workers/engine-worker.ts', import.meta.url), { type: 'module', name: 'spanwright-engine' });
@@ -52,7 +54,16 @@ export class EngineClient {
     return () => this.curveListeners.delete(listener);
   }
 
+  onEvaluationProgress(listener: EvaluationProgressListener): () => void {
+    this.evaluationListeners.add(listener);
+    return () => this.evaluationListeners.delete(listener);
+  }
+
   private receive(message: WorkerMessage): void {
+    if (message.type === 'evaluation-progress') {
+      for (const l of this.evaluationListeners) l(message.evaluationId, message.done, message.total);
+      return;
+    }
     if (message.type === 'run-event') {
       for (const l of this.listeners) l(message.runId, message.event);
       return;

@@ -1,5 +1,6 @@
 // <export-screen> — taking results out: one ZIP file per model bundle (config, safetensors,
-// vocabulary, model card; int8 weights and ONNX graphs on request) in float32 or
+// vocabulary, model card; int8 weights, with their EM/F1 on the workbench's validation
+// questions in the card, and ONNX graphs on request) in float32 or
 // float16, built in the worker (src/io/export.ts) and zipped here (src/io/bundle.ts),
 // each named after its reader and variant so no two downloads share a name. Any reader
 // can go: the fine-tuned one in use, the base, or any checkpoint saved in this browser.
@@ -50,7 +51,7 @@ const VARIANTS: ReadonlyArray<{ variant: Variant; label: string; name: string; h
     variant: 'int8',
     label: 'Model bundle + int8 weights',
     name: 'float32 int8',
-    help: 'adds model.int8.safetensors (per-row symmetric) and its measured logit drift in the card',
+    help: 'adds model.int8.safetensors (per-row symmetric); the card gives its EM/F1 beside float32 on the validation questions held here (its logit drift when there are none)',
   },
   { variant: 'onnx', label: 'Model bundle + ONNX', name: 'float32 onnx', help: 'adds model.onnx (opset 17) and model.int8.onnx' },
 ];
@@ -247,11 +248,19 @@ export class ExportScreen extends LitElement {
         settings: source === 'tuned' && this.settings ? this.settings : undefined,
         metrics: { base: this.evaluations.base?.summary, tuned: this.evaluations.tuned?.summary },
       };
+      const int8 = variant === 'int8' || variant === 'onnx';
+      const windows = this.settings
+        ? { maxLength: this.settings.maxLength, stride: this.settings.stride, maxQueryLength: this.settings.maxQueryLength }
+        : {};
       const options = {
         fp16: variant === 'fp16',
-        int8: variant === 'int8' || variant === 'onnx',
+        int8,
         onnx: variant === 'onnx',
+        // the int8 weights measured on the validation questions the workbench holds (src/io/int8-check.ts)
+        ...(int8 && this.split.validation.length > 0 ? { int8Check: { records: this.split.validation, ...windows } } : {}),
       };
+      if (options.int8Check)
+        this.busy = `building the files and scoring int8 against float32 on ${this.split.validation.length} validation questions…`;
       const result = checkpoint
         ? await this.engine.call({
             kind: 'export-checkpoint',

@@ -16,6 +16,7 @@ import type { TrainConfig } from '../src/train/config.js';
 import type { BaseInfo, CurveEvent, CurvePoint, LearningCurve as CurveResult } from '../workers/protocol.js';
 import type { EngineClient } from './engine-client.js';
 import { screenStyles } from './shared-styles.js';
+import { metricSeries } from './metric-style.js';
 
 /** The shares of the training questions, smallest first. */
 const SHARES: readonly number[] = [0.25, 0.5, 1];
@@ -152,8 +153,8 @@ export class LearningCurve extends LitElement {
       {
         width: Math.max(240, target.clientWidth || 320),
         height: 200,
-        // three points, labelled in the table: the legend names the lines without following the cursor
-        legend: { live: false },
+        // the legend shows the values at the point under the cursor
+        legend: { live: true },
         scales: { x: { time: false } },
         axes: [
           { label: 'training questions', size: 40 },
@@ -161,8 +162,8 @@ export class LearningCurve extends LitElement {
         ],
         series: [
           { label: 'training questions' },
-          { label: 'F1', stroke: '#1f5f8b', width: 1.5, points: { show: true } },
-          { label: 'EM', stroke: '#8a5a00', width: 1.5, points: { show: true } },
+          metricSeries('f1', this.points.length, true),
+          metricSeries('em', this.points.length, true),
         ],
       },
       data,

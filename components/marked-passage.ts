@@ -8,8 +8,11 @@ import { customElement, property } from 'lit/decorators.js';
 export interface Mark {
   start: number;
   end: number;
-  kind: 'gold' | 'guess';
+  /** a gold answer, the reader's prediction, or the answer being chosen while labelling */
+  kind: 'gold' | 'guess' | 'chosen';
 }
+
+const TITLES: Record<Mark['kind'], string> = { gold: 'gold answer', guess: 'prediction', chosen: 'the answer chosen' };
 
 @customElement('marked-passage')
 export class MarkedPassage extends LitElement {
@@ -30,6 +33,10 @@ export class MarkedPassage extends LitElement {
     }
     mark.guess {
       box-shadow: inset 0 -0.45em 0 var(--guess, #b9d7ef);
+    }
+    mark.chosen {
+      outline: 2px solid var(--accent, #1f5f8b);
+      outline-offset: -1px;
     }
     mark.gold.guess {
       background: var(--gold, #f3df8f);
@@ -56,11 +63,7 @@ export class MarkedPassage extends LitElement {
       const piece = this.text.slice(a, b);
       const kinds = [...new Set(this.marks.filter((m) => m.start <= a && m.end >= b).map((m) => m.kind))];
       pieces.push(
-        kinds.length > 0
-          ? html`<mark class=${kinds.join(' ')} title=${kinds.map((k) => (k === 'gold' ? 'gold answer' : 'prediction')).join(' + ')}
-              >${piece}</mark
-            >`
-          : piece,
+        kinds.length > 0 ? html`<mark class=${kinds.join(' ')} title=${kinds.map((k) => TITLES[k]).join(' + ')}>${piece}</mark>` : piece,
       );
     }
     return html`${pieces}`;

@@ -1,17 +1,20 @@
 // <metric-chart> — one live line chart (uPlot) of training numbers against the update
-// count: loss, validation EM/F1, learning rate or tokens per second. Reflects the number
-// of points drawn in `data-points`, so tests can wait for them. No events out.
+// count: loss, validation EM/F1, learning rate or tokens per second, each in its one look
+// (metric-style.ts). Both axes are labelled with their units; the legend under the chart
+// shows the values at the update under the cursor. Reflects the number of points drawn
+// in `data-points`, so tests can wait for them. No events out.
 import { LitElement, css, html, unsafeCSS, type PropertyValues } from 'lit';
 import { customElement, property } from 'lit/decorators.js';
 import uPlot from 'uplot';
 import uPlotStyles from 'uplot/dist/uPlot.min.css?inline';
+import { metricSeries, type MetricKey } from './metric-style.js';
 
 export interface ChartSeries {
-  label: string;
+  metric: MetricKey;
   values: number[];
-  /** a CSS colour */
-  stroke: string;
 }
+
+const HEIGHT = 170;
 
 @customElement('metric-chart')
 export class MetricChart extends LitElement {
@@ -24,6 +27,8 @@ export class MetricChart extends LitElement {
         border-radius: 6px;
         padding: 0.4rem;
         background: #fff;
+        min-width: 0;
+        overflow: hidden;
       }
       h4 {
         margin: 0 0 0.2rem;
@@ -33,11 +38,20 @@ export class MetricChart extends LitElement {
         color: var(--muted, #666);
         font-size: 0.85rem;
       }
+      .u-legend {
+        font-size: 0.8rem;
+      }
+      .u-legend .u-marker {
+        width: 0.9em;
+        height: 0.9em;
+      }
     `,
   ];
 
   /** the chart's title */
   @property() heading = '';
+  /** the y axis's label, with its unit ("percent", "cross-entropy, nats") */
+  @property() yLabel = '';
   /** x values (update numbers) shared by every series */
   @property({ attribute: false }) x: number[] = [];
   @property({ attribute: false }) series: ChartSeries[] = [];
@@ -46,6 +60,7 @@ export class MetricChart extends LitElement {
 
   private plot: uPlot | null = null;
   private resize: ResizeObserver | null = null;
+  private marked = false;
 
   override render() {
     return html`<h4>${this.heading}</h4>
@@ -57,32 +72,46 @@ export class MetricChart extends LitElement {
     this.setAttribute('data-points', String(this.x.length));
     const target = this.renderRoot.querySelector('#plot') as HTMLElement;
     const data: uPlot.AlignedData = [this.x, ...this.series.map((s) => s.values)];
-    if (!this.plot || (changed.has('series') && this.plot.series.length !== this.series.length + 1)) {
-      this.plot?.destroy();
-      const width = Math.max(240, target.clientWidth || 320);
-      this.plot = new uPlot(
-        {
-          width,
-          height: 170,
-          legend: { show: this.series.length > 1 },
-          scales: { x: { time: false } },
-          axes: [
-            { label: 'update', size: 36 },
-            this.scientific ? { size: 64, values: (_u, splits) => splits.map((v) => v.toExponential(1)) } : { size: 56 },
-          ],
-          series: [
-            { label: 'update' },
-            ...this.series.map((s) => ({ label: s.label, stroke: s.stroke, width: 1.5, points: { show: this.x.length < 40 } })),
-          ],
-        },
-        data,
-        target,
-      );
-      this.resize ??= new ResizeObserver(() => this.plot?.setSize({ width: Math.max(240, target.clientWidth), height: 170 }));
-      this.resize.observe(target);
-    } else {
-      this.plot.setData(data);
+    const marked = this.x.length < 40;
+    const rebuild = !this.plot || (changed.has('series') && this.plot.series.length !== this.series.length + 1) || marked !== this.marked;
+    if (!rebuild) {
+      this.plot!.setData(data);
+      return;
     }
+    this.plot?.destroy();
+    this.marked = marked;
+    this.plot = new uPlot(
+      {
+        width: this.width(target),
+        height: HEIGHT,
+        legend: { show: true, live: true },
+        cursor: { points: { size: 7 } },
+        scales: { x: { time: false } },
+        axes: [
+          { label: 'optimizer update', size: 36, labelSize: 16 },
+          {
+            label: this.yLabel,
+            labelSize: 16,
+            ...(this.scientific
+              ? { size: 64, values: (_u: uPlot, splits: number[]) => splits.map((v) => v.toExponential(1)) }
+              : { size: 56 }),
+          },
+        ],
+        series: [
+          { label: 'update', value: (_u, v) => (v === null || v === undefined ? '–' : String(v)) },
+          ...this.series.map((s) => metricSeries(s.metric, this.x.length)),
+        ],
+      },
+      data,
+      target,
+    );
+    this.resize ??= new ResizeObserver(() => this.plot?.setSize({ width: this.width(target), height: HEIGHT }));
+    this.resize.observe(target);
+  }
+
+  /** The plot's width: its box's, so a narrow screen gets a narrow chart (never wider than the page). */
+  private width(target: HTMLElement): number {
+    return Math.max(200, target.clientWidth || 320);
   }
 
   override disconnectedCallback(): void {

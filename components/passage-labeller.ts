@@ -1,13 +1,21 @@
 // <passage-labeller> — labelling by hand: add plain-text passages (pasted, or loaded
-// from .txt files), pick one, select the answer in its text (mouse or Shift+arrows in
-// the read-only text box), type the question, or mark it unanswerable; edit and delete
-// questions, with undo; each question is marked as training or validation. Every question is checked by src/data/validate.ts before it is
-// kept, and the text is shown only as text (a read-only <textarea> and lit bindings).
-// Events out: dataset-change {dataset}.
+// from .txt files), pick one, select the answer in its text (mouse, or Shift with the
+// arrow keys: the text box takes a caret but refuses every edit), with the answers
+// already given highlighted behind the text; type the question, or mark it unanswerable;
+// edit and delete questions, with undo in several steps (src/session/edit-history.ts:
+// the note names what it would undo and goes once that no longer applies); each question
+// is marked as training or validation. A message about a missing answer or question
+// shows beside the button that needs it. Every question is checked by
+// src/data/validate.ts before it is kept, and the text is shown only as text (a
+// <textarea> and lit bindings).
+// Events out: dataset-change {dataset, edits} (edits: the undo history after the change).
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
 import type { QARecord } from '../src/data/record.js';
 import { normaliseLineBreaks, validateQARecords } from '../src/data/validate.js';
+import { describeEdit, liveHistory, pushEdit, undoEdit, type QuestionEdit } from '../src/session/edit-history.js';
+import type { Mark } from './marked-passage.js';
+import './marked-passage.js';
 import { screenStyles } from './shared-styles.js';
 import { emptyDataset, type Dataset } from './workbench-db.js';
 
@@ -31,10 +39,49 @@ export class PassageLabeller extends LitElement {
   static override styles = [
     screenStyles,
     css`
-      .passage {
+      /* the passage: a text box over a copy of its text with the answers marked; both lay
+         the text out alike (font, padding, border, wrapping), and the box grows to its text */
+      .passage-wrap {
+        position: relative;
+        background: #fff;
+        border-radius: 4px;
+      }
+      .passage,
+      .passage-marks {
         font-family: ui-monospace, SFMono-Regular, Menlo, monospace;
         font-size: 0.9rem;
-        min-height: 10rem;
+        line-height: 1.5;
+        padding: 0.4rem 0.5rem;
+        border: 1px solid transparent;
+        box-sizing: border-box;
+        white-space: pre-wrap;
+        overflow-wrap: break-word;
+        word-break: normal;
+        margin: 0;
+      }
+      .passage {
+        position: relative;
+        z-index: 1;
+        display: block;
+        width: 100%;
+        min-height: 6rem;
+        field-sizing: content;
+        resize: none;
+        overflow: hidden;
+        background: transparent;
+        border-color: var(--line, #ccc);
+        color: inherit;
+      }
+      .passage-marks {
+        position: absolute;
+        inset: 0;
+        color: transparent;
+        overflow: hidden;
+        pointer-events: none;
+      }
+      .inline-message {
+        color: var(--bad, #a3262a);
+        font-weight: 600;
       }
       .answer {
         background: var(--gold, #f3df8f);
@@ -68,6 +115,8 @@ export class PassageLabeller extends LitElement {
   @property({ attribute: false }) validationSide: ReadonlySet<string> = new Set();
   /** a question id to bring into view (its passage is selected) */
   @property({ attribute: false }) focusId: string | null = null;
+  /** the undo history (oldest first), kept by the shell so it outlives a change of screen */
+  @property({ attribute: false }) edits: QuestionEdit[] = [];
 
   @state() private passageId = '';
   @state() private answer: { start: number; end: number } | null = null;
@@ -75,8 +124,8 @@ export class PassageLabeller extends LitElement {
   @state() private unanswerable = false;
   /** the question being edited, or null when adding */
   @state() private editing: string | null = null;
-  @state() private undo: { record: QARecord; index: number } | null = null;
-  @state() private message = '';
+  /** a message beside the button that needs something: "use the selection" or "add / save" */
+  @state() private inlineMessage: { at: 'selection' | 'save'; text: string } | null = null;
   @state() private newTitle = '';
   @state() private newText = '';
 
@@ -135,25 +184,60 @@ export class PassageLabeller extends LitElement {
                 ${passage ? this.renderEditor(passage.text, questions) : ''}
               `
         }
-        ${this.message ? html`<p class="note warn" role="status" id="labeller-message">${this.message}</p>` : ''}
-        ${
-          this.undo
-            ? html`<p class="note" role="status">
-                Deleted “${this.undo.record.question}”. <button id="undo-delete" @click=${this._onUndo}>Undo</button>
-              </p>`
-            : ''
-        }
+        ${this.renderUndo()}
       </section>
     `;
   }
 
+  /** The newest step that can still be undone, named with its passage, and how many more there are. */
+  private renderUndo() {
+    const live = liveHistory(this.edits, this.collection);
+    const last = live.at(-1);
+    if (!last) return '';
+    const d = describeEdit(last);
+    const passage = this.collection.passages.find((p) => p.id === d.passageId);
+    const where = d.passageId === this.passageId ? '' : ` on the passage “${passage?.title ?? d.passageId}”`;
+    return html`<p class="note" role="status" id="undo-note" data-verb=${d.verb}>
+      ${d.verb[0]!.toUpperCase() + d.verb.slice(1)} “${d.question}”${where}.
+      <button id="undo" @click=${this._onUndo}>Undo</button>
+      ${live.length > 1 ? html`<span class="muted">${live.length - 1} earlier step(s) can be undone after it.</span>` : ''}
+    </p>`;
+  }
+
   private renderEditor(text: string, questions: QARecord[]) {
     const a = this.answer;
+    const marks: Mark[] = questions
+      .filter((r) => r.id !== this.editing)
+      .flatMap((r) => r.answers.map((x) => ({ start: x.start, end: x.start + x.text.length, kind: 'gold' as const })));
+    if (a && !this.unanswerable) marks.push({ ...a, kind: 'chosen' });
+    const inline = (at: 'selection' | 'save') =>
+      this.inlineMessage?.at === at
+        ? html`<span class="inline-message" role="alert" id="${at}-message">${this.inlineMessage.text}</span>`
+        : '';
     return html`
-      <label for="passage-text">Passage (select the answer with the mouse, or Shift + arrow keys)</label>
-      <textarea id="passage-text" class="passage" rows="10" readonly .value=${text} aria-describedby="answer-state"></textarea>
+      <label for="passage-text"
+        >Passage
+        <span class="muted"
+          >— answers already given are highlighted. Select the answer with the mouse, or move with the arrow keys and hold Shift to select
+          (Ctrl or Alt with them: a word at a time).</span
+        ></label
+      >
+      <div class="passage-wrap">
+        <marked-passage class="passage-marks" aria-hidden="true" .text=${text} .marks=${marks}></marked-passage>
+        <textarea
+          id="passage-text"
+          class="passage"
+          aria-readonly="true"
+          spellcheck="false"
+          .value=${text}
+          aria-describedby="answer-state"
+          @beforeinput=${(e: InputEvent) => e.preventDefault()}
+          @input=${this._onPassageInput}
+        ></textarea>
+      </div>
       <div class="row">
         <button id="use-selection" @click=${this._onUseSelection} ?disabled=${this.unanswerable}>Use the selection as the answer</button>
+        ${inline('selection')}
         <span id="answer-state">
           ${
             this.unanswerable
@@ -185,7 +269,7 @@ export class PassageLabeller extends LitElement {
           unanswerable</label
         >
         <button id="save-question" class="primary" @click=${this._onSave}>${this.editing ? 'Save changes' : 'Add question'}</button>
-        ${this.editing ? html`<button @click=${this._onCancelEdit}>Cancel</button>` : ''}
+        ${this.editing ? html`<button @click=${this._onCancelEdit}>Cancel</button>` : ''} ${inline('save')}
       </div>
       <ul class="questions" aria-label="Questions on this passage">
         ${questions.map(
@@ -207,8 +291,15 @@ export class PassageLabeller extends LitElement {
     `;
   }
 
-  private emit(dataset: Dataset): void {
-    this.dispatchEvent(new CustomEvent('dataset-change', { detail: { dataset }, bubbles: true, composed: true }));
+  private emit(dataset: Dataset, edits: QuestionEdit[] = this.edits): void {
+    this.dispatchEvent(new CustomEvent('dataset-change', { detail: { dataset, edits }, bubbles: true, composed: true }));
+  }
+
+  /** An edit the beforeinput guard could not stop (an input method's composition): the passage text is put back. */
+  private _onPassageInput(e: Event): void {
+    const box = e.target as HTMLTextAreaElement;
+    const text = this.collection.passages.find((p) => p.id === this.passageId)?.text ?? '';
+    if (box.value !== text) box.value = text;
   }
 
   private startEdit(r: QARecord): void {
@@ -218,10 +309,11 @@ export class PassageLabeller extends LitElement {
     this.unanswerable = r.unanswerable;
     const first = r.answers[0];
     this.answer = first ? { start: first.start, end: first.start + first.text.length } : null;
-    this.message = '';
+    this.inlineMessage = null;
   }
 
   private resetForm(): void {
+    this.inlineMessage = null;
     this.editing = null;
     this.question = '';
     this.unanswerable = false;
@@ -271,11 +363,14 @@ export class PassageLabeller extends LitElement {
     while (start < end && /\s/.test(box.value[start]!)) start++;
     while (end > start && /\s/.test(box.value[end - 1]!)) end--;
     if (end <= start) {
-      this.message = 'Select the answer in the passage first (drag over it, or hold Shift and use the arrow keys).';
+      this.inlineMessage = {
+        at: 'selection',
+        text: 'Select the answer in the passage first (drag over it, or hold Shift and use the arrow keys).',
+      };
       return;
     }
     this.answer = { start, end };
-    this.message = '';
+    this.inlineMessage = null;
   }
 
   private _onQuestionKey(e: KeyboardEvent): void {
@@ -287,11 +382,14 @@ export class PassageLabeller extends LitElement {
     if (!passage) return;
     const question = this.question.trim();
     if (question === '') {
-      this.message = 'Type the question first.';
+      this.inlineMessage = { at: 'save', text: 'Type the question first.' };
       return;
     }
     if (!this.unanswerable && !this.answer) {
-      this.message = 'Select the answer in the passage, or mark the question unanswerable.';
+      this.inlineMessage = {
+        at: 'save',
+        text: 'Choose the answer first: select it in the passage and press “Use the selection as the answer”, or mark the question unanswerable.',
+      };
       return;
     }
     const records = this.collection.records;
@@ -309,13 +407,15 @@ export class PassageLabeller extends LitElement {
     const checked = validateQARecords([record], 'labelled question');
     const errors = checked.problems.filter((p) => p.severity === 'error');
     if (errors.length > 0 || checked.records.length === 0) {
-      this.message = errors.map((p) => `${p.field}: ${p.message}`).join('; ');
+      this.inlineMessage = { at: 'save', text: errors.map((p) => `${p.field}: ${p.message}`).join('; ') };
       return;
     }
-    const next = this.editing ? records.map((r) => (r.id === id ? checked.records[0]! : r)) : [...records, checked.records[0]!];
+    const kept = checked.records[0]!;
+    const before = this.editing ? records.find((r) => r.id === id) : undefined;
+    const next = before ? records.map((r) => (r.id === id ? kept : r)) : [...records, kept];
+    const edit: QuestionEdit = before ? { kind: 'edit', before, after: kept } : { kind: 'add', record: kept };
     this.resetForm();
-    this.message = '';
-    this.emit({ ...this.collection, records: next });
+    this.emit({ ...this.collection, records: next }, pushEdit(liveHistory(this.edits, this.collection), edit));
   }
 
   private _onCancelEdit(): void {
@@ -325,18 +425,23 @@ export class PassageLabeller extends LitElement {
   private _onDelete(r: QARecord): void {
     const index = this.collection.records.findIndex((x) => x.id === r.id);
     if (index < 0) return;
-    this.undo = { record: r, index };
     if (this.editing === r.id) this.resetForm();
-    this.emit({ ...this.collection, records: this.collection.records.filter((x) => x.id !== r.id) });
+    const edits = pushEdit(liveHistory(this.edits, this.collection), { kind: 'delete', record: r, index });
+    this.emit({ ...this.collection, records: this.collection.records.filter((x) => x.id !== r.id) }, edits);
   }
 
+  /** Undoes the newest step that still applies, and shows its passage, so nothing comes back out of sight. */
   private _onUndo(): void {
-    const u = this.undo;
+    const u = undoEdit(this.edits, this.collection);
     if (!u) return;
-    const records = [...this.collection.records];
-    records.splice(Math.min(u.index, records.length), 0, u.record);
-    this.undo = null;
-    this.emit({ ...this.collection, records });
+    const passageId = describeEdit(u.undone).passageId;
+    if (passageId !== this.passageId) {
+      this.passageId = passageId;
+      this.resetForm();
+    }
+    // the question on the form is the one undone: the form lets it go
+    if (this.editing === (u.undone.kind === 'edit' ? u.undone.after.id : u.undone.record.id)) this.resetForm();
+    this.emit({ ...this.collection, records: u.records }, u.history);
   }
 }
 

@@ -122,6 +122,29 @@ export const screenStyles = css`
   .error {
     color: var(--bad, #a3262a);
   }
+  /* a table or chart wider than its place scrolls inside it, never the page sideways */
+  .scroll {
+    overflow-x: auto;
+    max-width: 100%;
+  }
+  section {
+    overflow-x: auto;
+  }
+  code {
+    overflow-wrap: anywhere;
+  }
+  @media (max-width: 640px) {
+    section {
+      padding: 0.6rem 0.6rem;
+    }
+    th,
+    td {
+      padding: 0.25rem 0.3rem;
+    }
+    table {
+      font-size: 0.85rem;
+    }
+  }
   .grid {
     display: grid;
     grid-template-columns: repeat(auto-fill, minmax(320px, 1fr));

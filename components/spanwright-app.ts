@@ -14,6 +14,9 @@ import { LitElement, css, html } from 'lit';
 import { customElement, state } from 'lit/decorators.js';
 import { hashDataset } from '../src/data/hash.js';
 import { chooseSplit, DEFAULT_SPLIT, type Split } from '../src/data/split.js';
+import { liveHistory, type QuestionEdit } from '../src/session/edit-history.js';
+import { nextRunName, recordRun, type RunSummary } from '../src/session/runs.js';
+import { migrateStoredSettings, SETTINGS_VERSION } from '../src/session/stored-settings.js';
 import { domainTrainSettings, practiceTrainSettings } from '../src/session/windows.js';
 import { suggestedLearningRate, type TrainConfig } from '../src/train/config.js';
 import type { LoopEvent } from '../src/train/loop.js';
@@ -30,6 +33,7 @@ import {
   type PracticeState,
   type SplitSettings,
   type StoredBase,
+  type TunedState,
   storedDataset,
   storedSplit,
 } from './workbench-db.js';
@@ -123,10 +127,29 @@ export class SpanwrightApp extends LitElement {
         gap: 0.5rem;
         font-size: 0.85rem;
       }
+      .badges {
+        flex-wrap: wrap;
+      }
+      /* each badge keeps the width of its longest text from the first paint, so nothing moves once the engine reports */
       .badge {
         border: 1px solid var(--line, #ccc);
         border-radius: 999px;
         padding: 0.05rem 0.6rem;
+        white-space: nowrap;
+        display: inline-block;
+        text-align: center;
+      }
+      #isolation {
+        min-width: 9ch;
+      }
+      #threads {
+        min-width: 15ch;
+      }
+      #simd {
+        min-width: 7ch;
+      }
+      #engine {
+        min-width: 21ch;
       }
       .badge.on {
         border-color: var(--good, #2d6a3e);
@@ -136,7 +159,50 @@ export class SpanwrightApp extends LitElement {
         display: flex;
         flex-wrap: wrap;
         gap: 0.35rem;
-        margin-bottom: 1rem;
+        margin-bottom: 0.5rem;
+      }
+      .in-use {
+        display: flex;
+        flex-wrap: wrap;
+        gap: 0.25rem 1.5rem;
+        margin: 0 0 0.75rem;
+        font-size: 0.9rem;
+        color: var(--muted, #666);
+      }
+      .in-use strong {
+        color: var(--ink, #222);
+        font-weight: 600;
+        overflow-wrap: anywhere;
+      }
+      /* narrow screens: the screens' buttons stay one row that scrolls sideways, never three rows */
+      @media (max-width: 640px) {
+        :host {
+          padding: 0.5rem 0.6rem 2rem;
+        }
+        header .tagline {
+          display: none;
+        }
+        /* two fixed rows of badges: a longer text after load is cut, not wrapped onto a new line */
+        .badges {
+          display: grid;
+          grid-template-columns: 1fr 1fr;
+          width: 100%;
+        }
+        .badge {
+          min-width: 0 !important;
+          overflow: hidden;
+          text-overflow: ellipsis;
+        }
+        nav {
+          flex-wrap: nowrap;
+          overflow-x: auto;
+          scrollbar-width: thin;
+          padding-bottom: 0.2rem;
+        }
+        nav button {
+          flex: none;
+          padding: 0.3rem 0.6rem;
+        }
       }
       nav button[aria-current='page'] {
         background: var(--accent, #1f5f8b);
@@ -160,6 +226,12 @@ export class SpanwrightApp extends LitElement {
   @state() private run: RunRecord | null = null;
   /** the fine-tuned reader the worker holds, by name; null when there is none */
   @state() private tunedName: string | null = null;
+  /** the labeller's undo steps (src/session/edit-history.ts), kept here so they outlive a change of screen; not over a reload */
+  @state() private edits: QuestionEdit[] = [];
+  /** every run started, newest first (src/session/runs.ts) */
+  @state() private runs: RunSummary[] = [];
+  /** said once on the Training screen when saved settings were moved to the true defaults */
+  @state() private settingsNote: string | null = null;
   @state() private evaluations: { base?: EvaluationResult; tuned?: EvaluationResult } = {};
   /** the finished practice stage the worker's start reader comes from; null: the base */
   @state() private practice: PracticeState | null = null;
@@ -186,18 +258,62 @@ export class SpanwrightApp extends LitElement {
     }
     this.collection = storedDataset(await loadState('dataset'));
     this.splitSettings = storedSplit(await loadState('split'));
-    this.settings = { ...START_SETTINGS, ...((await loadState('settings')) ?? {}) };
+    const migrated = migrateStoredSettings(await loadState('settings'), await loadState('settingsVersion'));
+    this.settings = { ...START_SETTINGS, ...migrated.settings };
+    this.settingsNote = migrated.note;
+    if (migrated.note) await saveState('settings', this.settings);
+    await saveState('settingsVersion', SETTINGS_VERSION);
+    this.runs = (await loadState('runs')) ?? [];
     const run = await loadState('run');
     if (run && run.status === 'running') {
       run.status = 'interrupted';
       await saveState('run', run);
+      await this.noteRun(run);
     }
     this.run = run ?? null;
     this.practiceSettings = { ...DEFAULT_PRACTICE, ...((await loadState('practiceSettings')) ?? {}) };
     const base = await loadState('base');
     if (base) await this.loadBase(base, false);
     await this.restorePractice((await loadState('practice')) ?? null);
+    await this.restoreTuned((await loadState('tuned')) ?? null);
     this.setAttribute('data-engine', 'ready');
+  }
+
+  /** Brings back the fine-tuned reader in use before the reload, from its checkpoint. */
+  private async restoreTuned(tuned: TunedState | null): Promise<void> {
+    if (!tuned || !this.baseInfo || tuned.baseName !== this.baseInfo.name) return;
+    try {
+      await this.engine.call({ kind: 'restore-checkpoint', id: tuned.checkpointId });
+      this.tunedName = tuned.name;
+    } catch {
+      // its checkpoint was deleted or pruned: no fine-tuned reader until one is trained or restored
+      await saveState('tuned', null);
+    }
+  }
+
+  /** The fine-tuned reader in use is now `name`, held in checkpoint `checkpointId` (null: not kept over a reload). */
+  private async setTuned(name: string | null, checkpointId: string | null): Promise<void> {
+    this.tunedName = name;
+    this.evaluations = { base: this.evaluations.base };
+    await saveState('tuned', name && checkpointId && this.baseInfo ? { name, checkpointId, baseName: this.baseInfo.name } : null);
+  }
+
+  /** The run's entry in the history, as it stands now. */
+  private async noteRun(run: RunRecord): Promise<void> {
+    const summary: RunSummary = {
+      runId: run.runId,
+      name: run.name ?? run.runId,
+      stage: run.stage ?? 'fine-tune',
+      status: run.status,
+      startedAt: run.startedAt,
+      update: run.update,
+      totalUpdates: run.totalUpdates,
+      baseName: run.baseName,
+      ...(run.series.f1.length ? { lastF1: run.series.f1.at(-1)! } : {}),
+      ...(run.status !== 'running' ? { endedAt: new Date().toISOString() } : {}),
+    };
+    this.runs = recordRun(this.runs, summary);
+    await saveState('runs', this.runs);
   }
 
   /** Makes the worker's start reader the finished practice stage again (after a reload). */
@@ -231,6 +347,7 @@ export class SpanwrightApp extends LitElement {
       this.baseInfo = await this.engine.call({ kind: 'load-base', name: base.name, files }, [files.safetensors.buffer]);
       this.tunedName = null;
       this.evaluations = {};
+      if (save) await saveState('tuned', null);
       if (save) {
         await saveState('base', base);
         // a practice stage belongs to the base it was trained from
@@ -263,7 +380,7 @@ export class SpanwrightApp extends LitElement {
     return html`
       <header>
         <h1>Spanwright</h1>
-        <span class="muted">adapt a question-answering reader to your documents, on this computer</span>
+        <span class="muted tagline">adapt a question-answering reader to your documents, on this computer</span>
         <div class="badges" aria-live="polite">
           <span
             class="badge ${isolated ? 'on' : ''}"
@@ -298,12 +415,16 @@ export class SpanwrightApp extends LitElement {
       ${
         this.run?.status === 'interrupted' && this.screen !== 'training'
           ? html`<p class="note warn" id="interrupted-banner" role="status">
-              The ${this.run.stage === 'practice' || this.run.stage === 'domain' ? 'practice' : 'training'} run ${this.run.runId} was
-              interrupted (the page was closed or reloaded while it trained).
+              The ${this.run.stage === 'practice' || this.run.stage === 'domain' ? 'practice' : 'training'} run
+              “${this.run.name ?? this.run.runId}” was interrupted (the page was closed or reloaded while it trained).
               <button @click=${() => this._onNavigate('training')}>Continue it on the Training screen</button>
             </p>`
           : ''
       }
+      <p class="in-use" id="reader-in-use" aria-live="polite">
+        <span>Base reader: <strong>${this.baseInfo?.name ?? (this.baseBusy ? 'loading…' : 'none chosen')}</strong></span>
+        <span>Fine-tuned reader in use: <strong id="tuned-name">${this.tunedName ?? 'none yet'}</strong></span>
+      </p>
       <main>${this.renderScreen()}</main>
     `;
   }
@@ -319,6 +440,7 @@ export class SpanwrightApp extends LitElement {
           .split=${split}
           .baseInfo=${this.baseInfo}
           .settings=${this.settings}
+          .edits=${this.edits}
           @dataset-change=${this._onDatasetChange}
           @split-change=${this._onSplitChange}
         ></data-screen>`;
@@ -342,6 +464,9 @@ export class SpanwrightApp extends LitElement {
           .practice=${this.practice}
           .practiceSettings=${this.practiceSettings}
           .halting=${this.haltMode}
+          .tunedName=${this.tunedName}
+          .runs=${this.runs}
+          .settingsNote=${this.settingsNote}
           @settings-change=${this._onSettingsChange}
           @practice-settings=${this._onPracticeSettings}
           @practice-start=${this._onPracticeStart}
@@ -394,8 +519,10 @@ export class SpanwrightApp extends LitElement {
     this.screen = screen;
   }
 
-  private _onDatasetChange(e: CustomEvent<{ dataset: Dataset }>): void {
+  private _onDatasetChange(e: CustomEvent<{ dataset: Dataset; edits?: QuestionEdit[] }>): void {
     this.collection = e.detail.dataset;
+    // an import or a clear may void undo steps: only those that still apply stay
+    this.edits = liveHistory(e.detail.edits ?? this.edits, this.collection);
     void saveState('dataset', this.collection);
   }
 
@@ -413,9 +540,8 @@ export class SpanwrightApp extends LitElement {
     void saveState('settings', this.settings);
   }
 
-  private _onTunedChange(e: CustomEvent<{ name: string }>): void {
-    this.tunedName = e.detail.name;
-    this.evaluations = { base: this.evaluations.base };
+  private _onTunedChange(e: CustomEvent<{ name: string; checkpointId: string }>): void {
+    void this.setTuned(e.detail.name, e.detail.checkpointId);
   }
 
   private _onEvaluated(e: CustomEvent<{ result: EvaluationResult }>): void {
@@ -424,11 +550,12 @@ export class SpanwrightApp extends LitElement {
 
   // --- the training run -----------------------------------------------------
 
-  private async _onRunStart(): Promise<void> {
+  private async _onRunStart(e: CustomEvent<{ name: string }>): Promise<void> {
     const split = this.split;
     if (!this.baseInfo) return;
     const run: RunRecord = {
       runId: `run-${Date.now().toString(36)}`,
+      name: e.detail.name,
       status: 'running',
       config: { ...this.settings },
       datasetHash: await hashDataset(split.train),
@@ -468,6 +595,7 @@ export class SpanwrightApp extends LitElement {
     if (this.practice) await this._onPracticeForget();
     const run: RunRecord = {
       runId: `practice-${Date.now().toString(36)}`,
+      name: nextRunName(this.runs, 'practice'),
       stage: p.domainMinutes > 0 ? 'domain' : 'practice',
       practice: questions,
       status: 'running',
@@ -491,6 +619,7 @@ export class SpanwrightApp extends LitElement {
     this.run = run;
     this.haltMode = null;
     await saveState('run', run);
+    await this.noteRun(run);
     const q = run.practice!;
     try {
       // 1. masked-LM on the passages, when asked and not done yet
@@ -498,6 +627,7 @@ export class SpanwrightApp extends LitElement {
         const domain = await this.engine.call({
           kind: 'domain-pretrain',
           runId: run.runId,
+          runName: run.name,
           passages: this.trainPassages(),
           config: domainTrainSettings(this.settings),
           minutes: q.domainMinutes ?? 0,
@@ -514,6 +644,7 @@ export class SpanwrightApp extends LitElement {
             lastCheckpoint: domain.checkpointId ? { id: domain.checkpointId, step: domain.update } : this.run!.lastCheckpoint,
           };
           await saveState('run', this.run!);
+          await this.noteRun(this.run!);
           return;
         }
         this.run = {
@@ -535,6 +666,7 @@ export class SpanwrightApp extends LitElement {
       const ended = await this.engine.call({
         kind: 'practice',
         runId: run.runId,
+        runName: run.name,
         passages: this.trainPassages(),
         questions: { perPassage: q.perPassage, seed: q.seed },
         questionMatch: q.questionMatch ? (this.baseInfo?.config.questionMatch ?? 'words+sentence') : undefined,
@@ -564,6 +696,7 @@ export class SpanwrightApp extends LitElement {
       this.run = { ...this.run!, status: 'failed', error: (err as Error).message };
     }
     await saveState('run', this.run!);
+    await this.noteRun(this.run!);
   }
 
   private async _onPracticeForget(): Promise<void> {
@@ -637,11 +770,13 @@ export class SpanwrightApp extends LitElement {
     this.run = run;
     this.haltMode = null;
     await saveState('run', run);
+    await this.noteRun(run);
     const split = this.split;
     try {
       const ended = await this.engine.call({
         kind: 'train',
         runId: run.runId,
+        runName: run.name,
         train: split.train,
         validation: split.validation,
         config: run.config,
@@ -656,12 +791,13 @@ export class SpanwrightApp extends LitElement {
         etaMs: 0,
         lastCheckpoint: ended.checkpointId ? { id: ended.checkpointId, step: ended.update } : this.run!.lastCheckpoint,
       };
-      this.tunedName = `run ${run.runId} at update ${ended.update}`;
-      this.evaluations = { base: this.evaluations.base };
+      // the session decides (src/session/runs.ts): a run with nothing saved leaves the reader in use alone
+      if (ended.replacedTuned) await this.setTuned(ended.tunedReader, ended.checkpointId);
     } catch (err) {
       this.run = { ...this.run!, status: 'failed', error: (err as Error).message };
     }
     await saveState('run', this.run!);
+    await this.noteRun(this.run!);
   }
 
   private _onRunHalt(e: CustomEvent<{ mode: 'pause' | 'stop' }>): void {

@@ -1,11 +1,14 @@
-// <training-screen> — the fine-tuning run: the settings form (each with its default and
-// one line on what it does), start / pause / resume / stop, live charts of training loss,
-// validation EM and F1, learning rate and tokens per second, progress and ETA. A run the
-// page lost mid-way (reload, crash) shows as interrupted with "continue from update N".
-// Above the run, the optional practice stage (<practice-panel>), whose run shows in the
-// same progress and charts. The runs themselves belong to the shell; this element only
-// renders them and asks.
-// Events out: settings-change {settings}, run-start, run-halt {mode}, run-continue, and
+// <training-screen> — the fine-tuning run: the settings, grouped by what a user decides
+// (how long and how fast it learns open; how passages are cut into windows, how careful
+// the optimiser is, scoring and repeating folded), each with its default and one line on
+// what it does; the run's name, start (asking first when it would replace the fine-tuned
+// reader in use) / pause / resume / stop, live charts of training loss, validation EM and
+// F1, learning rate and tokens per second, progress and ETA, and the runs so far. A run
+// the page lost mid-way (reload, crash) shows as interrupted with "continue from update
+// N". Above the settings, the optional practice stage (<practice-panel>, folded until
+// used), whose run shows in the same progress and charts. The runs themselves belong to
+// the shell; this element only renders them and asks.
+// Events out: settings-change {settings}, run-start {name}, run-halt {mode}, run-continue, and
 // the practice panel's practice-start {settings}, practice-settings {settings}, practice-forget.
 import { LitElement, css, html } from 'lit';
 import { customElement, property, state } from 'lit/decorators.js';
@@ -18,61 +21,108 @@ import { screenStyles } from './shared-styles.js';
 import type { EngineClient } from './engine-client.js';
 import { DEFAULT_PRACTICE, type PracticeSettings } from './practice-panel.js';
 import type { PracticeState, RunRecord } from './workbench-db.js';
+import { stageLabel } from '../src/session/labels.js';
+import { checkRunName, nextRunName, RUN_NAME_MAX, type RunSummary } from '../src/session/runs.js';
 import './metric-chart.js';
 import './practice-panel.js';
 
 type NumericField = Exclude<{ [K in keyof TrainConfig]: TrainConfig[K] extends number ? K : never }[keyof TrainConfig], undefined>;
 
-/** The form's fields, in order, each with a one-line explanation. */
-const FIELDS: ReadonlyArray<{ key: NumericField; label: string; step: string; help: string }> = [
+interface Field {
+  key: NumericField;
+  label: string;
+  step: string;
+  help: string;
+}
+
+/**
+ * The settings, grouped by what a user decides. The first group is always open (what
+ * most runs change); the others are folded, each summed up in its heading.
+ */
+const GROUPS: ReadonlyArray<{ id: string; title: string; open: boolean; fields: readonly Field[] }> = [
   {
-    key: 'learningRate',
-    label: 'Learning rate',
-    step: 'any',
-    help: 'Peak step size of AdamW after warmup; smaller is steadier, larger learns faster.',
-  },
-  { key: 'batchSize', label: 'Batch', step: '1', help: 'Windows per forward/backward pass; memory grows with it.' },
-  {
-    key: 'gradAccumulation',
-    label: 'Accumulation',
-    step: '1',
-    help: 'Passes averaged into one update: the update sees batch × this many windows.',
-  },
-  { key: 'epochs', label: 'Epochs', step: '1', help: 'Passes over the training windows.' },
-  {
-    key: 'maxLength',
-    label: 'Max length',
-    step: '1',
-    help: 'Tokens per window, question and special tokens included; longer passages get several windows.',
-  },
-  { key: 'stride', label: 'Stride', step: '1', help: 'Passage tokens shared by two neighbouring windows of one long passage.' },
-  { key: 'maxQueryLength', label: 'Max question length', step: '1', help: 'Question tokens kept; longer questions are cut.' },
-  {
-    key: 'warmupRatio',
-    label: 'Warmup',
-    step: 'any',
-    help: 'Share of updates over which the learning rate rises from 0 before it decays linearly.',
-  },
-  {
-    key: 'weightDecay',
-    label: 'Weight decay',
-    step: 'any',
-    help: 'AdamW’s decoupled shrinkage of weights (none on biases and LayerNorm).',
+    id: 'how-long',
+    title: 'How long and how fast it learns',
+    open: true,
+    fields: [
+      { key: 'epochs', label: 'Epochs', step: '1', help: 'Passes over the training windows.' },
+      {
+        key: 'learningRate',
+        label: 'Learning rate',
+        step: 'any',
+        help: 'Peak step size after warmup; smaller is steadier, larger learns faster.',
+      },
+      {
+        key: 'batchSize',
+        label: 'Windows per pass',
+        step: '1',
+        help: 'The batch: windows in one forward/backward pass; memory grows with it.',
+      },
+    ],
   },
   {
-    key: 'maxGradNorm',
-    label: 'Clipping',
-    step: 'any',
-    help: 'Largest global gradient norm before it is scaled down; 0 turns clipping off.',
+    id: 'windows',
+    title: 'How passages are cut into windows',
+    open: false,
+    fields: [
+      {
+        key: 'maxLength',
+        label: 'Window length',
+        step: '1',
+        help: 'Tokens per window, question and special tokens included; a longer passage gets several windows.',
+      },
+      { key: 'stride', label: 'Overlap (stride)', step: '1', help: 'Passage tokens two neighbouring windows of one passage share.' },
+      { key: 'maxQueryLength', label: 'Question tokens kept', step: '1', help: 'A longer question is cut to this many tokens.' },
+    ],
   },
-  { key: 'seed', label: 'Seed', step: '1', help: 'Fixes initialisation, data order and dropout: the same seed repeats a run.' },
   {
-    key: 'evalEvery',
-    label: 'Evaluation interval',
-    step: '1',
-    help: 'Score validation (and save a checkpoint) every this many updates; 0 = once per epoch.',
+    id: 'careful',
+    title: 'How careful the optimiser is',
+    open: false,
+    fields: [
+      {
+        key: 'warmupRatio',
+        label: 'Warmup',
+        step: 'any',
+        help: 'Share of updates over which the learning rate rises from 0; then it falls linearly.',
+      },
+      {
+        key: 'weightDecay',
+        label: 'Weight decay',
+        step: 'any',
+        help: 'AdamW’s decoupled shrinkage of weights (none on biases and LayerNorm).',
+      },
+      {
+        key: 'maxGradNorm',
+        label: 'Gradient norm cap',
+        step: 'any',
+        help: 'A larger gradient is scaled down to this norm; 0 turns the cap off.',
+      },
+      {
+        key: 'gradAccumulation',
+        label: 'Passes per update',
+        step: '1',
+        help: 'Passes averaged into one update: an update sees windows per pass × this many.',
+      },
+    ],
+  },
+  {
+    id: 'checking',
+    title: 'Scoring and repeating',
+    open: false,
+    fields: [
+      {
+        key: 'evalEvery',
+        label: 'Score every',
+        step: '1',
+        help: 'Score validation (and save a checkpoint) every this many updates; 0 = once per epoch.',
+      },
+      { key: 'seed', label: 'Seed', step: '1', help: 'Fixes initialisation, data order and dropout: the same seed repeats a run.' },
+    ],
   },
 ];
+
+const FIELDS: readonly Field[] = GROUPS.flatMap((g) => g.fields);
 
 /** Each field's label, for other screens that name a setting (the checkpoint comparison). */
 export const SETTING_LABELS: Readonly<Record<NumericField, string>> = Object.fromEntries(FIELDS.map((f) => [f.key, f.label])) as Record<
@@ -94,27 +144,57 @@ export class TrainingScreen extends LitElement {
   static override styles = [
     screenStyles,
     css`
-      form {
+      .fields {
         display: grid;
-        grid-template-columns: repeat(auto-fill, minmax(270px, 1fr));
-        gap: 0.6rem 1rem;
+        grid-template-columns: repeat(auto-fill, minmax(230px, 1fr));
+        gap: 0.5rem 1rem;
       }
-      form label {
+      .fields label {
         display: flex;
         flex-direction: column;
         font-weight: 600;
       }
-      form small {
+      .fields small {
         font-weight: 400;
         color: var(--muted, #666);
       }
+      details.group {
+        margin-top: 0.5rem;
+      }
+      details.group > summary {
+        cursor: pointer;
+        font-weight: 600;
+      }
+      details.group > summary .muted {
+        font-weight: 400;
+      }
+      details.group[open] > summary {
+        margin-bottom: 0.4rem;
+      }
+      details.fold > summary {
+        cursor: pointer;
+        font-weight: 600;
+      }
       .charts {
         display: grid;
-        grid-template-columns: repeat(auto-fill, minmax(360px, 1fr));
-        gap: 0.75rem;
+        grid-template-columns: repeat(auto-fill, minmax(250px, 1fr));
+        gap: 0.6rem;
       }
       progress {
         width: 100%;
+      }
+      #run-name {
+        width: 12rem;
+        max-width: 100%;
+      }
+      .scroll {
+        overflow-x: auto;
+      }
+      section.compact h3 {
+        margin-top: 0;
+      }
+      details.fold {
+        margin: 0 0 0.75rem;
       }
     `,
   ];
@@ -130,8 +210,20 @@ export class TrainingScreen extends LitElement {
   @property({ attribute: false }) practiceSettings: PracticeSettings = DEFAULT_PRACTICE;
   /** the user asked the running run to pause or stop, and it has not returned yet */
   @property({ attribute: false }) halting: 'pause' | 'stop' | null = null;
+  /** the fine-tuned reader in use, by name; a new run asks before it replaces it */
+  @property({ attribute: false }) tunedName: string | null = null;
+  /** every run started, newest first */
+  @property({ attribute: false }) runs: RunSummary[] = [];
+  /** saved settings were moved to the true defaults on load: said once, here */
+  @property({ attribute: false }) settingsNote: string | null = null;
 
   @state() private formError = '';
+  /** the run name typed; null: the suggested one */
+  @state() private typedName: string | null = null;
+  @state() private nameError = '';
+  /** "Start a new run" was pressed while a fine-tuned reader is in use: the question is on screen */
+  @state() private confirming = false;
+  @state() private noteDismissed = false;
 
   /**
    * A setting's default: the learning rate's depends on the loaded reader's width, the
@@ -150,44 +242,74 @@ export class TrainingScreen extends LitElement {
     return String(START_SETTINGS[key]);
   }
 
+  /** A folded group's heading line: its current values. */
+  private _groupSummary(id: string): string {
+    const c = this.settings;
+    if (id === 'windows') return `${c.maxLength} tokens, overlap ${c.stride}, questions up to ${c.maxQueryLength} tokens`;
+    if (id === 'careful')
+      return `warmup ${c.warmupRatio}, weight decay ${c.weightDecay}, norm cap ${c.maxGradNorm}, ${c.gradAccumulation} pass(es) per update`;
+    if (id === 'checking') return `${c.evalEvery > 0 ? `every ${c.evalEvery} updates` : 'once per epoch'}, seed ${c.seed}`;
+    return '';
+  }
+
+  private get suggestedName(): string {
+    return nextRunName(this.runs, 'fine-tune');
+  }
+
   override render() {
     const run = this.run;
     const running = run?.status === 'running';
     const canStart = !running && this.baseInfo !== null && this.split.train.length > 0;
+    const practising = running && (run?.stage === 'practice' || run?.stage === 'domain');
     return html`
       <h2>Training</h2>
-      <section>
+      ${
+        this.settingsNote && !this.noteDismissed
+          ? html`<p class="note warn" id="settings-migrated" role="status">
+              ${this.settingsNote} <button @click=${() => (this.noteDismissed = true)}>Understood</button>
+            </p>`
+          : ''
+      }
+      <details class="fold" id="practice-fold" ?open=${practising}>
+        <summary>
+          Practice first (optional):
+          <span class="muted"
+            >${practising ? 'practising now' : this.practice ? `done, ${this.practice.questions.toLocaleString()} practice questions` : 'not run'}</span
+          >
+        </summary>
+        <practice-panel
+          .engine=${this.engine}
+          .baseInfo=${this.baseInfo}
+          .split=${this.split}
+          .settings=${this.practiceSettings}
+          .practice=${this.practice}
+          ?running=${running}
+        ></practice-panel>
+      </details>
+
+      <section class="compact">
         <h3>Settings</h3>
         <form @change=${this._onFormChange} @submit=${(e: Event) => e.preventDefault()}>
-          ${FIELDS.map(
-            (f) =>
-              html`<label>
-                ${f.label}
-                <input name=${f.key} type="number" step=${f.step} .value=${String(this.settings[f.key])} ?disabled=${running} />
-                <small>${f.help} Default ${this._defaultOf(f.key)}.</small>
-              </label>`,
+          ${GROUPS.map((g) =>
+            g.open
+              ? html`<div class="fields" id="group-${g.id}">${g.fields.map((f) => this.renderField(f, running))}</div>`
+              : html`<details class="group" id="group-${g.id}">
+                  <summary>${g.title} <span class="muted">— ${this._groupSummary(g.id)}</span></summary>
+                  <div class="fields">${g.fields.map((f) => this.renderField(f, running))}</div>
+                </details>`,
           )}
         </form>
         ${this.formError ? html`<p class="note bad" role="alert" id="settings-error">${this.formError}</p>` : ''}
         ${
           this.baseInfo && this.settings.maxLength > this.baseInfo.config.maxPositions
             ? html`<p class="note bad">
-                Max length ${this.settings.maxLength} is longer than the reader's ${this.baseInfo.config.maxPositions} positions.
+                Window length ${this.settings.maxLength} is longer than the reader's ${this.baseInfo.config.maxPositions} positions.
               </p>`
             : ''
         }
       </section>
 
-      <practice-panel
-        .engine=${this.engine}
-        .baseInfo=${this.baseInfo}
-        .split=${this.split}
-        .settings=${this.practiceSettings}
-        .practice=${this.practice}
-        ?running=${running}
-      ></practice-panel>
-
-      <section>
+      <section class="compact">
         <h3>Run</h3>
         <p class="muted" id="run-start-from">
           ${run?.stage === 'practice' && running ? 'Practising now' : 'Fine-tuning starts from'}:
@@ -195,21 +317,61 @@ export class TrainingScreen extends LitElement {
         </p>
         ${this.renderNotices()}
         <div class="row">
-          <button id="start-run" class="primary" @click=${this._onStart} ?disabled=${!canStart}>Start a new run</button>
+          <label
+            >Run name
+            <input
+              id="run-name"
+              maxlength=${RUN_NAME_MAX}
+              .value=${this.typedName ?? this.suggestedName}
+              ?disabled=${running}
+              @input=${(e: Event) => {
+                this.typedName = (e.target as HTMLInputElement).value;
+                this.nameError = '';
+              }}
+          /></label>
+          <button id="start-run" class="primary" @click=${this._onStart} ?disabled=${!canStart || this.confirming}>Start a new run</button>
           <button id="pause-run" @click=${() => this._onHalt('pause')} ?disabled=${!running}>Pause</button>
           <button id="stop-run" @click=${() => this._onHalt('stop')} ?disabled=${!running}>Stop</button>
           ${
             run && run.status === 'paused' && run.lastCheckpoint
               ? html`<button id="resume-run" class="primary" @click=${this._onContinue}>
-                  Resume from update ${run.lastCheckpoint.step}
+                  Resume ${run.name ? `“${run.name}” ` : ''}from update ${run.lastCheckpoint.step}
                 </button>`
               : ''
           }
         </div>
-        ${run ? this.renderProgress(run) : ''}
+        ${this.nameError ? html`<p class="note bad" role="alert" id="run-name-error">${this.nameError}</p>` : ''}
+        ${this.confirming ? this.renderConfirm() : ''} ${run ? this.renderProgress(run) : ''}
       </section>
-      ${run ? this.renderCharts(run) : ''}
+      ${run ? this.renderCharts(run) : ''} ${this.renderHistory()}
     `;
+  }
+
+  private renderField(f: Field, running: boolean) {
+    return html`<label>
+      ${f.label}
+      <input name=${f.key} type="number" step=${f.step} .value=${String(this.settings[f.key])} ?disabled=${running} />
+      <small>${f.help} Default ${this._defaultOf(f.key)}.</small>
+    </label>`;
+  }
+
+  /** The question asked before a new run replaces the fine-tuned reader in use. */
+  private renderConfirm() {
+    const name = this.checkedName();
+    const paused = this.run?.status === 'paused' && this.run.lastCheckpoint ? this.run : null;
+    return html`<div class="note warn" id="confirm-new-run" role="alertdialog" aria-labelledby="confirm-new-run-text">
+      <p id="confirm-new-run-text">
+        The fine-tuned reader in use is <strong>${this.tunedName}</strong>. “${'name' in name ? name.name : ''}” replaces it on every screen
+        once it saves its first checkpoint or finishes; the checkpoints of earlier runs stay on the Checkpoints screen, where any of them
+        can be restored. ${paused ? html`The paused run “${paused.name ?? paused.runId}” can then no longer be resumed here.` : ''}
+      </p>
+      <div class="row">
+        <button id="confirm-start" class="primary" @click=${this._onConfirm}>
+          Start “${'name' in name ? name.name : ''}” and replace it
+        </button>
+        <button id="cancel-start" @click=${() => (this.confirming = false)}>Keep the reader in use</button>
+      </div>
+    </div>`;
   }
 
   private renderNotices() {
@@ -223,15 +385,14 @@ export class TrainingScreen extends LitElement {
       );
     }
     if (run?.status === 'interrupted') {
+      const name = run.name ?? run.runId;
       notes.push(
         run.lastCheckpoint
           ? html`<div class="note warn" id="interrupted" role="status">
-              The run ${run.runId} was interrupted at update ${run.update} (the page was closed or reloaded while it trained).
+              The run “${name}” was interrupted at update ${run.update} (the page was closed or reloaded while it trained).
               <button id="continue-run" class="primary" @click=${this._onContinue}>Continue from update ${run.lastCheckpoint.step}</button>
             </div>`
-          : html`<p class="note warn" id="interrupted">
-              The run ${run.runId} was interrupted before its first checkpoint; start it again.
-            </p>`,
+          : html`<p class="note warn" id="interrupted">The run “${name}” was interrupted before its first checkpoint; start it again.</p>`,
       );
     }
     if (run?.error) notes.push(html`<p class="note bad" role="alert" id="run-error">${run.error}</p>`);
@@ -243,6 +404,7 @@ export class TrainingScreen extends LitElement {
     const lastLoss = s.loss.at(-1);
     return html`<div id="run-status" data-status=${run.status} data-update=${run.update}>
       <p>
+        ${run.name ? html`<span id="run-label">“${run.name}”</span> ` : ''}
         <strong>${run.stage === 'practice' ? 'practice ' : run.stage === 'domain' ? 'masked-LM ' : ''}${run.status}</strong> — update
         <span id="run-update">${run.update}</span> of ${run.totalUpdates || '…'}
         ${lastLoss !== undefined ? html`· loss ${lastLoss.toFixed(4)}` : ''}
@@ -264,39 +426,77 @@ export class TrainingScreen extends LitElement {
 
   private renderCharts(run: RunRecord) {
     const s = run.series;
-    return html`<section>
-      <h3>Charts</h3>
+    return html`<section class="compact" id="charts">
+      <h3>Charts <small class="muted">(hover a chart for its values)</small></h3>
       <div class="charts">
         <metric-chart
           id="chart-loss"
           heading="Training loss"
+          yLabel="cross-entropy, nats"
           .x=${s.update}
-          .series=${[{ label: 'loss', values: s.loss, stroke: '#1f5f8b' }]}
+          .series=${[{ metric: 'loss', values: s.loss }]}
         ></metric-chart>
         <metric-chart
           id="chart-eval"
           heading="Validation EM and F1"
+          yLabel="percent"
           .x=${s.evalUpdate}
           .series=${[
-            { label: 'EM', values: s.em, stroke: '#8a5a00' },
-            { label: 'F1', values: s.f1, stroke: '#2d6a3e' },
+            { metric: 'em', values: s.em },
+            { metric: 'f1', values: s.f1 },
           ]}
         ></metric-chart>
         <metric-chart
           id="chart-lr"
           heading="Learning rate"
+          yLabel="step size"
           scientific
           .x=${s.update}
-          .series=${[{ label: 'lr', values: s.lr, stroke: '#6b3fa0' }]}
+          .series=${[{ metric: 'lr', values: s.lr }]}
         ></metric-chart>
         <metric-chart
           id="chart-speed"
           heading="Tokens per second"
+          yLabel="tokens per second"
           .x=${s.update}
-          .series=${[{ label: 'tokens/s', values: s.tokensPerSecond, stroke: '#a3262a' }]}
+          .series=${[{ metric: 'tokensPerSecond', values: s.tokensPerSecond }]}
         ></metric-chart>
       </div>
     </section>`;
+  }
+
+  private renderHistory() {
+    if (this.runs.length === 0) return '';
+    return html`<details class="fold" id="run-history">
+      <summary>Runs so far (${this.runs.length})</summary>
+      <div class="scroll">
+        <table>
+          <thead>
+            <tr>
+              <th>Run</th>
+              <th>Stage</th>
+              <th>Status</th>
+              <th class="num">Updates</th>
+              <th class="num">Last validation F1</th>
+              <th>Started</th>
+            </tr>
+          </thead>
+          <tbody>
+            ${this.runs.map(
+              (r) =>
+                html`<tr data-run=${r.runId}>
+                  <td>${r.name}</td>
+                  <td>${stageLabel(r.stage)}</td>
+                  <td>${r.status}</td>
+                  <td class="num">${r.update} of ${r.totalUpdates || '…'}</td>
+                  <td class="num">${r.lastF1 === undefined ? '–' : r.lastF1.toFixed(2)}</td>
+                  <td>${new Date(r.startedAt).toLocaleString()}</td>
+                </tr>`,
+            )}
+          </tbody>
+        </table>
+      </div>
+    </details>`;
   }
 
   private _onFormChange(e: Event): void {
@@ -316,8 +516,38 @@ export class TrainingScreen extends LitElement {
     this.dispatchEvent(new CustomEvent('settings-change', { detail: { settings: next }, bubbles: true, composed: true }));
   }
 
+  private checkedName(): { name: string } | { error: string } {
+    return checkRunName(this.typedName ?? this.suggestedName, this.runs);
+  }
+
   private _onStart(): void {
-    this.dispatchEvent(new CustomEvent('run-start', { bubbles: true, composed: true }));
+    const name = this.checkedName();
+    if ('error' in name) {
+      this.nameError = name.error;
+      return;
+    }
+    // a new run replaces the fine-tuned reader in use: ask first
+    if (this.tunedName !== null) {
+      this.confirming = true;
+      return;
+    }
+    this.startRun(name.name);
+  }
+
+  private _onConfirm(): void {
+    const name = this.checkedName();
+    this.confirming = false;
+    if ('error' in name) {
+      this.nameError = name.error;
+      return;
+    }
+    this.startRun(name.name);
+  }
+
+  private startRun(name: string): void {
+    this.typedName = null;
+    this.nameError = '';
+    this.dispatchEvent(new CustomEvent('run-start', { detail: { name }, bubbles: true, composed: true }));
   }
 
   private _onHalt(mode: 'pause' | 'stop'): void {

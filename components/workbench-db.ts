@@ -1,8 +1,9 @@
 // defines: the page's own IndexedDB database ("spanwright-workbench", via idb) and the
 // plain-data shapes it keeps: the dataset and its passages, the split (by passage, or the
 // questions imported as validation), the base reader's
-// files, the training settings, the state of the last training run and of the practice
-// stage the next run starts from. Checkpoints live
+// files, the training settings, the state of the last training run, the history of runs,
+// the fine-tuned reader in use (by its checkpoint) and the practice stage the next run
+// starts from. Checkpoints live
 // in the worker's database (src/io/idb-store.ts), not here.
 //
 // One object store `kv`, keyed by the names in WorkbenchState; each value is written
@@ -10,6 +11,7 @@
 import { openDB, type DBSchema, type IDBPDatabase } from 'idb';
 import type { QARecord } from '../src/data/record.js';
 import { DEFAULT_SPLIT, type SplitChoice } from '../src/data/split.js';
+import type { RunSummary } from '../src/session/runs.js';
 import type { TrainConfig } from '../src/train/config.js';
 import type { ModelFiles } from '../workers/protocol.js';
 import type { PracticeSettings } from './practice-panel.js';
@@ -65,6 +67,8 @@ export interface RunSeries {
 
 export interface RunRecord {
   runId: string;
+  /** the run's name for people (src/session/runs.ts); absent in runs saved before runs had names */
+  name?: string;
   status: RunStatus;
   config: TrainConfig;
   datasetHash: string;
@@ -94,8 +98,22 @@ export interface PracticeState {
   baseName: string;
 }
 
+/** The fine-tuned reader in use, to bring back after a reload: the checkpoint that holds it. */
+export interface TunedState {
+  checkpointId: string;
+  /** its name for people (src/session/runs.ts tunedReaderName) */
+  name: string;
+  /** the base reader it was trained from; another base loaded makes it void */
+  baseName: string;
+}
+
 export interface WorkbenchState {
   dataset: Dataset;
+  /** every run started, newest first */
+  runs: RunSummary[];
+  tuned: TunedState | null;
+  /** 2: the window settings were moved from the old defaults 256/64 (or never had them) */
+  settingsVersion: number;
   split: SplitSettings;
   base: StoredBase;
   settings: TrainConfig;

@@ -54,6 +54,10 @@ function withCallbacks(request: Exclude<EngineRequest, { kind: 'init' }>): objec
     const runId = request.runId;
     return { ...args, onEvent: (event: import('../src/train/loop.js').LoopEvent) => post({ type: 'run-event', runId, event }) };
   }
+  if (request.kind === 'evaluate-in-steps') {
+    const evaluationId = request.evaluationId;
+    return { ...args, onProgress: (done: number, total: number) => post({ type: 'evaluation-progress', evaluationId, done, total }) };
+  }
   if (request.kind === 'learning-curve') {
     const curveId = request.curveId;
     return { ...args, onEvent: (event: import('./protocol.js').CurveEvent) => post({ type: 'curve-event', curveId, event }) };

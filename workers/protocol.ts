@@ -8,7 +8,8 @@
 // answers every request exactly once with a `reply` (the result, or an error message),
 // and while a training run goes it also sends `run-event` messages (the training loop's
 // own LoopEvent, src/train/loop.ts), and while a learning curve is drawn, `curve-event`
-// messages (CurveEvent). Everything here is plain data, so it crosses postMessage and
+// messages (CurveEvent), and while an evaluation in steps goes, `evaluation-progress`
+// messages (questions done of all). Everything here is plain data, so it crosses postMessage and
 // lands in IndexedDB unchanged. No tensors ever reach the page.
 import type { ReaderSession } from '../src/session/reader-session.js';
 import type { CurveEvent } from '../src/session/types.js';
@@ -34,6 +35,8 @@ export const SESSION_METHODS = {
   'learning-curve': 'learningCurve',
   'cancel-curve': 'cancelCurve',
   evaluate: 'evaluate',
+  'evaluate-in-steps': 'evaluateInSteps',
+  'cancel-evaluation': 'cancelEvaluation',
   ask: 'ask',
   export: 'exportReader',
   'export-checkpoint': 'exportCheckpoint',
@@ -76,4 +79,6 @@ export type WorkerMessage =
   | { type: 'reply'; requestId: number; ok: true; result: EngineResults[RequestKind] }
   | { type: 'reply'; requestId: number; ok: false; error: string }
   | { type: 'run-event'; runId: string; event: LoopEvent }
-  | { type: 'curve-event'; curveId: string; event: CurveEvent };
+  | { type: 'curve-event'; curveId: string; event: CurveEvent }
+  /** an evaluation in steps has scored `done` of its `total` questions */
+  | { type: 'evaluation-progress'; evaluationId: string; done: number; total: number };

@@ -73,6 +73,8 @@ export interface PruneOptions {
   keepLast?: number;
   /** prune only among the checkpoints of this dataset hash; the others are left alone */
   datasetHash?: string;
+  /** prune only among the checkpoints whose meta carries this `runId` (a trainer's field, e.g. RunMeta's) */
+  runId?: string;
 }
 
 export interface StoreUsage {
@@ -249,7 +251,7 @@ function checkMeta(id: string, meta: CheckpointMeta): void {
 /**
  * The ids `prune` deletes: all but the `keepBest` highest validation F1 (a checkpoint
  * without one ranks lowest; ties go to the later step) and the `keepLast` latest steps —
- * among the checkpoints of `datasetHash` when given, the others never deleted.
+ * among the checkpoints of `datasetHash` and of `runId` when given, the others never deleted.
  */
 export function choosePrunable(all: readonly CheckpointSummary[], opts: PruneOptions): string[] {
   const count = (v: number | undefined, field: string): number => {
@@ -262,7 +264,11 @@ export function choosePrunable(all: readonly CheckpointSummary[], opts: PruneOpt
   if (opts.keepBest === undefined && opts.keepLast === undefined) {
     throw new Error('prune: give keepBest, keepLast or both (pruning with neither would delete every checkpoint)');
   }
-  const summaries = opts.datasetHash === undefined ? all : all.filter((s) => s.meta.datasetHash === opts.datasetHash);
+  const summaries = all.filter(
+    (s) =>
+      (opts.datasetHash === undefined || s.meta.datasetHash === opts.datasetHash) &&
+      (opts.runId === undefined || (s.meta as { runId?: unknown }).runId === opts.runId),
+  );
   const byRecency = [...summaries].sort(compareRecency).reverse();
   const f1 = (s: CheckpointSummary): number => s.meta.metrics.validationF1 ?? -Infinity;
   const byF1 = [...summaries].sort((a, b) => f1(b) - f1(a) || compareRecency(b, a));

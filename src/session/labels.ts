@@ -1,4 +1,4 @@
-// defines: stageLabel, checkpointLabel, metricLabel — the words people see for a
+// defines: stageLabel, checkpointLabel, runLabel, metricLabel — the words people see for a
 // checkpoint and its measurements, in the workbench and in exported model cards alike,
 // instead of the store's ids ("ckpt-120-lz3k…") and the metric keys ("validationF1").
 import type { RunStage } from '../train/finetune.js';
@@ -14,6 +14,11 @@ export function stageLabel(stage: RunStage | undefined): string {
 export function checkpointLabel(meta: { stage?: RunStage; step: number }): string {
   const what = meta.stage === 'practice' || meta.stage === 'domain' ? stageLabel(meta.stage) : 'fine-tuned';
   return `${what}, update ${meta.step}`;
+}
+
+/** The run that saved a checkpoint, by its name; "earlier run" for a checkpoint from before runs had names. */
+export function runLabel(meta: { runName?: string }): string {
+  return meta.runName ?? 'earlier run';
 }
 
 const METRICS: Record<string, string> = {

@@ -770,7 +770,13 @@ export class ReaderSession {
       const features = this.windows(args, r).features;
       const step = Math.max(1, args.step ?? 8);
       const total = args.records.length;
-      const decoded: ReturnType<typeof predictRecords> = { predictions: {}, bestSpans: {}, scoreDiffs: {}, decodings: new Map(), windows: 0 };
+      const decoded: ReturnType<typeof predictRecords> = {
+        predictions: {},
+        bestSpans: {},
+        scoreDiffs: {},
+        decodings: new Map(),
+        windows: 0,
+      };
       args.onProgress?.(0, total);
       for (let at = 0; at < total; at += step) {
         // let a cancel request in

@@ -78,6 +78,8 @@ async function shot(name: string, forReadme = false): Promise<void> {
 
 async function setField(name: string, value: number): Promise<void> {
   const input = page.locator(`training-screen input[name="${name}"]`);
+  // the less used settings are folded: open the field's group
+  await input.evaluate((el) => el.closest('details')?.setAttribute('open', ''));
   await input.fill(String(value));
   await input.dispatchEvent('change');
 }
@@ -171,14 +173,42 @@ describe('the browser workbench', () => {
     await page.locator('#add-passage').click();
     const box = page.locator('#passage-text');
     await expect(box.inputValue()).resolves.toBe(markup);
-    // label it: select "<script>" by offsets, as Shift+arrows would
-    await box.evaluate((el: HTMLTextAreaElement) => el.setSelectionRange(0, '<script>'.length));
-    await page.locator('#use-selection').click();
+    // a question with no answer chosen: the message stands beside the button pressed
     await page.locator('#question-input').fill('Which tag opens the note?');
+    await page.locator('#save-question').click();
+    await expect(page.locator('#save-message').textContent()).resolves.toMatch(/Choose the answer first/);
+    // label it from the keyboard, as the hint says: the text box takes the caret, Shift+arrows select, typing changes nothing
+    await box.focus();
+    await page.keyboard.press('Control+Home');
+    for (let i = 0; i < '<script>'.length; i++) await page.keyboard.press('Shift+ArrowRight');
+    await page.keyboard.type('typed');
+    await expect(box.inputValue()).resolves.toBe(markup);
+    await page.keyboard.press('Control+Home');
+    for (let i = 0; i < '<script>'.length; i++) await page.keyboard.press('Shift+ArrowRight');
+    await page.locator('#use-selection').click();
+    await expect(page.locator('#answer-state .answer').textContent()).resolves.toBe('<script>');
     await page.locator('#save-question').click();
     const item = page.locator('ul.questions li', { hasText: 'Which tag opens the note?' });
     await item.waitFor();
     await expect(item.locator('.answer').textContent()).resolves.toBe('<script>');
+    // the answer given is highlighted in the passage
+    const marked = () =>
+      page
+        .locator('passage-labeller marked-passage')
+        .evaluate((el) => [...el.shadowRoot!.querySelectorAll('mark.gold')].map((m) => m.textContent));
+    await expect(marked()).resolves.toEqual(['<script>']);
+    // undo of the add: the question goes, and so does the note, once nothing is left to undo
+    await expect(page.locator('#undo-note').textContent()).resolves.toMatch(/Added “Which tag opens the note\?”/);
+    await page.locator('#undo').click();
+    await expect(item.count()).resolves.toBe(0);
+    await expect(page.locator('#undo-note').count()).resolves.toBe(0);
+    await expect(marked()).resolves.toEqual([]);
+    // labelled again for the steps after this one
+    await box.evaluate((el: HTMLTextAreaElement) => el.setSelectionRange(0, '<script>'.length));
+    await page.locator('#use-selection').click();
+    await page.locator('#question-input').fill('Which tag opens the note?');
+    await page.locator('#save-question').click();
+    await item.waitFor();
     const found = await page.evaluate(() => {
       const all: Element[] = [];
       const walk = (root: Document | ShadowRoot) => {
@@ -215,6 +245,8 @@ describe('the browser workbench', () => {
       await page.locator(`#${id}`).fill(String(value));
       await page.locator(`#${id}`).dispatchEvent('change');
     };
+    // folded until used
+    await page.locator('#practice-fold > summary').click();
     // small settings: a short run that still writes questions of every kind
     await fill('practice-per-passage', 2);
     await fill('practice-max-len', 32); // the checkpoint folder loaded above has 32 positions
@@ -321,7 +353,39 @@ describe('the browser workbench', () => {
     await page.locator('#pause-run').click();
     await page.locator('#run-status[data-status="paused"]').waitFor({ timeout: 120_000 });
     await collectLongTasks(trainingSince, await now());
-    await expect(page.locator('#resume-run').textContent()).resolves.toMatch(/Resume from update \d+/);
+    await expect(page.locator('#resume-run').textContent()).resolves.toMatch(/Resume “run 1” from update \d+/);
+    // the paused run's reader is in use, named on every screen
+    const inUse = (await page.locator('#tuned-name').textContent())?.trim() ?? '';
+    expect(inUse).toMatch(/^run 1, update \d+ \(unfinished\)$/);
+    await expect(page.locator('#run-history tbody tr').count()).resolves.toBe(2); // the practice stage and run 1
+  });
+
+  it('asks before a new run replaces the fine-tuned reader in use, and shows Start and the charts at 1280×800', async () => {
+    await page.setViewportSize({ width: 1280, height: 800 });
+    // as a visit finds the screen: the folded settings folded (the steps above opened some)
+    await screen('checkpoints');
+    await screen('training');
+    await page.evaluate(() => window.scrollTo(0, 0));
+    const viewport = { width: 1280, height: 800 };
+    for (const id of ['#start-run', '#chart-loss', '#chart-eval']) {
+      const box = await page.locator(id).boundingBox();
+      expect(box, id).not.toBeNull();
+      expect(box!.y + Math.min(box!.height, 60), `${id} at ${box!.y}`).toBeLessThan(viewport.height);
+    }
+    await expect(page.locator('#run-name').inputValue()).resolves.toBe('run 2');
+    const inUse = (await page.locator('#tuned-name').textContent())?.trim() ?? '';
+    await page.locator('#start-run').click();
+    const ask = page.locator('#confirm-new-run');
+    await ask.waitFor();
+    await expect(ask.textContent()).resolves.toContain(inUse);
+    await expect(page.locator('#confirm-start').textContent()).resolves.toMatch(/Start “run 2” and replace it/);
+    await shot('training-confirm');
+    await page.locator('#cancel-start').click();
+    await expect(ask.count()).resolves.toBe(0);
+    // nothing started: the paused run and the reader in use are as they were
+    await expect(page.locator('#run-status').getAttribute('data-status')).resolves.toBe('paused');
+    await expect(page.locator('#tuned-name').textContent()).resolves.toContain(inUse);
+    await page.setViewportSize({ width: 1280, height: 900 });
   });
 
   it('lists the checkpoints with their scores and storage', async () => {
@@ -332,6 +396,13 @@ describe('the browser workbench', () => {
     // the stages before fine-tuning kept their own checkpoints: pruning a run touches only its own
     const stages = new Set((await page.locator('#checkpoint-table tbody td.stage').allTextContents()).map((t) => t.trim()));
     expect([...stages].sort()).toEqual(['fine-tuning', 'masked-LM', 'practice']);
+    // each row names its run: the fine-tuning checkpoints run 1's, the stages before it practice 1's
+    const runs = await page
+      .locator('#checkpoint-table tbody tr')
+      .evaluateAll((rows) =>
+        rows.map((r) => [r.querySelector('td.run')?.textContent?.trim(), r.querySelector('td.stage')?.textContent?.trim()]),
+      );
+    for (const [run, stage] of runs) expect(run).toBe(stage === 'fine-tuning' ? 'run 1' : 'practice 1');
     await expect(page.locator('#storage').textContent()).resolves.toMatch(/Checkpoints take\s+[\d.]+ MB/);
     // two ticked side by side: headed by stage and update, rows by names for people, never by ids or keys
     const boxes = page.locator('#checkpoint-table tbody input[type="checkbox"]');
@@ -346,6 +417,12 @@ describe('the browser workbench', () => {
       expect(comparison).not.toContain(id);
     expect(comparison).not.toMatch(/validationF1|learningRate|batchSize/);
     expect(comparison).toContain('Learning rate');
+    expect(
+      (await page
+        .locator('#comparison tbody tr', { hasText: /^\s*Run/ })
+        .first()
+        .textContent()) ?? '',
+    ).toMatch(/run 1|practice 1/);
     await shot('checkpoints');
   });
 
@@ -353,8 +430,15 @@ describe('the browser workbench', () => {
     await screen('evaluation');
     await page.locator('#evaluate').click();
     await page.locator('#question-table tbody tr').first().waitFor({ timeout: 120_000 });
+    await page.locator('#evaluate:enabled').waitFor({ timeout: 120_000 }); // both readers scored
     const summary = (await page.locator('#eval-summary').textContent()) ?? '';
     expect(summary).toContain('F1, answerable');
+    // the fine-tuned column is named by its run; progress is gone once both readers are scored
+    await expect(page.locator('#eval-summary .reader-name').last().textContent()).resolves.toMatch(/^run 1, update \d+/);
+    await expect(page.locator('#evaluate-progress').count()).resolves.toBe(0);
+    // a warning comparing base and fine-tuned says which row it compares
+    for (const w of await page.locator('.reader-warning', { hasText: 'did not raise' }).allTextContents())
+      expect(w).toContain('“F1, all” row');
     await page.locator('#misses-only').check();
     const outcomes = await page.locator('#question-table tbody tr').evaluateAll((rows) => rows.map((r) => r.getAttribute('data-outcome')));
     expect(outcomes.every((o) => o !== 'correct')).toBe(true);
@@ -465,11 +549,12 @@ describe('the browser workbench', () => {
     const fp16Files = await unzipDownload(fp16);
     expect(fp16Files.get('model.safetensors')!.length).toBeLessThan(fp32Files.get('model.safetensors')!.length);
     expect(await page.locator('#downloads a[data-variant]').count()).toBe(2);
-    // int8 weights (with their measured logit drift in the card) are built in the worker too
-    await page.locator('#export-int8').click();
-    for (const name of ['model.int8.safetensors', 'MODEL_CARD.md']) {
-      await page.locator(`li:has(a[data-variant="int8"]) code[data-entry="${name}"]`).waitFor({ timeout: 60_000 });
-    }
+    // int8 weights are built in the worker too; the card measures them on the validation questions held here
+    const int8Files = await unzipDownload(await exportBundle('int8', 'tuned'));
+    expect(int8Files.has('model.int8.safetensors')).toBe(true);
+    const int8Card = new TextDecoder().decode(int8Files.get('MODEL_CARD.md'));
+    expect(int8Card).toMatch(/\| int8 \(dequantized\) \|/);
+    expect(int8Card).not.toContain('not measured in this export');
     // model.onnx is built in the worker under the page's CSP (no 'unsafe-eval'); run by
     // onnxruntime-node (the reference ONNX runtime, npm `onnxruntime-node`) it gives the
     // engine's logits (tfjs cpu backend) for the fp32 weights downloaded above, within 1e-4
@@ -626,6 +711,59 @@ describe('the browser workbench', () => {
     expect(await details.locator('li').count()).toBe(Math.min(train.length, 500) + (train.length > 500 ? 1 : 0));
     await expect(page.locator('#split-counts').textContent()).resolves.toBe(before);
     await shot('data-reimport');
+  });
+
+  it('fits a 390×844 screen: no element reaches past the viewport, one row of screen buttons, badges that stay put', async () => {
+    await page.setViewportSize({ width: 390, height: 844 });
+    // the header's height before and after the engine reports: the badges keep their place
+    await page.reload();
+    await page.waitForFunction(() => document.querySelector('spanwright-app')?.shadowRoot?.querySelector('header') != null);
+    const headerHeight = () =>
+      page.locator('spanwright-app').evaluate((el) => el.shadowRoot!.querySelector('header')!.getBoundingClientRect().height);
+    const before = await headerHeight();
+    await waitForEngine();
+    expect(await headerHeight()).toBe(before);
+    for (const name of ['data', 'reader', 'training', 'checkpoints', 'evaluation', 'ask', 'export'] as const) {
+      await screen(name);
+      if (name === 'checkpoints') await page.locator('#checkpoint-table tbody tr').first().waitFor();
+      if (name === 'training') await page.locator('#chart-loss').waitFor();
+      // every element, inside shadow roots too, lies within the viewport's width, or inside a box that scrolls sideways and does
+      const wide = await page.evaluate(() => {
+        const width = document.documentElement.clientWidth;
+        const scrolls = (el: Element) => ['auto', 'scroll'].includes(getComputedStyle(el).overflowX);
+        /** an ancestor (across shadow roots) that scrolls sideways: its content may be wider than it */
+        const inScroller = (el: Element): boolean => {
+          for (let at: Element | null = el; ;) {
+            const parent: Element | null = at.parentElement ?? ((at.getRootNode() as ShadowRoot).host as Element | undefined) ?? null;
+            if (!parent) return false;
+            if (scrolls(parent)) return true;
+            at = parent;
+          }
+        };
+        const out: string[] = [];
+        const walk = (root: Document | ShadowRoot) => {
+          for (const el of root.querySelectorAll('*')) {
+            const r = el.getBoundingClientRect();
+            if (r.width > 0 && (r.left < -0.5 || r.right > width + 0.5) && !inScroller(el))
+              out.push(
+                `<${el.tagName.toLowerCase()} id="${el.id}" class="${el.getAttribute('class') ?? ''}"> ${Math.round(r.left)}–${Math.round(r.right)}`,
+              );
+            if (el.shadowRoot) walk(el.shadowRoot);
+          }
+        };
+        walk(document);
+        return { out, page: document.documentElement.scrollWidth - width };
+      });
+      expect(wide.page, `${name}: the page scrolls sideways`).toBeLessThanOrEqual(0);
+      expect(wide.out, `${name}: elements past the viewport`).toEqual([]);
+      // the screen buttons: one row
+      const rows = await page
+        .locator('nav button')
+        .evaluateAll((bs) => new Set(bs.map((b) => Math.round(b.getBoundingClientRect().top))).size);
+      expect(rows, `${name}: rows of screen buttons`).toBe(1);
+      await shot(`narrow-${name}`);
+    }
+    await page.setViewportSize({ width: 1280, height: 900 });
   });
 
   it('made no request to another origin, logged no error, and kept the page responsive while training', () => {
