@@ -18,7 +18,7 @@ import { evaluateRecords } from '../eval/evaluate.js';
 import type { Checkpoint, CheckpointMeta, CheckpointStore } from '../io/checkpoint-store.js';
 import type { ReaderConfig } from '../model/config.js';
 import { ReaderParams } from '../model/params.js';
-import { FeatureBuilder, type FeatureTokenizer } from '../text/features.js';
+import { FeatureBuilder, type Feature, type FeatureTokenizer } from '../text/features.js';
 import { packDocuments, packedExample } from './mlm-data.js';
 import type { AdamWState } from './adamw.js';
 import type { TrainConfig } from './config.js';
@@ -92,20 +92,7 @@ export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
   const { config } = req;
   if (req.maskedLm) return maskedLmRun(req, req.maskedLm.texts);
   // 1. windows
-  const builder = new FeatureBuilder(req.tokenizer, {
-    maxLength: config.maxLength,
-    stride: config.stride,
-    maxQueryLength: config.maxQueryLength,
-    questionMatch: req.base.config.questionMatch,
-  });
-  let features = req.train.flatMap((r) => builder.build(r).features);
-  builder.clearCache();
-  if (req.noAnswerWindowShare !== undefined) {
-    const keep = mulberry32(config.seed ^ 0x5a17);
-    const share = req.noAnswerWindowShare;
-    features = features.filter((f) => f.startPosition > 0 || keep() < share);
-  }
-  if (features.length === 0) throw new Error('fine-tuning needs at least one training question');
+  const { features, builder } = trainingWindows(req);
   const validationWindows = req.validation
     ? req.validation.flatMap((r) => new FeatureBuilder(req.tokenizer, builder.options).build(r).features)
     : [];
@@ -151,6 +138,34 @@ export async function fineTune(req: FineTuneRequest): Promise<FineTuneResult> {
   } finally {
     trainer.dispose();
   }
+}
+
+/**
+ * Step 1 of a span run: the windows it trains on, in the order the data order indexes
+ * them. Exported so a job for another trainer (src/io/torch-job.ts) carries exactly
+ * these windows.
+ */
+export function trainingWindows(
+  req: Pick<FineTuneRequest, 'tokenizer' | 'train' | 'config' | 'noAnswerWindowShare'> & {
+    base: { config: Pick<ReaderConfig, 'questionMatch'> };
+  },
+): { features: Feature[]; builder: FeatureBuilder } {
+  const { config } = req;
+  const builder = new FeatureBuilder(req.tokenizer, {
+    maxLength: config.maxLength,
+    stride: config.stride,
+    maxQueryLength: config.maxQueryLength,
+    questionMatch: req.base.config.questionMatch,
+  });
+  let features = req.train.flatMap((r) => builder.build(r).features);
+  builder.clearCache();
+  if (req.noAnswerWindowShare !== undefined) {
+    const keep = mulberry32(config.seed ^ 0x5a17);
+    const share = req.noAnswerWindowShare;
+    features = features.filter((f) => f.startPosition > 0 || keep() < share);
+  }
+  if (features.length === 0) throw new Error('fine-tuning needs at least one training question');
+  return { features, builder };
 }
 
 /** The masked-LM run of `fineTune` (req.maskedLm): packed rows instead of windows, no evaluation. */
