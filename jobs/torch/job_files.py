@@ -140,7 +140,10 @@ def read_job(folder):
         raise JobError(f"{path}: field format is {job.get('format')!r}, not {JOB_FORMAT!r}")
     if not isinstance(job.get("version"), int) or job["version"] > JOB_VERSION:
         raise JobError(f"{path}: field version is {job.get('version')!r}; this program reads version {JOB_VERSION} and earlier")
-    for field in ("train", "plan", "reader", "windows", "datasetHash", "base"):
+    task = job.setdefault("task", "span")
+    if task not in ("span", "masked-lm"):
+        raise JobError(f"{path}: field task is {task!r}; this program runs \"span\" and \"masked-lm\" jobs")
+    for field in ("train", "plan", "reader", "datasetHash", "base") + (("windows",) if task == "span" else ("rows", "masking")):
         if field not in job:
             raise JobError(f"{path}: field {field} is missing")
     return job
@@ -204,9 +207,9 @@ def list_checkpoints(folder):
     return out
 
 
-def latest_checkpoint(folder, dataset_hash):
-    """The newest fine-tuning checkpoint of this data, or None."""
-    mine = [s for s in list_checkpoints(folder) if s["meta"].get("datasetHash") == dataset_hash and s["meta"].get("stage", "fine-tune") == "fine-tune"]
+def latest_checkpoint(folder, dataset_hash, stage):
+    """The newest checkpoint of this data and stage ("fine-tune" when a meta names none), or None."""
+    mine = [s for s in list_checkpoints(folder) if s["meta"].get("datasetHash") == dataset_hash and s["meta"].get("stage", "fine-tune") == stage]
     return mine[-1] if mine else None
 
 

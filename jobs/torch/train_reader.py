@@ -1,5 +1,8 @@
-# defines: the training program of a Spanwright job folder — the fine-tuning run the
-# engine would take (src/train/loop.ts, trainer.ts), on PyTorch with DistributedDataParallel.
+# defines: the training program of a Spanwright job folder — the run the engine would take
+# (src/train/loop.ts, trainer.ts), on PyTorch with DistributedDataParallel: fine-tuning on
+# the job's windows (task "span", `spanwright job`), or masked-LM on packed rows (task
+# "masked-lm", the base recipe's `--job`; SpanTask and MaskedLmTask below differ only in
+# their data and their loss).
 #
 #   on this machine (CPU processes, gloo):
 #     torchrun --standalone --nproc_per_node 2 train_reader.py
@@ -33,9 +36,11 @@
 #                      job, decay λ except on biases and LayerNorm
 #   7. report          rank 0 writes the update's loss (summed over processes), lr, ‖g‖
 #
-# Dropout (when the job's rates are above 0) is torch's own, its generator seeded from (seed,
-# update, micro-batch) before every micro-batch, so a resumed run repeats an uninterrupted
-# one and the masks do not depend on the process count; they are not the engine's masks.
+# A masked-LM micro-batch is masked by the engine's own draws (masking.py), so with dropout
+# off that run is the engine's too. Dropout (when the job's rates are above 0) is torch's
+# own, its generator seeded from (seed, update, micro-batch) before every micro-batch, so a
+# resumed run repeats an uninterrupted one and the masks do not depend on the process
+# count; they are not the engine's masks.
 
 import argparse
 import json
@@ -54,6 +59,7 @@ HERE = os.path.dirname(os.path.abspath(__file__))
 sys.path.insert(0, HERE)
 import job_files as files  # noqa: E402
 from job_files import JobError  # noqa: E402
+import masking  # noqa: E402
 import reader_model as rm  # noqa: E402
 
 # the MLM head's tensors: not trained here (the span loss does not reach them), carried along
@@ -123,7 +129,7 @@ def dropout_seed(seed, k, micro):
 # ---- loading ----------------------------------------------------------------------------
 
 
-def load_windows(path, job, cfg):
+def _load_windows(path, job, cfg):
     tensors, _ = files.read_safetensors(path)
     need = ("input_ids", "token_type_ids", "attention_mask", "start_positions", "end_positions", "epoch_order")
     for name in need:
@@ -158,6 +164,100 @@ def load_windows(path, job, cfg):
     if list(order.shape) != [job["train"]["epochs"], N]:
         raise JobError(f"{path}: tensor \"epoch_order\" has shape {list(order.shape)}, expected [{job['train']['epochs']}, {N}]")
     return dict(ids=ids.long(), types=types.long(), mask=mask.long(), start=tensors["start_positions"].long(), end=tensors["end_positions"].long()), order
+
+
+
+
+class SpanTask:
+    """Fine-tuning on the job's windows: the span head's start/end loss (src/train/trainer.ts step)."""
+
+    stage = "fine-tune"
+    # the MLM head: not reached by the span loss, so carried along untrained
+    carried = MLM_HEAD
+    # the model directory holds every engine tensor
+    left_out = ()
+
+    def __init__(self, job_dir, job, cfg):
+        self.windows, self.order = _load_windows(os.path.join(job_dir, job["windows"]["file"]), job, cfg)
+        self.count = job["windows"]["count"]
+        self.trim = job["train"]["trimPadding"]
+
+    def model(self, cfg):
+        return rm.SpanReader(cfg)
+
+    def tokens(self, rows):
+        return int(self.windows["mask"][rows].sum())
+
+    def loss(self, net, rows, k, i, device):
+        w = self.windows
+        mask = w["mask"][rows]
+        T_b = int((mask * torch.arange(1, mask.shape[1] + 1)).max().clamp(min=1)) if self.trim else mask.shape[1]
+        ids, types, mask = (w[f][rows][:, :T_b].to(device) for f in ("ids", "types", "mask"))
+        start_logits, end_logits = net(ids, types, mask)
+        return rm.span_loss(start_logits, end_logits, w["start"][rows].to(device), w["end"][rows].to(device), mask)
+
+
+class MaskedLmTask:
+    """Masked-LM on packed rows, each micro-batch masked as the engine's collateMlm (src/train/trainer.ts mlmStep)."""
+
+    stage = "masked-lm"
+    # the span head: not reached by the masked-LM loss
+    carried = ("qa_outputs.weight", "qa_outputs.bias")
+    # and, as the base recipe's finish step does, left out of the model directory, so a
+    # loader says the span head is new
+    left_out = carried
+
+    def __init__(self, job_dir, job, cfg):
+        rows = job["rows"]
+        T = rows["maxLength"]
+        ids, lengths = [], []
+        for shard in rows["shards"]:
+            path = os.path.join(job_dir, shard["file"])
+            tensors, _ = files.read_safetensors(path)
+            for name in ("input_ids", "lengths"):
+                if name not in tensors or tensors[name].dtype != torch.int32:
+                    raise JobError(f"{path}: tensor \"{name}\" is missing or not I32")
+            if list(tensors["input_ids"].shape) != [shard["rows"], T] or list(tensors["lengths"].shape) != [shard["rows"]]:
+                raise JobError(f"{path}: tensors input_ids {list(tensors['input_ids'].shape)} and lengths {list(tensors['lengths'].shape)}, job.json says {shard['rows']} rows of {T}")
+            x, n = tensors["input_ids"], tensors["lengths"]
+            bad = ((x < 0) | (x >= cfg["vocab_size"])).nonzero()
+            if len(bad) > 0:
+                r, t = bad[0].tolist()
+                raise JobError(f"{path}: row {r}, field input_ids[{t}] is {x[r, t].item()}; the base's vocab_size is {cfg['vocab_size']}")
+            bad = ((n < 3) | (n > T)).nonzero()
+            if len(bad) > 0:
+                r = bad[0].item()
+                raise JobError(f"{path}: row {r}, field lengths is {n[r].item()}, outside [3, {T}]")
+            ids.append(x.long())
+            lengths.append(n.long())
+        self.ids = torch.cat(ids)
+        self.lengths = torch.cat(lengths)
+        self.count = rows["count"]
+        if len(self.ids) != self.count:
+            raise JobError(f"{os.path.join(job_dir, 'job.json')}: field rows.count is {self.count}, the shards hold {len(self.ids)} rows")
+        path = os.path.join(job_dir, rows["order"])
+        tensors, _ = files.read_safetensors(path)
+        if "epoch_order" not in tensors or list(tensors["epoch_order"].shape) != [job["train"]["epochs"], self.count]:
+            raise JobError(f"{path}: tensor \"epoch_order\" must be [{job['train']['epochs']}, {self.count}]")
+        self.order = tensors["epoch_order"].long()
+        self.masking = job["masking"]
+        self.seed = job["train"]["seed"]
+        self.trim = job["train"]["trimPadding"]
+
+    def model(self, cfg):
+        return rm.MaskedLmReader(cfg)
+
+    def tokens(self, rows):
+        return int(self.lengths[rows].sum())
+
+    def loss(self, net, rows, k, i, device):
+        lengths = self.lengths[rows]
+        T = self.ids.shape[1]
+        T_b = int(lengths.max()) if self.trim else T
+        attention = (torch.arange(T_b)[None, :] < lengths[:, None]).long()  # [B, T]
+        masked, positions, labels = masking.mask_rows(self.ids[rows][:, :T_b], attention, self.masking, masking.seed_at(self.seed, "mlm", k, i))
+        logits = net(masked.to(device), torch.zeros_like(masked).to(device), attention.to(device), positions.to(device))  # [M, V]
+        return rm.mlm_loss(logits, labels.to(device))
 
 
 def load_base(job_dir, job):
@@ -207,15 +307,16 @@ def main(argv):
     base_dir, cfg, base_weights, weights_path, vocab_file = load_base(job_dir, job)
     if train.get("dropout") is not None:
         cfg["hidden_dropout"] = cfg["attention_dropout"] = float(train["dropout"])
-    windows, order = load_windows(os.path.join(job_dir, job["windows"]["file"]), job, cfg)
-    plan = plan_training(train, job["windows"]["count"])
+    task = (SpanTask if job["task"] == "span" else MaskedLmTask)(job_dir, job, cfg)
+    order = task.order
+    plan = plan_training(train, task.count)
     for key, value in plan.items():
         if job["plan"].get(key) != value:
             raise JobError(f"{os.path.join(job_dir, 'job.json')}: field plan.{key} is {job['plan'].get(key)}, the settings give {value}")
     S, W, U = plan["totalUpdates"], plan["warmupUpdates"], plan["updatesPerEpoch"]
 
-    # the model, from the base (every tensor the span model has must be there, float32)
-    model = rm.SpanReader(cfg)
+    # the model, from the base (every tensor the task's model has must be there)
+    model = task.model(cfg)
     own = model.state_dict()
     for name, t in own.items():
         if name not in base_weights:
@@ -223,13 +324,13 @@ def main(argv):
         if list(base_weights[name].shape) != list(t.shape):
             raise JobError(f"{weights_path}: tensor \"{name}\" has shape {list(base_weights[name].shape)}, config.json gives {list(t.shape)}")
     model.load_state_dict({name: base_weights[name] for name in own})
-    carried = [(n, base_weights[n]) for n in MLM_HEAD if n in base_weights]
+    carried = [(n, base_weights[n]) for n in task.carried if n in base_weights]
 
     # 3. resume: weights, moments and update count from a checkpoint (the engine's or ours)
     checkpoints = os.path.join(out, "checkpoints")
     start, moments, steps = 0, None, None
     if args.resume:
-        summary = files.latest_checkpoint(checkpoints, job["datasetHash"])
+        summary = files.latest_checkpoint(checkpoints, job["datasetHash"], task.stage)
         if summary is None:
             raise JobError(f"{checkpoints}: no checkpoint of this job's data (dataset hash {job['datasetHash']}) to resume from")
         meta, weights, moments, steps = files.load_checkpoint(checkpoints, summary)
@@ -294,7 +395,7 @@ def main(argv):
             "metrics": {} if last_loss is None else {"loss": last_loss},
             "label": reason,
             "run": {"trainer": {"update": k, "seed": train["seed"]}, "order": {"epoch": epoch, "index": index}, "totalUpdates": S, "features": plan["features"]},
-            "stage": "fine-tune",
+            "stage": task.stage,
             "trainedBy": f"torch {torch.__version__}, {world} process(es), {device.type}",
         }
         weights = [(n, t) for n, t in model.state_dict().items()] + carried
@@ -329,20 +430,15 @@ def main(argv):
         A_k = len(groups_k)
         mine = [(i, g) for i, g in enumerate(groups_k) if i % world == rank] or [(0, None)]
         local = torch.zeros((), dtype=torch.float32, device=device)
-        tokens = sum(int(windows["mask"][g].sum()) for g in groups_k)
+        tokens = sum(task.tokens(g) for g in groups_k)
         # 4. forward and backward
         net.train()
         for j, (i, g) in enumerate(mine):
             weight = world if g is not None else 0.0
-            rows = g if g is not None else groups_k[0]
-            mask = windows["mask"][rows]
-            T_b = int((mask * torch.arange(1, mask.shape[1] + 1)).max().clamp(min=1)) if train["trimPadding"] else mask.shape[1]
-            inputs = [windows[f][rows][:, :T_b].to(device) for f in ("ids", "types", "mask")]
             torch.manual_seed(dropout_seed(train["seed"], k, i))
             synced = j == len(mine) - 1
-            with (net.no_sync() if distributed and not synced else _nothing()):
-                start_logits, end_logits = net(*inputs)
-                loss = rm.span_loss(start_logits, end_logits, windows["start"][rows].to(device), windows["end"][rows].to(device), inputs[2]) / A_k
+            with net.no_sync() if distributed and not synced else _nothing():
+                loss = task.loss(net, g if g is not None else groups_k[0], k, i, device) / A_k
                 (loss * weight).backward()
             if g is not None:
                 local += loss.detach()
@@ -384,7 +480,8 @@ def main(argv):
 
     save("end", S, last_loss)
     if rank == 0:
-        write_model(out, base_dir, vocab_file, [(n, t) for n, t in model.state_dict().items()] + carried)
+        kept = [(n, t) for n, t in list(model.state_dict().items()) + carried if n not in task.left_out]
+        write_model(out, base_dir, vocab_file, kept)
         with open(os.path.join(out, "run.json"), "w", encoding="utf-8") as f:
             json.dump({"updates": S, "from": start, "lastLoss": last_loss, "seconds": round(time.time() - started, 3), "processes": world, "device": device.type, "torch": torch.__version__}, f, indent=2)
             f.write("\n")

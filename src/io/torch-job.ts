@@ -1,8 +1,10 @@
-// defines: torchJobFiles, TorchJobRequest, TorchJob, JOB_FORMAT, baseWeightsAsIs — the
-// data files of a job folder for PyTorch's distributed training (jobs/torch/): the same
-// fine-tuning run the engine would take, handed to torch.distributed when one CPU is not
-// enough. No Node APIs here: the CLI (src/cli/commands/job.ts) adds the base directory and
-// the program files and writes the folder; a page could zip the same list.
+// defines: torchJobFiles, TorchJobRequest, TorchJob, maskedLmJobFiles, MaskedLmJobRequest,
+// JOB_FORMAT, JOB_PATHS, baseWeightsAsIs — the data files of a job folder for PyTorch's
+// distributed training (jobs/torch/): the same run the engine would take, handed to
+// torch.distributed when one CPU is not enough. Two kinds: fine-tuning on labelled
+// questions (torchJobFiles, `spanwright job`) and masked-LM pretraining on packed rows
+// (maskedLmJobFiles, the base recipe's `--job`). No Node APIs here: the callers add the
+// base directory and the program files and write the folder; a page could zip the same list.
 //
 //   1. questions     the cleaned training (and validation) questions in the SQuAD 2.0
 //                    JSON layout, read back so the windows below follow the order a
@@ -25,6 +27,7 @@ import type { FeatureTokenizer } from '../text/features.js';
 import { epochOrder } from '../train/batches.js';
 import type { TrainConfig } from '../train/config.js';
 import { trainingWindows } from '../train/finetune.js';
+import type { PackedSequences } from '../train/mlm-data.js';
 import { planTraining, type TrainPlan } from '../train/schedule.js';
 import type { ExportFile } from './export.js';
 import { writeSafetensors } from './safetensors.js';
@@ -42,7 +45,13 @@ export const JOB_PATHS = {
   windows: 'windows.safetensors',
   base: 'base',
   program: 'train_reader.py',
+  /** masked-LM jobs: the packed rows in shards, and their data order */
+  rows: 'rows',
+  order: 'order.safetensors',
 } as const;
+
+/** Packed rows per shard file of a masked-LM job: 65 536 rows of 128 tokens are 32 MiB. */
+export const ROWS_PER_SHARD = 65_536;
 
 export interface TorchJobRequest {
   /** the base reader the run starts from, as the engine loaded it */
@@ -116,6 +125,7 @@ export function torchJobFiles(req: TorchJobRequest): TorchJob {
   const settings = {
     format: JOB_FORMAT,
     version: JOB_VERSION,
+    task: 'span',
     written: req.now ?? new Date().toISOString(),
     base: {
       name: req.base.name,
@@ -144,6 +154,69 @@ export function torchJobFiles(req: TorchJobRequest): TorchJob {
   };
   files.unshift({ name: JOB_PATHS.settings, bytes: encoder.encode(`${JSON.stringify(settings, null, 2)}\n`) });
   return { files, plan, windows: N, train, settings };
+}
+
+export interface MaskedLmJobRequest {
+  /** the starting weights' name (a folder, or "random start, seed N") and config */
+  base: { name: string; config: ReaderConfig };
+  /** the packed `[CLS] … [SEP]` rows (src/train/mlm-data.ts packDocuments) */
+  rows: PackedSequences;
+  /** the run's settings: rows per update (batchSize × gradAccumulation), epochs, rate, warmup, mlmProbability */
+  config: TrainConfig;
+  /** BERT's masking: the ids a row's [MASK] and random draws use, and the ids never chosen */
+  masking: { maskId: number; vocabSize: number; specialIds: readonly number[] };
+  /** names the training data, for checkpoints (the recipe's manifest hash) */
+  datasetHash: string;
+  rowsPerShard?: number;
+  now?: string;
+}
+
+/**
+ * The data files of a masked-LM job: job.json (task "masked-lm"), the rows in shards
+ * `rows/rows-00000.safetensors` … (input_ids I32 [R_s, T], lengths I32 [R_s]) and
+ * order.safetensors (epoch_order I32 [E, R], the engine's permutation of each epoch). The
+ * program masks each micro-batch as the engine's collateMlm does, from the same seeds.
+ */
+export function maskedLmJobFiles(req: MaskedLmJobRequest): { files: ExportFile[]; plan: TrainPlan; settings: Record<string, unknown> } {
+  const R = req.rows.count;
+  const T = req.rows.maxLength;
+  if (T !== req.config.maxLength)
+    throw new Error(`masked-LM job: rows of ${T} tokens, but the config's maxLength is ${req.config.maxLength}`);
+  const per = req.rowsPerShard ?? ROWS_PER_SHARD;
+  const plan = planTraining(req.config, R);
+  const files: ExportFile[] = [];
+  const shards: Array<{ file: string; rows: number }> = [];
+  for (let first = 0, n = 0; first < R; first += per, n++) {
+    const last = Math.min(R, first + per);
+    const file = `${JOB_PATHS.rows}/rows-${String(n).padStart(5, '0')}.safetensors`;
+    files.push({
+      name: file,
+      bytes: writeSafetensors([
+        ['input_ids', { dtype: 'I32', shape: [last - first, T], data: req.rows.inputIds.slice(first * T, last * T) }], // [R_s, T]
+        ['lengths', { dtype: 'I32', shape: [last - first], data: req.rows.lengths.slice(first, last) }], // [R_s]
+      ]),
+    });
+    shards.push({ file, rows: last - first });
+  }
+  const order = new Int32Array(plan.epochs * R);
+  for (let e = 0; e < plan.epochs; e++) order.set(epochOrder(R, req.config.seed, e), e * R);
+  files.push({ name: JOB_PATHS.order, bytes: writeSafetensors([['epoch_order', { dtype: 'I32', shape: [plan.epochs, R], data: order }]]) });
+  const settings = {
+    format: JOB_FORMAT,
+    version: JOB_VERSION,
+    task: 'masked-lm',
+    written: req.now ?? new Date().toISOString(),
+    base: { name: req.base.name, folder: JOB_PATHS.base, weights: 'written' },
+    reader: req.base.config,
+    train: req.config,
+    plan,
+    datasetHash: req.datasetHash,
+    rows: { count: R, maxLength: T, shards, order: JOB_PATHS.order },
+    masking: { probability: req.config.mlmProbability, ...req.masking, specialIds: [...req.masking.specialIds] },
+    program: JOB_PATHS.program,
+  };
+  files.unshift({ name: JOB_PATHS.settings, bytes: new TextEncoder().encode(`${JSON.stringify(settings, null, 2)}\n`) });
+  return { files, plan, settings };
 }
 
 /**

@@ -23,6 +23,9 @@
 //                  --checkpoint-minutes and on SIGINT/SIGTERM, and a rerun resumes from
 //                  the newest checkpoint. --documents N keeps N documents per source, for
 //                  a short check (tests/recipe/build-base.test.ts).
+//   --job DIR      instead of 4 and 5: the main phase written as a masked-LM job folder
+//                  for torch.distributed (writeMaskedLmJob below; --job-epochs,
+//                  --job-accumulate, --job-checkpoint-every)
 //   5. finish      at the end of the budget (or at once with --finish): the newest
 //                  checkpoint becomes `--out`: config.json, model.safetensors (fp16),
 //                  vocab.txt, MODEL_CARD.md, pretraining.json.
@@ -130,12 +133,16 @@ interface Args {
   /** flags given on the command line (a resumed run keeps its saved settings otherwise) */
   given: Set<keyof RecipeSettings>;
   finish: boolean;
+  /** --job: write the masked-LM stage as a job folder for torch.distributed instead of training here */
+  job: { dir: string; epochs: number; accumulate: number; checkpointEvery: number } | null;
 }
 
 function parseArgs(argv: string[]): Args {
   const settings = { ...DEFAULTS };
   const given = new Set<keyof RecipeSettings>();
   let finish = false;
+  let job: Args['job'] = null;
+  const jobNumbers = { epochs: 1, accumulate: 1, checkpointEvery: 1000 };
   const numeric: Record<string, keyof RecipeSettings> = {
     '--minutes': 'minutes',
     '--max-len': 'maxLen',
@@ -148,6 +155,7 @@ function parseArgs(argv: string[]): Args {
     '--checkpoint-minutes': 'checkpointMinutes',
     '--eval-minutes': 'evalMinutes',
     '--documents': 'documents',
+    '--dropout': 'dropout',
   };
   for (let i = 0; i < argv.length; i++) {
     const flag = argv[i]!;
@@ -177,11 +185,19 @@ function parseArgs(argv: string[]): Args {
     } else if (flag === '--work') {
       settings.work = resolve(value);
       given.add('work');
+    } else if (flag === '--job') {
+      job = { dir: resolve(value), ...jobNumbers };
+    } else if (flag === '--job-epochs' || flag === '--job-accumulate' || flag === '--job-checkpoint-every') {
+      const n = Number(value);
+      if (!Number.isInteger(n) || n < (flag === '--job-checkpoint-every' ? 0 : 1))
+        throw new Error(`${flag}: expected a whole number${flag === '--job-checkpoint-every' ? '' : ' ≥ 1'}, got "${value}"`);
+      jobNumbers[flag === '--job-epochs' ? 'epochs' : flag === '--job-accumulate' ? 'accumulate' : 'checkpointEvery'] = n;
     } else throw new Error(`unknown flag ${flag}`);
   }
+  if (job !== null) job = { ...job, ...jobNumbers };
   if (settings.maxLen < 8 || settings.maxLen > settings.longLen)
     throw new Error(`--max-len must be in [8, ${settings.longLen}], got ${settings.maxLen}`);
-  return { settings, given, finish };
+  return { settings, given, finish, job };
 }
 
 function modelConfig(s: RecipeSettings, vocabSize: number): ReaderConfig {
@@ -745,6 +761,78 @@ async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, par
   );
 }
 
+// ---- --job: the masked-LM stage as a job folder for torch.distributed -----------------
+
+/**
+ * Writes the main phase (rows of --max-len tokens) as a masked-LM job folder
+ * (src/io/torch-job.ts maskedLmJobFiles, jobs/torch/train_reader.py): the packed rows in
+ * shards, the settings on an update count instead of a time budget — --job-epochs passes
+ * over the rows, warmup over the first --warmup-share of the updates, --job-accumulate
+ * micro-batches per update of --tokens-per-update tokens — and the starting weights (a
+ * random start from --seed, or --init). One phase per job: the recipe's last phase at 512
+ * tokens is not written (a second job from the first one's weights would start its
+ * optimizer's moments afresh, where the recipe here carries them over), and the job's
+ * model/ has no card or pretraining.json, so --init does not take it.
+ */
+async function writeMaskedLmJob(args: Args, data: Prepared): Promise<void> {
+  const s = args.settings;
+  const job = args.job!;
+  const { maskedLmJobFiles } = await import('../../src/io/torch-job.js');
+  const { howToRun, jobProgramFiles, refuseFilledFolder } = await import('../../src/cli/commands/job.js');
+  const { writeFilesAtomically } = await import('../../src/cli/write-files.js');
+  await refuseFilledFolder(job.dir);
+  const config = modelConfig(s, data.vocab.length);
+  const params =
+    s.init === null
+      ? ReaderParams.init(config, s.seed)
+      : ReaderParams.fromNamed(config, readInit(s.init, config, data.vocab).weights, { seed: s.seed, source: s.init }).params;
+  const T = s.maxLen;
+  const perUpdate = Math.max(1, Math.round(s.tokensPerUpdate / T));
+  if (perUpdate % job.accumulate !== 0)
+    throw new Error(
+      `--job-accumulate ${job.accumulate} must divide the ${perUpdate} rows an update of --tokens-per-update ${s.tokensPerUpdate} holds`,
+    );
+  const train = trainConfig({
+    ...phaseConfig(s, T),
+    epochs: job.epochs,
+    batchSize: perUpdate / job.accumulate,
+    gradAccumulation: job.accumulate,
+    warmupRatio: s.warmupShare,
+    checkpointEvery: job.checkpointEvery,
+  });
+  const tok = data.tokenizer;
+  const rows = new Phases(data).at(T).train;
+  const built = maskedLmJobFiles({
+    base: { name: s.init === null ? `random start, seed ${s.seed}` : relative(repo, s.init), config },
+    rows,
+    config: train,
+    masking: { maskId: tok.maskId, vocabSize: data.vocab.length, specialIds: [tok.padId, tok.unkId, tok.clsId, tok.sepId, tok.maskId] },
+    datasetHash: data.manifest.datasetHash,
+  });
+  const hf = { ...configToHf(config), architectures: ['BertForMaskedLM'] };
+  const files = [
+    ...built.files,
+    { name: 'base/config.json', bytes: `${JSON.stringify(hf, null, 2)}\n` },
+    { name: 'base/model.safetensors', bytes: namedToSafetensors(params.toNamed(), { metadata: { format: 'pt' } }) },
+    { name: 'base/vocab.txt', bytes: `${data.vocab.join('\n')}\n` },
+    ...(await jobProgramFiles()),
+    {
+      name: 'README.txt',
+      bytes: howToRun([
+        `  the encoder and its masked-LM head, pretrained (the span head is left out, as this recipe's`,
+        `  finish step leaves it): a base for \`spanwright train --base ${join(job.dir, 'model')}\` or \`spanwright job\``,
+      ]),
+    },
+  ];
+  params.dispose();
+  for (const sub of ['base', 'rows']) mkdirSync(join(job.dir, sub), { recursive: true });
+  await writeFilesAtomically(job.dir, files);
+  log(
+    `job: wrote ${job.dir} — ${rows.count} rows of ${T} tokens in ${(built.settings.rows as { shards: unknown[] }).shards.length} shard(s), ` +
+      `${built.plan.totalUpdates} updates of ${perUpdate} rows (${job.accumulate} micro-batch(es) each); run train_reader.py there with torchrun`,
+  );
+}
+
 // ---- main ----------------------------------------------------------------------------
 
 async function main(argv: string[]): Promise<void> {
@@ -756,6 +844,10 @@ async function main(argv: string[]): Promise<void> {
   log(`build-base ${argv.join(' ')} (pid ${process.pid})`);
   await useWasm();
   const data = await prepare(args.settings);
+  if (args.job !== null) {
+    await writeMaskedLmJob(args, data);
+    return;
+  }
   const result = await pretrain(args, data);
   if (result === null) {
     log('stopped; run the same command again to continue, or add --finish to write the folder from the newest checkpoint');

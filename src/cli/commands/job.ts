@@ -25,7 +25,7 @@ import type { ExportFile } from '../../io/export.js';
 
 /** The program's files, shipped in the repository and copied into every job folder. */
 const PROGRAM_DIR = fileURLToPath(new URL('../../../jobs/torch/', import.meta.url));
-export const PROGRAM_FILES = ['train_reader.py', 'reader_model.py', 'job_files.py'] as const;
+export const PROGRAM_FILES = ['train_reader.py', 'reader_model.py', 'job_files.py', 'masking.py'] as const;
 
 export interface JobOptions extends Pick<
   TrainOptions,
@@ -121,16 +121,18 @@ export async function writeTorchJob(o: JobOptions, log: (line: string) => void):
       loaded.params.dispose();
     }
   }
-  for (const name of PROGRAM_FILES) {
-    let bytes: Uint8Array;
-    try {
-      bytes = new Uint8Array(await readFile(join(PROGRAM_DIR, name)));
-    } catch {
-      throw new UserError(`${join(PROGRAM_DIR, name)}: the job program is missing from this installation`);
-    }
-    written.push({ name, bytes });
-  }
-  written.push({ name: 'README.txt', bytes: new TextEncoder().encode(howToRun(out, validation !== undefined)) });
+  written.push(...(await jobProgramFiles()));
+  written.push({
+    name: 'README.txt',
+    bytes: new TextEncoder().encode(
+      howToRun([
+        validation !== undefined
+          ? `  spanwright eval --model ${join(out, 'model')} --data ${join(out, 'questions/validation.json')}`
+          : `  spanwright eval --model ${join(out, 'model')} --data YOUR_VALIDATION_FILE`,
+        `  spanwright export --model ${join(out, 'model')} --out DIR --int8 --onnx`,
+      ]),
+    ),
+  });
 
   // 4. write, all or nothing
   await mkdir(join(out, 'questions'), { recursive: true });
@@ -148,7 +150,7 @@ export async function writeTorchJob(o: JobOptions, log: (line: string) => void):
 }
 
 /** A job goes into a new or empty folder: writing over another job's files would mix two runs. */
-async function refuseFilledFolder(out: string): Promise<void> {
+export async function refuseFilledFolder(out: string): Promise<void> {
   let names: string[];
   try {
     names = await readdir(out);
@@ -159,10 +161,23 @@ async function refuseFilledFolder(out: string): Promise<void> {
   if (names.length > 0) throw new UserError(`${out}: the folder is not empty; a job folder is written into a new or empty folder`);
 }
 
-/** The folder's README.txt: the two ways to run it and the way back. */
-function howToRun(out: string, hasValidation: boolean): string {
+/** The program's files (jobs/torch/), as they go into a job folder. */
+export async function jobProgramFiles(): Promise<ExportFile[]> {
+  const out: ExportFile[] = [];
+  for (const name of PROGRAM_FILES) {
+    try {
+      out.push({ name, bytes: new Uint8Array(await readFile(join(PROGRAM_DIR, name))) });
+    } catch {
+      throw new UserError(`${join(PROGRAM_DIR, name)}: the job program is missing from this installation`);
+    }
+  }
+  return out;
+}
+
+/** A job folder's README.txt: the two ways to run it, then `back` (the way back into Spanwright). */
+export function howToRun(back: string[]): string {
   return [
-    'A Spanwright fine-tuning job for PyTorch (torch.distributed). Run it from this folder:',
+    'A Spanwright job for PyTorch (torch.distributed). Run it from this folder:',
     '',
     '  CPU processes on one machine (gloo), e.g. 2:',
     '    torchrun --standalone --nproc_per_node 2 train_reader.py',
@@ -175,10 +190,7 @@ function howToRun(out: string, hasValidation: boolean): string {
     '  --resume continues from the newest checkpoint in checkpoints/.',
     '',
     'Back in Spanwright, model/ is a model directory:',
-    hasValidation
-      ? `  spanwright eval --model ${join(out, 'model')} --data ${join(out, 'questions/validation.json')}`
-      : `  spanwright eval --model ${join(out, 'model')} --data YOUR_VALIDATION_FILE`,
-    `  spanwright export --model ${join(out, 'model')} --out DIR --int8 --onnx`,
+    ...back,
     '',
   ].join('\n');
 }
