@@ -251,7 +251,9 @@ export class SpanwrightApp extends LitElement {
 
   private async start(): Promise<void> {
     try {
-      this.ready = await this.engine.call({ kind: 'init', wasmBase: new URL('tfjs-wasm/', document.baseURI).href });
+      // ?threads=N lowers the kernel threads (default: every core, workers/engine-worker.ts)
+      const threads = Number(new URLSearchParams(location.search).get('threads')) || undefined;
+      this.ready = await this.engine.call({ kind: 'init', wasmBase: new URL('tfjs-wasm/', document.baseURI).href, threads });
     } catch (err) {
       this.engineError = (err as Error).message;
       return;
@@ -375,7 +377,7 @@ export class SpanwrightApp extends LitElement {
 
   override render() {
     const r = this.ready;
-    const threadsOn = r !== null && r.crossOriginIsolated && r.threads > 1;
+    const threadsOn = r !== null && r.threads > 1;
     const isolated = typeof crossOriginIsolated === 'boolean' && crossOriginIsolated;
     return html`
       <header>
@@ -389,11 +391,14 @@ export class SpanwrightApp extends LitElement {
           >
             ${isolated ? 'isolated' : 'not isolated'}
           </span>
-          <span class="badge ${threadsOn ? 'on' : ''}" id="threads" title="tfjs-wasm uses at most half the logical cores">
-            threads:
-            ${r === null ? '…' : threadsOn ? `on (${r.threads})` : isolated ? `1 (half of ${navigator.hardwareConcurrency} cores)` : 'off'}
+          <span
+            class="badge ${threadsOn ? 'on' : ''}"
+            id="threads"
+            title="Threads the training kernels use: every core unless ?threads=N in the address asks for fewer"
+          >
+            threads: ${r === null ? '…' : `${r.threads} of ${r.cores} cores`}
           </span>
-          <span class="badge ${this.simd ? 'on' : ''}" id="simd">SIMD: ${this.simd ? 'on' : 'off'}</span>
+          <span class="badge ${this.simd ? 'on' : ''}" id="simd">SIMD: ${this.simd ? (r?.relaxedSimd ? 'on, relaxed' : 'on') : 'off'}</span>
           <span class="badge ${r?.fastKernels ? 'on' : ''}" id="engine">
             engine: ${this.engineError ? 'failed' : r === null ? 'starting…' : `${r.backend}${r.fastKernels ? ' + fast kernels' : ''}`}
           </span>

@@ -7,10 +7,14 @@
 // Why a worker: the fast kernels compile their WebAssembly synchronously
 // (src/kernels/wasm-module.ts), which Chrome allows only off the main thread, and a
 // training step blocks for seconds; the page stays responsive and only renders messages.
+// The kernels' helper threads (src/kernels/threads.ts) are workers nested in this one,
+// sharing tfjs's heap.
 import * as tf from '@tensorflow/tfjs';
-import { getThreadsCount, setWasmPaths } from '@tensorflow/tfjs-backend-wasm';
+import { setWasmPaths } from '@tensorflow/tfjs-backend-wasm';
 import { IdbCheckpointStore } from '../src/io/idb-store.js';
 import { fastKernelsActive, registerFastKernels } from '../src/kernels/register.js';
+import { kernelThreadsReady, useKernelThreads } from '../src/kernels/threads.js';
+import { fastModuleFor, type WasmBackendLike } from '../src/kernels/wasm-module.js';
 import { ReaderSession } from '../src/session/reader-session.js';
 import type { RunMeta } from '../src/train/finetune.js';
 import {
@@ -34,16 +38,27 @@ function post(message: WorkerMessage, transfer: Transferable[] = []): void {
   scope.postMessage(message, transfer);
 }
 
-async function init(wasmBase: string): Promise<EngineReady> {
+/** A helper thread of the fast kernels: a nested worker from this app's own origin (workers/kernel-thread.ts). */
+function spawnKernelThread(index: number): Worker {
+  return new Worker(new URL('./kernel-thread.ts', import.meta.url), { type: 'module', name: `spanwright-kernels-${index}` });
+}
+
+async function init(wasmBase: string, threads: number | undefined): Promise<EngineReady> {
   setWasmPaths(wasmBase);
   if (!(await tf.setBackend('wasm'))) throw new Error('tfjs could not start its wasm backend');
   await tf.ready();
   registerFastKernels();
+  // every core unless the page asks for fewer; shared memory needs cross-origin isolation
+  const cores = navigator.hardwareConcurrency || 1;
+  const backend = tf.backend() as unknown as WasmBackendLike;
+  useKernelThreads(spawnKernelThread, threads ?? cores);
   return {
     backend: tf.getBackend(),
-    threads: getThreadsCount(),
+    threads: await kernelThreadsReady(backend),
+    cores,
     crossOriginIsolated: (self as unknown as { crossOriginIsolated?: boolean }).crossOriginIsolated === true,
     fastKernels: fastKernelsActive(),
+    relaxedSimd: fastModuleFor(backend).build.relaxed,
   };
 }
 
@@ -66,7 +81,7 @@ function withCallbacks(request: Exclude<EngineRequest, { kind: 'init' }>): objec
 }
 
 async function handle(request: EngineRequest): Promise<{ result: EngineResults[RequestKind]; transfer: Transferable[] }> {
-  if (request.kind === 'init') return { result: await init(request.wasmBase), transfer: [] };
+  if (request.kind === 'init') return { result: await init(request.wasmBase, request.threads), transfer: [] };
   const method = session[SESSION_METHODS[request.kind]] as (arg: object) => unknown;
   const result = (await method.call(session, withCallbacks(request))) as EngineResults[RequestKind];
   // each buffer once: two files may be views of one buffer

@@ -50,17 +50,22 @@ type ArgsOf<K extends SessionKind> = Method<K> extends (arg: infer A) => unknown
 
 export interface EngineReady {
   backend: string;
-  /** tfjs-wasm's worker threads (1 = none) */
+  /** threads the fast kernels use (src/kernels/threads.ts; 1 = this worker alone) */
   threads: number;
+  /** logical cores the browser reports (navigator.hardwareConcurrency) */
+  cores: number;
   crossOriginIsolated: boolean;
   /** the project's SIMD kernels (src/kernels) are registered */
   fastKernels: boolean;
+  /** they run their relaxed-SIMD build (fused multiply-add in the GEMM) */
+  relaxedSimd: boolean;
 }
 
 /** What the page sends. */
 export type EngineRequest =
   /** start tfjs on wasm, the wasm files served from `wasmBase` (a URL ending in /) */
-  { kind: 'init'; wasmBase: string } | { [K in SessionKind]: { kind: K } & ArgsOf<K> }[SessionKind];
+  | { kind: 'init'; wasmBase: string; /** kernel threads wanted (default: every core) */ threads?: number }
+  | { [K in SessionKind]: { kind: K } & ArgsOf<K> }[SessionKind];
 
 /** The result type of each request kind. */
 export type EngineResults = { init: EngineReady } & { [K in SessionKind]: Awaited<ReturnType<Method<K>>> };

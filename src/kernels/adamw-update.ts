@@ -8,14 +8,16 @@
 //
 // Why one kernel: as tfjs ops this is 11–13 elementwise kernels per parameter, each
 // a pass over memory; for the [30522, 128] word embeddings that was ~60 ms of an
-// L2-H128-T256-B16 step here. The kernel (kernels.c, adamw_f32) makes one pass and
+// L2-H128-T256-B16 step here. The kernel (kernels.c, adamw_range) makes one pass and
 // performs the same float32 operations in the same order, one rounding each, so it
 // gives the tfjs ops' results (tests/kernels/adamw-update.test.ts compares them).
 // Without the kernel the op composes exactly those tfjs ops.
 
 import * as tf from '@tensorflow/tfjs';
 import { hasKernel, runKernel } from './fused-op.js';
-import { fastModuleFor, heapOffset, type WasmBackendLike } from './wasm-module.js';
+import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { f32, JOB } from './pool-layout.js';
+import type { WasmBackendLike } from './wasm-module.js';
 
 export const ADAMW_UPDATE = 'SpanwrightAdamW';
 
@@ -74,29 +76,24 @@ function adamwKernel({ inputs: { p, g, m, v }, backend, attrs: s }: AdamWArgs): 
   const outs = [0, 1, 2].map(() => backend.makeOutput(p.shape.slice(), 'float32'));
   const n = p.shape.reduce((a, d) => a * d, 1);
   if (n === 0) return outs;
-  const f = Math.fround;
-  const { exports } = fastModuleFor(backend);
-  exports.adamw_f32(
-    heapOffset(backend, p),
-    heapOffset(backend, g),
-    heapOffset(backend, m),
-    heapOffset(backend, v),
-    heapOffset(backend, outs[0]),
-    heapOffset(backend, outs[1]),
-    heapOffset(backend, outs[2]),
-    n,
-    f(s.gradScale),
-    s.gradScale === 1 ? 0 : 1,
-    f(s.decayFactor ?? 1),
-    s.decayFactor === null ? 0 : 1,
-    f(s.beta1),
-    f(1 - s.beta1),
-    f(s.beta2),
-    f(1 - s.beta2),
-    f(-s.stepSize),
-    f(s.correction2Sqrt),
-    f(s.epsilon),
-  );
+  const run = jobRunner(backend, { ns: 2 * n * RATE.streamNs, bytes: tensorBytes(p, g, m, v, ...outs) });
+  try {
+    const { tasks, per } = split(n, run.threads, 4);
+    run.run(JOB.adamw, tasks, [
+      ...[run.input(p), run.input(g), run.input(m), run.input(v)],
+      ...outs.map((o) => run.output(o)),
+      n,
+      f32(s.gradScale),
+      s.gradScale === 1 ? 0 : 1,
+      f32(s.decayFactor ?? 1),
+      s.decayFactor === null ? 0 : 1,
+      ...[f32(s.beta1), f32(1 - s.beta1), f32(s.beta2), f32(1 - s.beta2)],
+      ...[f32(-s.stepSize), f32(s.correction2Sqrt), f32(s.epsilon)],
+      per,
+    ]);
+  } finally {
+    run.finish();
+  }
   return outs;
 }
 

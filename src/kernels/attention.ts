@@ -11,9 +11,12 @@
 // scaled and masked copies, the softmax, the dropout noise and mask, and the dropped
 // probabilities for the backward — most of the 1–3.3 GB wasm heap peak measured for
 // the L2/L4 bench configs — plus four head transposes each way. The fused kernels
-// (kernels.c, attention_forward / attention_backward) take the heads by strides,
+// (kernels.c, attention_forward_head / attention_backward_head) take the heads by strides,
 // keep only P (the softmax, before dropout) for the backward, and recompute the
 // dropout mask from its seed there (dropout-mask.ts).
+//
+// Each head is one task of the kernels' job (jobs.ts), so heads run on several threads
+// when there are (every head writes its own columns of the outputs).
 //
 // The op picks its path by backend: with the fused kernel registered for the active
 // backend (registerFastKernels on 'wasm') it runs the kernels under one
@@ -24,7 +27,9 @@
 import * as tf from '@tensorflow/tfjs';
 import { dropoutMask, keepMultipliers } from './dropout-mask.js';
 import { hasKernel, recordingGradients, runKernel } from './fused-op.js';
-import { fastModuleFor, heapOffset, type WasmBackendLike } from './wasm-module.js';
+import { jobRunner, RATE, tensorBytes } from './jobs.js';
+import { f32, JOB } from './pool-layout.js';
+import type { WasmBackendLike } from './wasm-module.js';
 
 export const FUSED_ATTENTION = 'SpanwrightFusedAttention';
 export const FUSED_ATTENTION_GRAD = 'SpanwrightFusedAttentionGrad';
@@ -75,7 +80,7 @@ export function attention(q: tf.Tensor2D, k: tf.Tensor2D, v: tf.Tensor2D, keyBia
     save([qi, ki, vi, probs]);
     return {
       value: context,
-      // inverts the whole forward line above (kernels.c, attention_backward, steps 1–5)
+      // inverts the whole forward line above (kernels.c, attention_backward_head, steps 1–5)
       gradFunc: (dy: tf.Tensor | tf.Tensor[], saved: tf.Tensor[]) => {
         const [sq, sk, sv, sp] = saved;
         const [dq, dk, dv] = runKernel(FUSED_ATTENTION_GRAD, { q: sq, k: sk, v: sv, probs: sp, dy: dy as tf.Tensor }, attrs);
@@ -130,9 +135,15 @@ function sizes(keyBias: tf.TensorInfo, q: tf.TensorInfo, numHeads: number) {
   return { B, T, N: numHeads, D: H / numHeads, H };
 }
 
-/** Two T×T float scratch planes from the backend's malloc (freed by the caller). */
-function scratchPlanes(backend: WasmBackendLike, T: number): number {
-  return backend.wasm._malloc(2 * T * T * 4) >>> 0;
+/**
+ * Estimated one-thread time: the four T×T·D products of a head at GEMM speed, plus
+ * ~10 ns per score for the softmax and the dropout mask (measured: 46 ms forward, 72 ms
+ * backward for the 32 heads of L2-H128-T256-B16 here).
+ */
+function attentionNs(B: number, N: number, T: number, D: number, backward: boolean): number {
+  const heads = B * N;
+  const products = backward ? 4 : 2;
+  return heads * ((products * 2 * T * T * D) / RATE.gemmFlops + (backward ? 12 : 8) * T * T);
 }
 
 function fusedAttentionForward({ inputs, backend, attrs }: ForwardArgs): tf.TensorInfo[] {
@@ -145,31 +156,19 @@ function fusedAttentionForward({ inputs, backend, attrs }: ForwardArgs): tf.Tens
   const probs = attrs.keepProbs ? backend.makeOutput([B * N, T, T], 'float32') : null;
   const outputs = probs ? [context, probs] : [context];
   if (B * T * H === 0) return outputs;
-  const { exports, gemmWorkspace } = fastModuleFor(backend);
   const mask = dropoutMask(attrs.dropoutSeed, attrs.dropoutRate);
-  const scratch = scratchPlanes(backend, T);
+  const run = jobRunner(backend, { ns: attentionNs(B, N, T, D, false), bytes: tensorBytes(q, k, v, keyBias, context, probs) });
   try {
-    exports.attention_forward(
-      heapOffset(backend, q),
-      heapOffset(backend, k),
-      heapOffset(backend, v),
-      heapOffset(backend, keyBias),
-      heapOffset(backend, context),
-      probs ? heapOffset(backend, probs) : 0,
-      scratch,
-      B,
-      T,
-      N,
-      D,
-      1 / Math.sqrt(D),
-      attrs.dropoutRate > 0 ? 1 : 0,
-      mask.mix | 0,
-      mask.threshold | 0,
-      mask.scale,
-      gemmWorkspace,
-    );
+    const args = [run.input(q), run.input(k), run.input(v), run.input(keyBias), run.output(context), probs ? run.output(probs) : 0];
+    // each thread's two T×T planes (the scores when P is not kept, the dropped P)
+    const scratch = run.scratch(2 * T * T * 4);
+    run.run(JOB.attentionForward, B * N, [
+      ...args,
+      ...[scratch.addr, scratch.strideFloats, T, N, D, f32(1 / Math.sqrt(D))],
+      ...[attrs.dropoutRate > 0 ? 1 : 0, mask.mix | 0, mask.threshold | 0, f32(mask.scale)],
+    ]);
   } finally {
-    backend.wasm._free(scratch);
+    run.finish();
   }
   return outputs;
 }
@@ -185,33 +184,27 @@ function fusedAttentionBackward({ inputs, backend, attrs }: BackwardArgs): tf.Te
   const dk = backend.makeOutput([B * T, H], 'float32');
   const dv = backend.makeOutput([B * T, H], 'float32');
   if (B * T * H === 0) return [dq, dk, dv];
-  const { exports, gemmWorkspace } = fastModuleFor(backend);
   const mask = dropoutMask(attrs.dropoutSeed, attrs.dropoutRate);
-  const scratch = scratchPlanes(backend, T);
+  const run = jobRunner(backend, { ns: attentionNs(B, N, T, D, true), bytes: tensorBytes(q, k, v, probs, dy, dq, dk, dv) });
   try {
-    exports.attention_backward(
-      heapOffset(backend, q),
-      heapOffset(backend, k),
-      heapOffset(backend, v),
-      heapOffset(backend, probs),
-      heapOffset(backend, dy),
-      heapOffset(backend, dq),
-      heapOffset(backend, dk),
-      heapOffset(backend, dv),
-      scratch,
-      B,
-      T,
-      N,
-      D,
-      1 / Math.sqrt(D),
-      attrs.dropoutRate > 0 ? 1 : 0,
-      mask.mix | 0,
-      mask.threshold | 0,
-      mask.scale,
-      gemmWorkspace,
-    );
+    const args = [
+      run.input(q),
+      run.input(k),
+      run.input(v),
+      run.input(probs),
+      run.input(dy),
+      run.output(dq),
+      run.output(dk),
+      run.output(dv),
+    ];
+    const scratch = run.scratch(2 * T * T * 4); // each thread's dPd (then dS) and Pd
+    run.run(JOB.attentionBackward, B * N, [
+      ...args,
+      ...[scratch.addr, scratch.strideFloats, T, N, D, f32(1 / Math.sqrt(D))],
+      ...[attrs.dropoutRate > 0 ? 1 : 0, mask.mix | 0, mask.threshold | 0, f32(mask.scale)],
+    ]);
   } finally {
-    backend.wasm._free(scratch);
+    run.finish();
   }
   return [dq, dk, dv];
 }

@@ -5,14 +5,16 @@
 // Why not tf.dropout: it draws a uniform tensor in JavaScript (a stateful generator),
 // then adds, floors, divides and multiplies — five [B·T, H] tensors per site, saved
 // for the backward — and its mask cannot be recomputed. Here one kernel (kernels.c,
-// dropout_f32) applies the mask; the backward is the same kernel on dy, because the
+// dropout_range) applies the mask; the backward is the same kernel on dy, because the
 // mask is a pure function of (seed, element index). Without the kernel the op
 // multiplies by keepMultipliers in plain tfjs — the same mask on every backend.
 
 import * as tf from '@tensorflow/tfjs';
 import { dropoutMask, keepMultipliers } from './dropout-mask.js';
 import { hasKernel, runKernel } from './fused-op.js';
-import { fastModuleFor, heapOffset, type WasmBackendLike } from './wasm-module.js';
+import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { f32, JOB } from './pool-layout.js';
+import type { WasmBackendLike } from './wasm-module.js';
 
 export const DROPOUT = 'SpanwrightDropout';
 
@@ -42,8 +44,13 @@ function dropoutKernel({ inputs: { x }, backend, attrs }: DropoutArgs): tf.Tenso
   const n = x.shape.reduce((p, d) => p * d, 1);
   if (n === 0) return y;
   const mask = dropoutMask(attrs.seed, attrs.rate);
-  const { exports } = fastModuleFor(backend);
-  exports.dropout_f32(heapOffset(backend, x), heapOffset(backend, y), n, mask.mix | 0, mask.threshold | 0, mask.scale);
+  const run = jobRunner(backend, { ns: n * RATE.streamNs, bytes: tensorBytes(x, y) });
+  try {
+    const { tasks, per } = split(n, run.threads, 4);
+    run.run(JOB.dropout, tasks, [run.input(x), run.output(y), n, mask.mix | 0, mask.threshold | 0, f32(mask.scale), per]);
+  } finally {
+    run.finish();
+  }
   return y;
 }
 

@@ -1,4 +1,4 @@
-// defines: erfConfig — Erf for 'wasm' on our SIMD polynomial (kernels.c, erf_f32)
+// defines: erfConfig — Erf for 'wasm' on our SIMD polynomial (kernels.c, erf_range)
 //
 // Exact GELU, 0.5·x·(1 + erf(x/√2)), is what the checkpoints were trained with, and
 // stock tfjs-backend-wasm evaluates erf one scalar at a time. This kernel keeps the
@@ -8,7 +8,9 @@
 // The gradient is tfjs-core's Erf gradient, dy · 2/√π · exp(−x²), in stock ops.
 
 import * as tf from '@tensorflow/tfjs';
-import { fastModuleFor, heapOffset, type WasmBackendLike } from './wasm-module.js';
+import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { JOB } from './pool-layout.js';
+import type { WasmBackendLike } from './wasm-module.js';
 
 function erf({ inputs, backend }: { inputs: { x: tf.TensorInfo }; backend: WasmBackendLike }): tf.TensorInfo {
   const { x } = inputs;
@@ -18,8 +20,13 @@ function erf({ inputs, backend }: { inputs: { x: tf.TensorInfo }; backend: WasmB
   const out = backend.makeOutput(x.shape.slice(), 'float32');
   const n = x.shape.reduce((p, d) => p * d, 1);
   if (n === 0) return out;
-  const { exports } = fastModuleFor(backend);
-  exports.erf_f32(heapOffset(backend, x), heapOffset(backend, out), n);
+  const run = jobRunner(backend, { ns: n * RATE.geluNs, bytes: tensorBytes(x, out) });
+  try {
+    const { tasks, per } = split(n, run.threads, 4);
+    run.run(JOB.erf, tasks, [run.input(x), run.output(out), n, per]);
+  } finally {
+    run.finish();
+  }
   return out;
 }
 

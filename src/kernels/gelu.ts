@@ -7,14 +7,17 @@
 //
 // Why fused: as tfjs ops this was six [R, I] elementwise kernels forward and about
 // ten backward, each saving or producing an [R, I] tensor (the widest activations
-// of the step), plus the bias gradient's Sum. The kernels (kernels.c, bias_gelu_f32
-// / bias_gelu_grad_f32) keep only x for the backward and return db with dx.
+// of the step), plus the bias gradient's Sum. The kernels (kernels.c, bias_gelu_rows
+// / bias_gelu_dx_rows, then sum_cols for db) keep only x for the backward and return db
+// with dx.
 // Without the kernels (any backend but 'wasm' with registerFastKernels) the op
 // composes the same tfjs ops the encoder used before — the tests' reference.
 
 import * as tf from '@tensorflow/tfjs';
 import { hasKernel, recordingGradients, runKernel } from './fused-op.js';
-import { fastModuleFor, heapOffset, type WasmBackendLike } from './wasm-module.js';
+import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { JOB } from './pool-layout.js';
+import type { WasmBackendLike } from './wasm-module.js';
 
 export const BIAS_GELU = 'SpanwrightBiasGelu';
 export const BIAS_GELU_GRAD = 'SpanwrightBiasGeluGrad';
@@ -31,7 +34,7 @@ export function biasGelu(x: tf.Tensor2D, b: tf.Tensor1D): tf.Tensor2D {
     (args[2] as tf.GradSaveFunc)([xi, bi]);
     return {
       value: runKernel(BIAS_GELU, { x: xi, b: bi }, {})[0],
-      // inverts "y = ½·u·(1 + erf(u/√2)), u = x + b" (kernels.c, bias_gelu_grad_f32)
+      // inverts "y = ½·u·(1 + erf(u/√2)), u = x + b" (kernels.c, bias_gelu_dx_rows)
       gradFunc: (dy: tf.Tensor | tf.Tensor[], saved: tf.Tensor[]) =>
         runKernel(BIAS_GELU_GRAD, { x: saved[0], b: saved[1], dy: dy as tf.Tensor }, {}),
     };
@@ -63,8 +66,13 @@ function biasGeluForward({ inputs: { x, b }, backend }: GeluArgs): tf.TensorInfo
   const [rows, n] = x.shape;
   const y = backend.makeOutput([rows, n], 'float32');
   if (rows * n === 0) return y;
-  const { exports } = fastModuleFor(backend);
-  exports.bias_gelu_f32(heapOffset(backend, x), heapOffset(backend, b), heapOffset(backend, y), rows, n);
+  const run = jobRunner(backend, { ns: rows * n * RATE.geluNs, bytes: tensorBytes(x, b, y) });
+  try {
+    const { tasks, per } = split(rows, run.threads);
+    run.run(JOB.biasGelu, tasks, [run.input(x), run.input(b), run.output(y), rows, n, per]);
+  } finally {
+    run.finish();
+  }
   return y;
 }
 
@@ -75,16 +83,21 @@ function biasGeluBackward({ inputs: { x, b, dy }, backend }: GeluArgs): tf.Tenso
   const dx = backend.makeOutput([rows, n], 'float32');
   const db = backend.makeOutput([n], 'float32');
   if (n === 0) return [dx, db];
-  const { exports } = fastModuleFor(backend);
-  exports.bias_gelu_grad_f32(
-    heapOffset(backend, x),
-    heapOffset(backend, b),
-    heapOffset(backend, dy),
-    heapOffset(backend, dx),
-    heapOffset(backend, db),
-    rows,
-    n,
-  );
+  const run = jobRunner(backend, { ns: rows * n * RATE.geluNs, bytes: tensorBytes(x, b, dy, dx, db) });
+  try {
+    const X = run.input(x);
+    const B = run.input(b);
+    const DY = run.input(dy);
+    const DX = run.output(dx);
+    const DB = run.output(db);
+    const byRows = split(rows, run.threads);
+    run.run(JOB.biasGeluDx, byRows.tasks, [X, B, DY, DX, rows, n, byRows.per]);
+    // db = Σ_rows dx, by columns (each column's sum in row order on one thread)
+    const byCols = split(n, run.threads, 32);
+    run.run(JOB.sumCols, byCols.tasks, [DX, DB, rows, n, byCols.per]);
+  } finally {
+    run.finish();
+  }
   return [dx, db];
 }
 

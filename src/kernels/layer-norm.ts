@@ -8,13 +8,16 @@
 //
 // Why fused: as tfjs ops a LayerNorm was nine kernels forward and about twenty
 // backward over [R, H], each saving or producing a tensor, and five per layer pair
-// ran per step. The kernels (kernels.c, layer_norm_f32 / layer_norm_grad_f32) keep
-// x with each row's μ and 1/σ for the backward and return dγ and dβ with dx.
+// ran per step. The kernels (kernels.c, layer_norm_rows; layer_norm_dx_rows then
+// layer_norm_dparams_cols) keep x with each row's μ and 1/σ for the backward and
+// return dγ and dβ with dx.
 // Without the kernels the op composes the tfjs ops the encoder used before.
 
 import * as tf from '@tensorflow/tfjs';
 import { hasKernel, recordingGradients, runKernel } from './fused-op.js';
-import { fastModuleFor, heapOffset, type WasmBackendLike } from './wasm-module.js';
+import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { f32, JOB } from './pool-layout.js';
+import type { WasmBackendLike } from './wasm-module.js';
 
 export const LAYER_NORM = 'SpanwrightLayerNorm';
 export const LAYER_NORM_GRAD = 'SpanwrightLayerNormGrad';
@@ -33,7 +36,7 @@ export function layerNorm(x: tf.Tensor2D, gamma: tf.Tensor1D, beta: tf.Tensor1D,
     (args[3] as tf.GradSaveFunc)([xi, gi, mean, rstd]);
     return {
       value: y,
-      // inverts "y = (x − μ)·σ⁻¹·γ + β" (kernels.c, layer_norm_grad_f32)
+      // inverts "y = (x − μ)·σ⁻¹·γ + β" (kernels.c, layer_norm_dx_rows, layer_norm_dparams_cols)
       gradFunc: (dy: tf.Tensor | tf.Tensor[], saved: tf.Tensor[]) =>
         runKernel(LAYER_NORM_GRAD, { x: saved[0], gamma: saved[1], mean: saved[2], rstd: saved[3], dy: dy as tf.Tensor }, {}),
     };
@@ -75,18 +78,15 @@ function layerNormForward({ inputs: { x, gamma, beta }, backend, attrs }: Forwar
   const y = backend.makeOutput([rows, n], 'float32');
   const stats = attrs.keepStats ? [backend.makeOutput([rows], 'float32'), backend.makeOutput([rows], 'float32')] : [];
   if (rows * n === 0) return [y, ...stats];
-  const { exports } = fastModuleFor(backend);
-  exports.layer_norm_f32(
-    heapOffset(backend, x),
-    heapOffset(backend, gamma),
-    heapOffset(backend, beta),
-    heapOffset(backend, y),
-    stats.length ? heapOffset(backend, stats[0]) : 0,
-    stats.length ? heapOffset(backend, stats[1]) : 0,
-    rows,
-    n,
-    attrs.eps,
-  );
+  const run = jobRunner(backend, { ns: rows * n * RATE.streamNs, bytes: tensorBytes(x, gamma, beta, y, ...stats) });
+  try {
+    const args = [run.input(x), run.input(gamma), run.input(beta), run.output(y)];
+    const [mean, rstd] = stats.length ? [run.output(stats[0]), run.output(stats[1])] : [0, 0];
+    const { tasks, per } = split(rows, run.threads);
+    run.run(JOB.layerNorm, tasks, [...args, mean, rstd, rows, n, f32(attrs.eps), per]);
+  } finally {
+    run.finish();
+  }
   return [y, ...stats];
 }
 
@@ -97,19 +97,20 @@ function layerNormBackward({ inputs: { x, gamma, mean, rstd, dy }, backend }: Ba
   const dgamma = backend.makeOutput([n], 'float32');
   const dbeta = backend.makeOutput([n], 'float32');
   if (n === 0) return [dx, dgamma, dbeta];
-  const { exports } = fastModuleFor(backend);
-  exports.layer_norm_grad_f32(
-    heapOffset(backend, x),
-    heapOffset(backend, gamma),
-    heapOffset(backend, mean),
-    heapOffset(backend, rstd),
-    heapOffset(backend, dy),
-    heapOffset(backend, dx),
-    heapOffset(backend, dgamma),
-    heapOffset(backend, dbeta),
-    rows,
-    n,
-  );
+  const run = jobRunner(backend, { ns: 2 * rows * n * RATE.streamNs, bytes: tensorBytes(x, gamma, mean, rstd, dy, dx, dgamma, dbeta) });
+  try {
+    const X = run.input(x);
+    const MEAN = run.input(mean);
+    const RSTD = run.input(rstd);
+    const DY = run.input(dy);
+    const byRows = split(rows, run.threads);
+    run.run(JOB.layerNormDx, byRows.tasks, [X, run.input(gamma), MEAN, RSTD, DY, run.output(dx), rows, n, byRows.per]);
+    // dγ and dβ sum over rows: by columns, each in row order on one thread
+    const byCols = split(n, run.threads, 4);
+    run.run(JOB.layerNormDparams, byCols.tasks, [X, MEAN, RSTD, DY, run.output(dgamma), run.output(dbeta), rows, n, byCols.per]);
+  } finally {
+    run.finish();
+  }
   return [dx, dgamma, dbeta];
 }
 

@@ -8,13 +8,16 @@
 // swap of strides, done while packing.
 //
 // The gradient is tfjs-core's own BatchMatMul gradient (matMul with transposes),
-// which lands back here.
+// which lands back here. On several threads (jobs.ts) the output is cut into tiles,
+// one task each.
 //
 // Letters: M, N output rows and columns, K the shared dimension, batch the
 // broadcast leading dimensions.
 
 import * as tf from '@tensorflow/tfjs';
-import { fastModuleFor, heapOffset, type WasmBackendLike } from './wasm-module.js';
+import { jobRunner, RATE, tensorBytes } from './jobs.js';
+import { JOB } from './pool-layout.js';
+import { fastModuleFor, type WasmBackendLike } from './wasm-module.js';
 
 interface BatchMatMulArgs {
   inputs: { a: tf.TensorInfo; b: tf.TensorInfo };
@@ -71,41 +74,61 @@ function batchMatMul({ inputs, backend, attrs }: BatchMatMulArgs): tf.TensorInfo
   const batches = batchOut.reduce((p, d) => p * d, 1);
   if (batches * M * N === 0) return out;
 
-  // module and workspace first: they may malloc, which may grow the heap
-  const { exports, gemmWorkspace } = fastModuleFor(backend);
-  const aPtr = heapOffset(backend, a);
-  const bPtr = heapOffset(backend, b);
-  const cPtr = heapOffset(backend, out);
   // A(i,k) = a[i*rsA + k*csA] over the stored [M,K] or, transposed, [K,M]
   const rsA = transposeA ? 1 : K;
   const csA = transposeA ? M : 1;
   const rsB = transposeB ? 1 : N;
   const csB = transposeB ? K : 1;
-  const aBatchBytes = M * K * 4;
-  const bBatchBytes = K * N * 4;
-  const cBatchBytes = M * N * 4;
   const sameBatch = batchA.length === batchB.length && batchA.every((d, i) => d === batchB[i]);
-  const ia = sameBatch ? null : broadcastBatchIndex(batchA, batchOut);
-  const ib = sameBatch ? null : broadcastBatchIndex(batchB, batchOut);
-  for (let t = 0; t < batches; t++) {
-    const ta = ia ? ia[t] : t;
-    const tb = ib ? ib[t] : t;
-    exports.gemm_f32(
-      M,
-      N,
-      K,
-      aPtr + ta * aBatchBytes,
-      rsA,
-      csA,
-      bPtr + tb * bBatchBytes,
-      rsB,
-      csB,
-      cPtr + t * cBatchBytes,
-      N,
-      gemmWorkspace,
-    );
+  const countA = batchA.reduce((p, d) => p * d, 1);
+  const countB = batchB.reduce((p, d) => p * d, 1);
+  // batch strides in floats: one operand may be a single matrix for every batch
+  const strides = sameBatch ? [M * K, K * N] : countA === 1 ? [0, K * N] : countB === 1 ? [M * K, 0] : null;
+  fastModuleFor(backend); // first: it may malloc, which may grow the heap
+  const run = jobRunner(backend, { ns: (2 * batches * M * N * K) / RATE.gemmFlops, bytes: tensorBytes(a, b, out) });
+  try {
+    const A = run.input(a);
+    const B = run.input(b);
+    const C = run.output(out);
+    const { tileM, tileN, tilesM, tilesN } = gemmTiles(M, N, run.threads, batches);
+    const job = (batchCount: number, aAt: number, bAt: number, cAt: number, bsA: number, bsB: number): void =>
+      run.run(JOB.gemm, batchCount * tilesM * tilesN, [
+        ...[M, N, K, aAt, rsA, csA, bAt, rsB, csB, cAt, N],
+        ...[tileM, tileN, tilesN, tilesM * tilesN, bsA, bsB, M * N],
+      ]);
+    if (strides) {
+      job(batches, A, B, C, strides[0], strides[1]);
+    } else {
+      // a broadcast of both batch shapes: one job per output matrix
+      const ia = broadcastBatchIndex(batchA, batchOut);
+      const ib = broadcastBatchIndex(batchB, batchOut);
+      for (let t = 0; t < batches; t++) job(1, A + ia[t] * M * K * 4, B + ib[t] * K * N * 4, C + t * M * N * 4, 0, 0);
+    }
+  } finally {
+    run.finish();
   }
   return out;
+}
+
+/**
+ * Output tiles, one task each: the whole product for one thread; for several, about
+ * three tiles per thread along the longer side, whole multiples of the micro-kernel's
+ * 6 rows or 8 columns. Cutting along rows repeats the packing of B in every task, along
+ * columns that of A, so the shorter side is kept whole. (Tiles never change an
+ * element's sum: kernels.c's K blocking is the same in every tile.)
+ */
+function gemmTiles(
+  M: number,
+  N: number,
+  threads: number,
+  batches: number,
+): { tileM: number; tileN: number; tilesM: number; tilesN: number } {
+  const wanted = threads <= 1 ? 1 : Math.ceil((threads * 3) / batches);
+  let tileM = M;
+  let tileN = N;
+  if (wanted > 1 && N <= M) tileM = Math.max(6, Math.ceil(M / wanted / 6) * 6);
+  else if (wanted > 1) tileN = Math.max(8, Math.ceil(N / wanted / 8) * 8);
+  return { tileM, tileN, tilesM: Math.ceil(M / tileM), tilesN: Math.ceil(N / tileN) };
 }
 
 export const batchMatMulConfig: tf.KernelConfig = {

@@ -7,12 +7,14 @@
 // with out of shape [numSegments, ...x.shape[rank(segmentIds):]], duplicates
 // summed, ids outside [0, numSegments) dropped.
 //
-// float32 runs in SIMD (kernels.c, segment_sum_f32): the word-embedding gradient
+// float32 runs in SIMD (kernels.c, segment_sum_range): the word-embedding gradient
 // zeroes a [V, H] output and adds B·T rows into it, and the JavaScript loop took
 // ~50 ms per step at V = 30522 here. int32 keeps a plain loop over the heap.
 
 import * as tf from '@tensorflow/tfjs';
-import { fastModuleFor, heapOffset, type WasmBackendLike } from './wasm-module.js';
+import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { JOB } from './pool-layout.js';
+import { heapOffset, type WasmBackendLike } from './wasm-module.js';
 
 interface SegmentSumArgs {
   inputs: { x: tf.TensorInfo; segmentIds: tf.TensorInfo };
@@ -43,8 +45,14 @@ function unsortedSegmentSum({ inputs, backend, attrs }: SegmentSumArgs): tf.Tens
   const out = backend.makeOutput([numSegments, ...x.shape.slice(idRank)], x.dtype);
   if (numSegments * inner === 0) return out;
   if (x.dtype === 'float32') {
-    const { exports } = fastModuleFor(backend);
-    exports.segment_sum_f32(heapOffset(backend, x), heapOffset(backend, segmentIds), heapOffset(backend, out), count, inner, numSegments);
+    const run = jobRunner(backend, { ns: (numSegments + count) * inner * RATE.streamNs, bytes: tensorBytes(x, segmentIds, out) });
+    try {
+      // by ranges of segments: each zeroes its rows and adds the rows of x that land there
+      const { tasks, per } = split(numSegments, run.threads);
+      run.run(JOB.segmentSum, tasks, [run.input(x), run.input(segmentIds), run.output(out), count, inner, numSegments, per]);
+    } finally {
+      run.finish();
+    }
     return out;
   }
   // views only after makeOutput: its malloc may grow (and so replace) the heap buffer

@@ -5,7 +5,7 @@
 // transposes the input to put the reduced axes last (a scalar transpose of the
 // whole gradient): 81 Sums took 270–420 ms of one L2-H128-T256-B16 step here. The
 // reduce-over-leading-axes case runs as one pass of column sums (kernels.c,
-// sum_leading_f32); every other case — trailing or scattered axes, a full
+// sum_cols, by blocks of columns); every other case — trailing or scattered axes, a full
 // reduction, int32 or bool input — goes to the stock kernel unchanged.
 //
 // Semantics as tf.sum: out = Σ over the reduced axes, shape without them (or with
@@ -13,7 +13,9 @@
 
 import * as tf from '@tensorflow/tfjs';
 import { runStock } from './stock.js';
-import { fastModuleFor, heapOffset, type WasmBackendLike } from './wasm-module.js';
+import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { JOB } from './pool-layout.js';
+import type { WasmBackendLike } from './wasm-module.js';
 
 interface SumArgs {
   inputs: { x: tf.TensorInfo };
@@ -41,8 +43,13 @@ function sum(args: SumArgs): tf.TensorInfo | tf.TensorInfo[] {
   const n = kept.reduce((p, d) => p * d, 1);
   const out = backend.makeOutput(keepDims ? [...new Array<number>(lead).fill(1), ...kept] : kept, 'float32');
   if (n === 0) return out;
-  const { exports } = fastModuleFor(backend);
-  exports.sum_leading_f32(heapOffset(backend, x), heapOffset(backend, out), m, n);
+  const run = jobRunner(backend, { ns: m * n * RATE.streamNs, bytes: tensorBytes(x, out) });
+  try {
+    const { tasks, per } = split(n, run.threads, 32);
+    run.run(JOB.sumCols, tasks, [run.input(x), run.output(out), m, n, per]);
+  } finally {
+    run.finish();
+  }
   return out;
 }
 

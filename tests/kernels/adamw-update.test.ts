@@ -1,4 +1,4 @@
-// The one-kernel AdamW update (src/kernels/adamw-update.ts, kernels.c adamw_f32)
+// The one-kernel AdamW update (src/kernels/adamw-update.ts, kernels.c adamw_range)
 // against the same op's plain-tfjs path on tfjs's stock 'cpu' backend (the reference
 // library), for every combination of clipping and weight decay, early and late steps,
 // and lengths with a SIMD tail. Both perform the same float32 operations in the same

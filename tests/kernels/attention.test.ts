@@ -1,5 +1,5 @@
 // The fused attention op (src/kernels/attention.ts): its wasm kernels (kernels.c,
-// attention_forward / attention_backward) against the same op's plain-tfjs path run
+// attention_forward_head / attention_backward_head) against the same op's plain-tfjs path run
 // on tfjs's stock 'cpu' backend (the reference library), values and gradients, with
 // padding keys, tails (T not a multiple of 4), several head counts and dropout; and
 // the dropout mask's own properties (dropout-mask.ts).

@@ -1,4 +1,4 @@
-// Erf fast path (src/kernels/erf.ts, kernels.c erf_f32) against a float64
+// Erf fast path (src/kernels/erf.ts, kernels.c erf_range) against a float64
 // reference computed here:
 //   |x| < 3:  the Maclaurin series erf x = 2/√π Σ (−1)ⁿ x²ⁿ⁺¹ / (n! (2n+1))
 //             (Abramowitz & Stegun 7.1.5), summed in float64 until terms vanish

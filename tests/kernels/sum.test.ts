@@ -1,4 +1,4 @@
-// Sum fast path (src/kernels/sum.ts, kernels.c sum_leading_f32) against the stock
+// Sum fast path (src/kernels/sum.ts, kernels.c sum_cols) against the stock
 // tfjs 'cpu' backend (the reference library): reductions over leading axes of
 // widths around the 32- and 4-column blocks, keepDims, and the cases handed back to
 // the stock wasm kernel (trailing or scattered axes, full reductions, int32, bool).

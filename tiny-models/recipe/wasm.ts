@@ -7,6 +7,7 @@
 import { fileURLToPath } from 'node:url';
 import * as tf from '@tensorflow/tfjs';
 import { setWasmPaths } from '@tensorflow/tfjs-backend-wasm';
+import { startKernelThreads } from '../../src/cli/kernel-threads.js';
 import { registerFastKernels } from '../../src/kernels/register.js';
 
 export async function useWasm(): Promise<void> {
@@ -14,4 +15,5 @@ export async function useWasm(): Promise<void> {
   if (!(await tf.setBackend('wasm'))) throw new Error('tfjs: the wasm backend failed to initialise');
   await tf.ready();
   registerFastKernels();
+  await startKernelThreads(undefined, tf.backend() as never); // every core unless SPANWRIGHT_THREADS says fewer
 }

@@ -1,20 +1,34 @@
-// defines: gemm_f32 (strided, any transpose), erf_f32, exp-based helpers
+// defines: gemm_f32 (strided, any transpose), erf, the fused training kernels, and the
+// job runner that cuts each of them into tasks for several threads (job_run, pool_run,
+// pool_helper)
 //
 // Fast paths for the tfjs wasm backend, compiled to WebAssembly SIMD by build.sh.
-// The module IMPORTS the tfjs backend's linear memory, so every pointer below is
-// a byte address inside the tfjs heap (a tensor's memoryOffset, or scratch that
-// the TypeScript side allocated with the backend's malloc). Nothing here owns
-// memory: there are no globals, no data segments, and no address-taken locals,
-// so the module needs no stack of its own in that shared memory (build.sh checks
-// that the linked module has no data section).
+// The module IMPORTS a linear memory: the tfjs backend's own heap, or (when that heap is
+// not shared and several threads are wanted) the kernel pool's shared memory, which the
+// TypeScript side copies operands into (src/kernels/threads.ts). Every pointer below is
+// a byte address inside that memory. Nothing here owns memory: there are no globals, no
+// data segments, and no address-taken locals, so the module needs no stack of its own
+// in that shared memory (build.sh checks that the linked module has no data section).
 //
 // Why a GEMM of our own: stock tfjs 4.22 sends every transposed or batched
 // BatchMatMul to a scalar loop (1-2 GFLOP/s measured here); every matMul
 // gradient is transposed and attention is batched.
+//
+// Four builds of this one file (build.sh): with or without shared memory (threads), and
+// with or without relaxed SIMD, whose f32x4.relaxed_madd the GEMM micro-kernel uses for
+// its multiply-adds (a fused multiply-add where the hardware has one).
 
 #include <wasm_simd128.h>
 
 typedef __SIZE_TYPE__ size_t;
+
+// acc + a·b, four lanes: one relaxed (possibly fused) multiply-add where the build has
+// relaxed SIMD, else a multiply and an add, each rounded
+#ifdef __wasm_relaxed_simd__
+#define MADD(acc, a, b) wasm_f32x4_relaxed_madd(a, b, acc)
+#else
+#define MADD(acc, a, b) wasm_f32x4_add(acc, wasm_f32x4_mul(a, b))
+#endif
 
 // ---------------------------------------------------------------------------
 // GEMM: C[M,N] (+)= A[M,K] · B[K,N]
@@ -101,23 +115,23 @@ static void micro_6x8(int kc, const float *a, const float *b, float *c, int ldc,
   for (int k = 0; k < kc; k++) {
     v128_t b0 = wasm_v128_load(b), b1 = wasm_v128_load(b + 4);
     v128_t a0 = wasm_v128_load32_splat(a);
-    c00 = wasm_f32x4_add(c00, wasm_f32x4_mul(a0, b0));
-    c01 = wasm_f32x4_add(c01, wasm_f32x4_mul(a0, b1));
+    c00 = MADD(c00, a0, b0);
+    c01 = MADD(c01, a0, b1);
     v128_t a1 = wasm_v128_load32_splat(a + 1);
-    c10 = wasm_f32x4_add(c10, wasm_f32x4_mul(a1, b0));
-    c11 = wasm_f32x4_add(c11, wasm_f32x4_mul(a1, b1));
+    c10 = MADD(c10, a1, b0);
+    c11 = MADD(c11, a1, b1);
     v128_t a2 = wasm_v128_load32_splat(a + 2);
-    c20 = wasm_f32x4_add(c20, wasm_f32x4_mul(a2, b0));
-    c21 = wasm_f32x4_add(c21, wasm_f32x4_mul(a2, b1));
+    c20 = MADD(c20, a2, b0);
+    c21 = MADD(c21, a2, b1);
     v128_t a3 = wasm_v128_load32_splat(a + 3);
-    c30 = wasm_f32x4_add(c30, wasm_f32x4_mul(a3, b0));
-    c31 = wasm_f32x4_add(c31, wasm_f32x4_mul(a3, b1));
+    c30 = MADD(c30, a3, b0);
+    c31 = MADD(c31, a3, b1);
     v128_t a4 = wasm_v128_load32_splat(a + 4);
-    c40 = wasm_f32x4_add(c40, wasm_f32x4_mul(a4, b0));
-    c41 = wasm_f32x4_add(c41, wasm_f32x4_mul(a4, b1));
+    c40 = MADD(c40, a4, b0);
+    c41 = MADD(c41, a4, b1);
     v128_t a5 = wasm_v128_load32_splat(a + 5);
-    c50 = wasm_f32x4_add(c50, wasm_f32x4_mul(a5, b0));
-    c51 = wasm_f32x4_add(c51, wasm_f32x4_mul(a5, b1));
+    c50 = MADD(c50, a5, b0);
+    c51 = MADD(c51, a5, b1);
     a += MR;
     b += NR;
   }
@@ -140,8 +154,8 @@ static void micro_6x8(int kc, const float *a, const float *b, float *c, int ldc,
 #undef STORE_ROW
 }
 
-void gemm_f32(int M, int N, int K, const float *A, int rsA, int csA,
-              const float *B, int rsB, int csB, float *C, int ldc, float *ws) {
+static void gemm_f32(int M, int N, int K, const float *A, int rsA, int csA,
+                     const float *B, int rsB, int csB, float *C, int ldc, float *ws) {
   float *ap = ws;
   float *bp = ws + MC * KC;
   float *edge = bp + KC * NC;
@@ -253,7 +267,7 @@ static v128_t erf4(v128_t x) {
   return wasm_v128_or(y, sign);
 }
 
-void erf_f32(const float *x, float *y, int n) {
+static void erf_range(const float *x, float *y, int n) {
   int i = 0;
   for (; i + 4 <= n; i += 4) wasm_v128_store(y + i, erf4(wasm_v128_load(x + i)));
   if (i < n) {
@@ -272,16 +286,17 @@ void erf_f32(const float *x, float *y, int n) {
 // (every bias gradient), the rows of an embedding lookup and of its gradient.
 // ---------------------------------------------------------------------------
 
-// y[j] = Σ_{i<m} x[i·n + j]: a [m, n] matrix summed over its rows, in row order
-// (the order tfjs's cpu backend adds in). 32 columns at a time in 8 accumulators,
-// so x is read once and y written once.
-void sum_leading_f32(const float *x, float *y, int m, int n) {
+// y[j] = Σ_{i<m} x[i·ld + j] for j < n: the columns of an [m, ld] matrix (or n of them)
+// summed over its rows, in row order (the order tfjs's cpu backend adds in). 32 columns
+// at a time in 8 accumulators, so x is read once and y written once. Each column's sum
+// is the same whichever block of columns it is computed in.
+static void sum_cols(const float *x, float *y, int m, int n, int ld) {
   int j = 0;
   for (; j + 32 <= n; j += 32) {
     v128_t a0 = wasm_f32x4_splat(0), a1 = a0, a2 = a0, a3 = a0, a4 = a0, a5 = a0,
            a6 = a0, a7 = a0;
     const float *p = x + j;
-    for (int i = 0; i < m; i++, p += n) {
+    for (int i = 0; i < m; i++, p += ld) {
       a0 = wasm_f32x4_add(a0, wasm_v128_load(p));
       a1 = wasm_f32x4_add(a1, wasm_v128_load(p + 4));
       a2 = wasm_f32x4_add(a2, wasm_v128_load(p + 8));
@@ -303,28 +318,31 @@ void sum_leading_f32(const float *x, float *y, int m, int n) {
   for (; j + 4 <= n; j += 4) {
     v128_t a = wasm_f32x4_splat(0);
     const float *p = x + j;
-    for (int i = 0; i < m; i++, p += n) a = wasm_f32x4_add(a, wasm_v128_load(p));
+    for (int i = 0; i < m; i++, p += ld) a = wasm_f32x4_add(a, wasm_v128_load(p));
     wasm_v128_store(y + j, a);
   }
   for (; j < n; j++) {
     float a = 0.0f;
     const float *p = x + j;
-    for (int i = 0; i < m; i++, p += n) a += *p;
+    for (int i = 0; i < m; i++, p += ld) a += *p;
     y[j] = a;
   }
 }
 
-// out[s·inner ..] = Σ over p with ids[p] = s of x[p·inner ..]; out is zeroed first
-// and ids outside [0, segments) are skipped (TensorFlow's UnsortedSegmentSum).
-void segment_sum_f32(const float *x, const int *ids, float *out, int count,
-                     int inner, int segments) {
-  size_t total = (size_t)segments * inner;
+// out[s·inner ..] = Σ over p with ids[p] = s of x[p·inner ..], for the segments s in
+// [s0, s1) only (a task's share); those rows of out are zeroed first and ids outside
+// [0, segments) are skipped (TensorFlow's UnsortedSegmentSum). Each segment adds its
+// rows in the order of p, whichever range it falls in.
+static void segment_sum_range(const float *x, const int *ids, float *out, int count,
+                              int inner, int s0, int s1) {
+  float *base = out + (size_t)s0 * inner;
+  size_t total = (size_t)(s1 - s0) * inner;
   size_t z = 0;
-  for (; z + 4 <= total; z += 4) wasm_v128_store(out + z, wasm_f32x4_splat(0));
-  for (; z < total; z++) out[z] = 0.0f;
+  for (; z + 4 <= total; z += 4) wasm_v128_store(base + z, wasm_f32x4_splat(0));
+  for (; z < total; z++) base[z] = 0.0f;
   for (int p = 0; p < count; p++) {
     int s = ids[p];
-    if (s < 0 || s >= segments) continue;
+    if (s < s0 || s >= s1) continue;
     const float *src = x + (size_t)p * inner;
     float *dst = out + (size_t)s * inner;
     int i = 0;
@@ -436,37 +454,36 @@ static void softmax_row(float *row, const float *bias, int n, float scale) {
   for (; j < n; j++) row[j] *= wasm_f32x4_extract_lane(inv, 0);
 }
 
-// Forward. q, k, v, ctx: [B·T, H] with H = N·D; bias: [B, T]; probs: [B·N, T, T]
-// receives P when not null (the backward needs it); scratch: 2·T·T floats; ws:
-// the GEMM workspace. dropout = 0 skips the mask.
-void attention_forward(const float *q, const float *k, const float *v, const float *bias,
-                       float *ctx, float *probs, float *scratch, int B, int T, int N,
-                       int D, float scale, int dropout, unsigned mix, unsigned threshold,
-                       float keep_scale, float *ws) {
+// Forward of head h = b·N + n. q, k, v, ctx: [B·T, H] with H = N·D; bias: [B, T];
+// probs: [B·N, T, T] receives P when not null (the backward needs it); scratch: 2·T·T
+// floats of the calling thread; ws: its GEMM workspace. dropout = 0 skips the mask.
+// Heads write disjoint parts of ctx and probs, so they may run on any thread.
+static void attention_forward_head(const float *q, const float *k, const float *v,
+                                   const float *bias, float *ctx, float *probs,
+                                   float *scratch, int h, int T, int N, int D, float scale,
+                                   int dropout, unsigned mix, unsigned threshold,
+                                   float keep_scale, float *ws) {
   int H = N * D;
   size_t tt = (size_t)T * T;
-  for (int b = 0; b < B; b++) {
-    for (int n = 0; n < N; n++) {
-      size_t head = (size_t)b * N + n;
-      size_t off = (size_t)b * T * H + (size_t)n * D;
-      float *p = probs ? probs + head * tt : scratch;
-      // 1. raw scores Q_h K_hᵀ (K_hᵀ by strides)
-      gemm_f32(T, T, D, q + off, H, 1, k + off, 1, H, p, T, ws);
-      // 2. scale, bias, softmax per query row
-      for (int i = 0; i < T; i++) softmax_row(p + (size_t)i * T, bias + (size_t)b * T, T, scale);
-      // 3. dropout into the second scratch (P itself is kept unmasked)
-      const float *a = p;
-      if (dropout) {
-        float *pd = scratch + tt;
-        for (int i = 0; i < T; i++)
-          drop_row(p + (size_t)i * T, pd + (size_t)i * T, T,
-                   (unsigned)((head * T + i) * T), mix, threshold, keep_scale);
-        a = pd;
-      }
-      // 4. C_h = Pd V_h, written into head n's columns of ctx
-      gemm_f32(T, D, T, a, T, 1, v + off, H, 1, ctx + off, H, ws);
-    }
+  size_t head = (size_t)h;
+  int b = h / N, n = h % N;
+  size_t off = (size_t)b * T * H + (size_t)n * D;
+  float *p = probs ? probs + head * tt : scratch;
+  // 1. raw scores Q_h K_hᵀ (K_hᵀ by strides)
+  gemm_f32(T, T, D, q + off, H, 1, k + off, 1, H, p, T, ws);
+  // 2. scale, bias, softmax per query row
+  for (int i = 0; i < T; i++) softmax_row(p + (size_t)i * T, bias + (size_t)b * T, T, scale);
+  // 3. dropout into the second scratch (P itself is kept unmasked)
+  const float *a = p;
+  if (dropout) {
+    float *pd = scratch + tt;
+    for (int i = 0; i < T; i++)
+      drop_row(p + (size_t)i * T, pd + (size_t)i * T, T, (unsigned)((head * T + i) * T),
+               mix, threshold, keep_scale);
+    a = pd;
   }
+  // 4. C_h = Pd V_h, written into head n's columns of ctx
+  gemm_f32(T, D, T, a, T, 1, v + off, H, 1, ctx + off, H, ws);
 }
 
 // Backward, from P (the forward's probs) and dC = dctx, per head:
@@ -475,57 +492,55 @@ void attention_forward(const float *q, const float *k, const float *v, const flo
 //   3. dP = dPd ⊙ M / keep                 (inverts "Pd = P ⊙ M / keep")
 //   4. dS = P ⊙ (dP − rowsum(dP ⊙ P))      (inverts the softmax)
 //   5. dQ_h = scale · dS K_h, dK_h = scale · dSᵀ Q_h   (inverts "S = scale·Q Kᵀ + bias")
-// scratch: 2·T·T floats. dq, dk, dv: [B·T, H], fully overwritten.
-void attention_backward(const float *q, const float *k, const float *v,
-                        const float *probs, const float *dctx, float *dq, float *dk,
-                        float *dv, float *scratch, int B, int T, int N, int D,
-                        float scale, int dropout, unsigned mix, unsigned threshold,
-                        float keep_scale, float *ws) {
+// Head h = b·N + n; scratch: 2·T·T floats of the calling thread. dq, dk, dv: [B·T, H],
+// the head's columns fully overwritten (heads write disjoint parts).
+static void attention_backward_head(const float *q, const float *k, const float *v,
+                                    const float *probs, const float *dctx, float *dq,
+                                    float *dk, float *dv, float *scratch, int h, int T,
+                                    int N, int D, float scale, int dropout, unsigned mix,
+                                    unsigned threshold, float keep_scale, float *ws) {
   int H = N * D;
   size_t tt = (size_t)T * T;
   float *g = scratch;
   float *pd = scratch + tt;
   v128_t vs = wasm_f32x4_splat(scale);
-  for (int b = 0; b < B; b++) {
-    for (int n = 0; n < N; n++) {
-      size_t head = (size_t)b * N + n;
-      size_t off = (size_t)b * T * H + (size_t)n * D;
-      const float *p = probs + head * tt;
-      // 1.
-      gemm_f32(T, T, D, dctx + off, H, 1, v + off, 1, H, g, T, ws);
-      // 2.
-      const float *a = p;
-      if (dropout) {
-        for (int i = 0; i < T; i++)
-          drop_row(p + (size_t)i * T, pd + (size_t)i * T, T,
-                   (unsigned)((head * T + i) * T), mix, threshold, keep_scale);
-        a = pd;
-      }
-      gemm_f32(T, D, T, a, 1, T, dctx + off, H, 1, dv + off, H, ws);
-      // 3–4. row by row, folding in the scale of step 5
-      for (int i = 0; i < T; i++) {
-        float *gr = g + (size_t)i * T;
-        const float *pr = p + (size_t)i * T;
-        if (dropout)
-          drop_row(gr, gr, T, (unsigned)((head * T + i) * T), mix, threshold, keep_scale);
-        v128_t vr = wasm_f32x4_splat(0);
-        float sr = 0.0f;
-        int j = 0;
-        for (; j + 4 <= T; j += 4)
-          vr = wasm_f32x4_add(vr, wasm_f32x4_mul(wasm_v128_load(gr + j), wasm_v128_load(pr + j)));
-        for (; j < T; j++) sr += gr[j] * pr[j];
-        v128_t r = wasm_f32x4_splat(hsum4(vr) + sr);
-        for (j = 0; j + 4 <= T; j += 4)
-          wasm_v128_store(gr + j, wasm_f32x4_mul(wasm_f32x4_mul(wasm_v128_load(pr + j),
-                                                                wasm_f32x4_sub(wasm_v128_load(gr + j), r)),
-                                                 vs));
-        for (; j < T; j++) gr[j] = pr[j] * (gr[j] - wasm_f32x4_extract_lane(r, 0)) * scale;
-      }
-      // 5.
-      gemm_f32(T, D, T, g, T, 1, k + off, H, 1, dq + off, H, ws);
-      gemm_f32(T, D, T, g, 1, T, q + off, H, 1, dk + off, H, ws);
-    }
+  size_t head = (size_t)h;
+  int b = h / N, n = h % N;
+  size_t off = (size_t)b * T * H + (size_t)n * D;
+  const float *p = probs + head * tt;
+  // 1.
+  gemm_f32(T, T, D, dctx + off, H, 1, v + off, 1, H, g, T, ws);
+  // 2.
+  const float *a = p;
+  if (dropout) {
+    for (int i = 0; i < T; i++)
+      drop_row(p + (size_t)i * T, pd + (size_t)i * T, T, (unsigned)((head * T + i) * T),
+               mix, threshold, keep_scale);
+    a = pd;
   }
+  gemm_f32(T, D, T, a, 1, T, dctx + off, H, 1, dv + off, H, ws);
+  // 3–4. row by row, folding in the scale of step 5
+  for (int i = 0; i < T; i++) {
+    float *gr = g + (size_t)i * T;
+    const float *pr = p + (size_t)i * T;
+    if (dropout)
+      drop_row(gr, gr, T, (unsigned)((head * T + i) * T), mix, threshold, keep_scale);
+    v128_t vr = wasm_f32x4_splat(0);
+    float sr = 0.0f;
+    int j = 0;
+    for (; j + 4 <= T; j += 4)
+      vr = wasm_f32x4_add(vr, wasm_f32x4_mul(wasm_v128_load(gr + j), wasm_v128_load(pr + j)));
+    for (; j < T; j++) sr += gr[j] * pr[j];
+    v128_t r = wasm_f32x4_splat(hsum4(vr) + sr);
+    for (j = 0; j + 4 <= T; j += 4)
+      wasm_v128_store(gr + j, wasm_f32x4_mul(wasm_f32x4_mul(wasm_v128_load(pr + j),
+                                                            wasm_f32x4_sub(wasm_v128_load(gr + j), r)),
+                                             vs));
+    for (; j < T; j++) gr[j] = pr[j] * (gr[j] - wasm_f32x4_extract_lane(r, 0)) * scale;
+  }
+  // 5.
+  gemm_f32(T, D, T, g, T, 1, k + off, H, 1, dq + off, H, ws);
+  gemm_f32(T, D, T, g, 1, T, q + off, H, 1, dk + off, H, ws);
 }
 
 // ---------------------------------------------------------------------------
@@ -563,7 +578,7 @@ static inline void store_tail(float *p, v128_t v, int m) {
   if (m > 2) p[2] = wasm_f32x4_extract_lane(v, 2);
 }
 
-void bias_gelu_f32(const float *x, const float *b, float *y, int rows, int n) {
+static void bias_gelu_rows(const float *x, const float *b, float *y, int rows, int n) {
   for (int r = 0; r < rows; r++) {
     const float *xr = x + (size_t)r * n;
     float *yr = y + (size_t)r * n;
@@ -575,9 +590,9 @@ void bias_gelu_f32(const float *x, const float *b, float *y, int rows, int n) {
   }
 }
 
-// dx: [rows, n]; db: [n] (the column sums of dx)
-void bias_gelu_grad_f32(const float *x, const float *b, const float *dy, float *dx,
-                        float *db, int rows, int n) {
+// dx: [rows, n]; db, the column sums of dx, is a second job (sum_cols by columns)
+static void bias_gelu_dx_rows(const float *x, const float *b, const float *dy, float *dx,
+                              int rows, int n) {
   for (int r = 0; r < rows; r++) {
     const float *xr = x + (size_t)r * n;
     const float *dyr = dy + (size_t)r * n;
@@ -593,7 +608,6 @@ void bias_gelu_grad_f32(const float *x, const float *b, const float *dy, float *
       store_tail(dxr + j, wasm_f32x4_mul(load_tail(dyr + j, m), gelu_grad4(u)), m);
     }
   }
-  sum_leading_f32(dx, db, rows, n);
 }
 
 // ---------------------------------------------------------------------------
@@ -613,8 +627,8 @@ static inline float row_sum(const float *p, int n) {
   return hsum4(acc) + s;
 }
 
-void layer_norm_f32(const float *x, const float *gamma, const float *beta, float *y,
-                    float *mean_out, float *rstd_out, int rows, int n, float eps) {
+static void layer_norm_rows(const float *x, const float *gamma, const float *beta, float *y,
+                            float *mean_out, float *rstd_out, int rows, int n, float eps) {
   float inv_n = 1.0f / (float)n;
   for (int r = 0; r < rows; r++) {
     const float *xr = x + (size_t)r * n;
@@ -642,38 +656,34 @@ void layer_norm_f32(const float *x, const float *gamma, const float *beta, float
   }
 }
 
-// dgamma, dbeta: [n], fully overwritten
-void layer_norm_grad_f32(const float *x, const float *gamma, const float *mean,
-                         const float *rstd, const float *dy, float *dx, float *dgamma,
-                         float *dbeta, int rows, int n) {
+// The backward in two jobs: dx by rows (each row needs only its own sums), then dγ and
+// dβ by columns (each column sums over all rows, in row order), so that every output is
+// written by one task and its sums keep one order whatever the thread count.
+static void layer_norm_dx_rows(const float *x, const float *gamma, const float *mean,
+                               const float *rstd, const float *dy, float *dx, int rows,
+                               int n) {
   float inv_n = 1.0f / (float)n;
   int j;
-  for (j = 0; j < n; j++) dgamma[j] = dbeta[j] = 0.0f;
   for (int r = 0; r < rows; r++) {
     const float *xr = x + (size_t)r * n;
     const float *dyr = dy + (size_t)r * n;
     float *dxr = dx + (size_t)r * n;
     v128_t vmu = wasm_f32x4_splat(mean[r]);
     v128_t vr = wasm_f32x4_splat(rstd[r]);
-    // 1. mean(g) and mean(g·x̂); the parameter gradients on the way
+    // 1. mean(g) and mean(g·x̂)
     v128_t sg = wasm_f32x4_splat(0), sgh = sg;
     float tg = 0.0f, tgh = 0.0f;
     for (j = 0; j + 4 <= n; j += 4) {
-      v128_t d = wasm_v128_load(dyr + j);
       v128_t h = wasm_f32x4_mul(wasm_f32x4_sub(wasm_v128_load(xr + j), vmu), vr);
-      v128_t g = wasm_f32x4_mul(d, wasm_v128_load(gamma + j));
+      v128_t g = wasm_f32x4_mul(wasm_v128_load(dyr + j), wasm_v128_load(gamma + j));
       sg = wasm_f32x4_add(sg, g);
       sgh = wasm_f32x4_add(sgh, wasm_f32x4_mul(g, h));
-      wasm_v128_store(dgamma + j, wasm_f32x4_add(wasm_v128_load(dgamma + j), wasm_f32x4_mul(d, h)));
-      wasm_v128_store(dbeta + j, wasm_f32x4_add(wasm_v128_load(dbeta + j), d));
     }
     for (; j < n; j++) {
       float h = (xr[j] - mean[r]) * rstd[r];
       float g = dyr[j] * gamma[j];
       tg += g;
       tgh += g * h;
-      dgamma[j] += dyr[j] * h;
-      dbeta[j] += dyr[j];
     }
     v128_t mg = wasm_f32x4_splat((hsum4(sg) + tg) * inv_n);
     v128_t mgh = wasm_f32x4_splat((hsum4(sgh) + tgh) * inv_n);
@@ -692,15 +702,41 @@ void layer_norm_grad_f32(const float *x, const float *gamma, const float *mean,
   }
 }
 
+// dγ[j] = Σ_r dy·x̂ and dβ[j] = Σ_r dy for the columns j in [j0, j1), fully overwritten
+static void layer_norm_dparams_cols(const float *x, const float *mean, const float *rstd,
+                                    const float *dy, float *dgamma, float *dbeta, int rows,
+                                    int n, int j0, int j1) {
+  int j;
+  for (j = j0; j < j1; j++) dgamma[j] = dbeta[j] = 0.0f;
+  for (int r = 0; r < rows; r++) {
+    const float *xr = x + (size_t)r * n;
+    const float *dyr = dy + (size_t)r * n;
+    v128_t vmu = wasm_f32x4_splat(mean[r]);
+    v128_t vr = wasm_f32x4_splat(rstd[r]);
+    for (j = j0; j + 4 <= j1; j += 4) {
+      v128_t d = wasm_v128_load(dyr + j);
+      v128_t h = wasm_f32x4_mul(wasm_f32x4_sub(wasm_v128_load(xr + j), vmu), vr);
+      wasm_v128_store(dgamma + j, wasm_f32x4_add(wasm_v128_load(dgamma + j), wasm_f32x4_mul(d, h)));
+      wasm_v128_store(dbeta + j, wasm_f32x4_add(wasm_v128_load(dbeta + j), d));
+    }
+    for (; j < j1; j++) {
+      float h = (xr[j] - mean[r]) * rstd[r];
+      dgamma[j] += dyr[j] * h;
+      dbeta[j] += dyr[j];
+    }
+  }
+}
+
 // ---------------------------------------------------------------------------
 // Inverted dropout of n values with the attention op's counter-based mask
 // (element e kept iff hash(e·0x9E3779B9 + mix) >= threshold, kept values scaled):
 // the same call on dy is its backward, since the mask is recomputed from the seed.
 // ---------------------------------------------------------------------------
 
-void dropout_f32(const float *x, float *y, int n, unsigned mix, unsigned threshold,
-                 float scale) {
-  drop_row(x, y, n, 0, mix, threshold, scale);
+// element e0 + j of the whole tensor for j < n: a task's range of it
+static void dropout_range(const float *x, float *y, int n, unsigned e0, unsigned mix,
+                          unsigned threshold, float scale) {
+  drop_row(x, y, n, e0, mix, threshold, scale);
 }
 
 // ---------------------------------------------------------------------------
@@ -711,7 +747,7 @@ void dropout_f32(const float *x, float *y, int n, unsigned mix, unsigned thresho
 // Outputs go to new buffers (tfjs tensors are immutable); the caller assigns them.
 // ---------------------------------------------------------------------------
 
-void adamw_f32(const float *p, const float *g, const float *m, const float *v,
+static void adamw_range(const float *p, const float *g, const float *m, const float *v,
                float *p_out, float *m_out, float *v_out, int n, float gscale,
                int scaled, float decay, int decayed, float b1, float one_minus_b1,
                float b2, float one_minus_b2, float neg_step, float c2, float eps) {
@@ -744,3 +780,223 @@ void adamw_f32(const float *p, const float *g, const float *m, const float *v,
     v_out[i] = vi;
   }
 }
+
+// ---------------------------------------------------------------------------
+// Jobs: each kernel above as a list of tasks that write disjoint outputs.
+//
+// The TypeScript side (src/kernels/jobs.ts) writes a job — its kind, its task count and
+// up to JOB_ARGS int arguments (pointers, sizes, float bits) — into a pool_t, then calls
+//   job_run   the tasks in order on the calling thread (every build), or
+//   pool_run  the tasks shared with the helper threads (shared-memory builds): the
+//             caller publishes the job, wakes the helpers sleeping in pool_helper, takes
+//             tasks itself, and sleeps until the last one is done.
+// Tasks are claimed from one atomic word holding (tasks << 16) | next, so a claim names
+// the job it belongs to, and a task's arguments are read only after it is claimed: a
+// helper that wakes late can claim nothing but a task of the current job. A job is not
+// replaced before all its tasks are done, so its arguments stay put while any runs.
+//
+// How a kernel is cut never changes what an output element sums or in which order
+// (row blocks, column blocks, whole heads; the GEMM's K blocking is the same in every
+// block), so the results are the same bits on any number of threads.
+// ---------------------------------------------------------------------------
+
+#define MAX_THREADS 32
+#define JOB_ARGS 32
+
+typedef struct {
+  int gen;     // [0] bumped when a job is published; helpers sleep on it
+  int claim;   // [1] (tasks << 16) | next task to claim
+  int done;    // [2] tasks finished; the caller sleeps on it
+  int kind;    // [3] JOB_*
+  int tasks;   // [4] task count of the job being written (< 32768)
+  int active;  // [5] threads that may take part, the caller included
+  int quit;    // [6] set (then gen bumped) to end pool_helper
+  int alive;   // [7] helpers inside pool_helper
+  int spin;    // [8] polls of gen before a helper sleeps
+  int failed;  // [9] set by a helper thread whose loop trapped (threads.ts)
+  int reserved[6];
+  float *ws[MAX_THREADS]; // [16] per-thread GEMM workspace (gemm_workspace_floats each)
+  int arg[JOB_ARGS];      // [48] the job's arguments
+  int taken[MAX_THREADS]; // [80] tasks each thread has run in pool_run (benchmarks read it)
+} pool_t;
+
+enum {
+  JOB_GEMM = 1,
+  JOB_ATTENTION_FORWARD = 2,
+  JOB_ATTENTION_BACKWARD = 3,
+  JOB_BIAS_GELU = 4,
+  JOB_BIAS_GELU_DX = 5,
+  JOB_SUM_COLS = 6,
+  JOB_LAYER_NORM = 7,
+  JOB_LAYER_NORM_DX = 8,
+  JOB_LAYER_NORM_DPARAMS = 9,
+  JOB_DROPOUT = 10,
+  JOB_ADAMW = 11,
+  JOB_ERF = 12,
+  JOB_SEGMENT_SUM = 13,
+};
+
+static inline float as_float(int bits) {
+  union { int i; float f; } u;
+  u.i = bits;
+  return u.f;
+}
+
+#define PTR(i) ((float *)(size_t)(unsigned)a[i])
+#define CPTR(i) ((const float *)(size_t)(unsigned)a[i])
+#define F32(i) as_float(a[i])
+#define MIN(x, y) ((x) < (y) ? (x) : (y))
+
+// task t of the job in p on thread `self`
+static void run_task(const pool_t *p, int t, int self) {
+  const int *a = p->arg;
+  float *ws = p->ws[self];
+  switch (p->kind) {
+  case JOB_GEMM: {
+    // M N K A rsA csA B rsB csB C ldc tileM tileN tilesN tilesPerBatch bsA bsB bsC
+    int M = a[0], N = a[1], K = a[2], rsA = a[4], csA = a[5], rsB = a[7], csB = a[8];
+    int ldc = a[10], tileM = a[11], tileN = a[12], tilesN = a[13], perBatch = a[14];
+    int batch = t / perBatch, r = t % perBatch;
+    int i0 = (r / tilesN) * tileM, j0 = (r % tilesN) * tileN;
+    const float *A = CPTR(3) + (size_t)batch * (unsigned)a[15] + (size_t)i0 * rsA;
+    const float *B = CPTR(6) + (size_t)batch * (unsigned)a[16] + (size_t)j0 * csB;
+    float *C = PTR(9) + (size_t)batch * (unsigned)a[17] + (size_t)i0 * ldc + j0;
+    gemm_f32(MIN(tileM, M - i0), MIN(tileN, N - j0), K, A, rsA, csA, B, rsB, csB, C, ldc, ws);
+    break;
+  }
+  case JOB_ATTENTION_FORWARD: // q k v bias ctx probs scratch stride T N D scale drop mix thr keep
+    attention_forward_head(CPTR(0), CPTR(1), CPTR(2), CPTR(3), PTR(4), PTR(5),
+                           PTR(6) + (size_t)self * (unsigned)a[7], t, a[8], a[9], a[10],
+                           F32(11), a[12], (unsigned)a[13], (unsigned)a[14], F32(15), ws);
+    break;
+  case JOB_ATTENTION_BACKWARD: // q k v probs dctx dq dk dv scratch stride T N D scale drop mix thr keep
+    attention_backward_head(CPTR(0), CPTR(1), CPTR(2), CPTR(3), CPTR(4), PTR(5), PTR(6),
+                            PTR(7), PTR(8) + (size_t)self * (unsigned)a[9], t, a[10], a[11],
+                            a[12], F32(13), a[14], (unsigned)a[15], (unsigned)a[16],
+                            F32(17), ws);
+    break;
+  case JOB_BIAS_GELU: { // x b y rows n per
+    int n = a[4], r0 = t * a[5], rows = MIN(a[5], a[3] - r0);
+    size_t o = (size_t)r0 * n;
+    bias_gelu_rows(CPTR(0) + o, CPTR(1), PTR(2) + o, rows, n);
+    break;
+  }
+  case JOB_BIAS_GELU_DX: { // x b dy dx rows n per
+    int n = a[5], r0 = t * a[6], rows = MIN(a[6], a[4] - r0);
+    size_t o = (size_t)r0 * n;
+    bias_gelu_dx_rows(CPTR(0) + o, CPTR(1), CPTR(2) + o, PTR(3) + o, rows, n);
+    break;
+  }
+  case JOB_SUM_COLS: { // x y m n per — columns [t·per, …) of an [m, n] matrix
+    int n = a[3], j0 = t * a[4];
+    sum_cols(CPTR(0) + j0, PTR(1) + j0, a[2], MIN(a[4], n - j0), n);
+    break;
+  }
+  case JOB_LAYER_NORM: { // x gamma beta y mean rstd rows n eps per
+    int n = a[7], r0 = t * a[9], rows = MIN(a[9], a[6] - r0);
+    size_t o = (size_t)r0 * n;
+    float *mean = a[4] ? PTR(4) + r0 : 0, *rstd = a[5] ? PTR(5) + r0 : 0;
+    layer_norm_rows(CPTR(0) + o, CPTR(1), CPTR(2), PTR(3) + o, mean, rstd, rows, n, F32(8));
+    break;
+  }
+  case JOB_LAYER_NORM_DX: { // x gamma mean rstd dy dx rows n per
+    int n = a[7], r0 = t * a[8], rows = MIN(a[8], a[6] - r0);
+    size_t o = (size_t)r0 * n;
+    layer_norm_dx_rows(CPTR(0) + o, CPTR(1), CPTR(2) + r0, CPTR(3) + r0, CPTR(4) + o,
+                       PTR(5) + o, rows, n);
+    break;
+  }
+  case JOB_LAYER_NORM_DPARAMS: { // x mean rstd dy dgamma dbeta rows n per
+    int n = a[7], j0 = t * a[8];
+    layer_norm_dparams_cols(CPTR(0), CPTR(1), CPTR(2), CPTR(3), PTR(4), PTR(5), a[6], n, j0,
+                            MIN(j0 + a[8], n));
+    break;
+  }
+  case JOB_DROPOUT: { // x y n mix threshold scale per
+    int s = t * a[6];
+    dropout_range(CPTR(0) + s, PTR(1) + s, MIN(a[6], a[2] - s), (unsigned)s,
+                  (unsigned)a[3], (unsigned)a[4], F32(5));
+    break;
+  }
+  case JOB_ADAMW: { // p g m v pOut mOut vOut n gscale scaled decay decayed b1 1-b1 b2 1-b2 -step c2 eps per
+    int s = t * a[19];
+    adamw_range(CPTR(0) + s, CPTR(1) + s, CPTR(2) + s, CPTR(3) + s, PTR(4) + s, PTR(5) + s,
+                PTR(6) + s, MIN(a[19], a[7] - s), F32(8), a[9], F32(10), a[11], F32(12),
+                F32(13), F32(14), F32(15), F32(16), F32(17), F32(18));
+    break;
+  }
+  case JOB_ERF: { // x y n per
+    int s = t * a[3];
+    erf_range(CPTR(0) + s, PTR(1) + s, MIN(a[3], a[2] - s));
+    break;
+  }
+  case JOB_SEGMENT_SUM: { // x ids out count inner segments per
+    int s0 = t * a[6];
+    segment_sum_range(CPTR(0), (const int *)(size_t)(unsigned)a[1], PTR(2), a[3], a[4], s0,
+                      MIN(s0 + a[6], a[5]));
+    break;
+  }
+  default:
+    __builtin_trap();
+  }
+}
+
+// every task of the job in p, in order, on the calling thread
+void job_run(pool_t *p) {
+  for (int t = 0; t < p->tasks; t++) run_task(p, t, 0);
+}
+
+#ifdef __wasm_atomics__
+#define SEQ __ATOMIC_SEQ_CST
+
+// claim and run tasks until none is left; the thread finishing the last wakes the caller
+static void work(pool_t *p, int self) {
+  for (;;) {
+    unsigned w = __atomic_fetch_add((unsigned *)&p->claim, 1u, SEQ);
+    int t = (int)(w & 0xffffu), tasks = (int)(w >> 16);
+    if (t >= tasks) return;
+    run_task(p, t, self);
+    p->taken[self]++;
+    if (__atomic_add_fetch(&p->done, 1, SEQ) == tasks)
+      __builtin_wasm_memory_atomic_notify(&p->done, 1);
+  }
+}
+
+// The caller's side: publish the job written in p (kind, tasks, arg), take part, and
+// return once every task is done (or a helper has failed: the caller checks p->failed).
+// Only one thread ever calls this on a given p.
+void pool_run(pool_t *p) {
+  int tasks = p->tasks;
+  __atomic_store_n(&p->done, 0, SEQ);
+  __atomic_store_n(&p->claim, tasks << 16, SEQ);
+  __atomic_fetch_add(&p->gen, 1, SEQ);
+  __builtin_wasm_memory_atomic_notify(&p->gen, 0xffffffffu);
+  work(p, 0);
+  for (;;) {
+    int d = __atomic_load_n(&p->done, SEQ);
+    if (d >= tasks || __atomic_load_n(&p->failed, SEQ)) return;
+    __builtin_wasm_memory_atomic_wait32(&p->done, d, -1);
+  }
+}
+
+// A helper thread's whole life (thread `self`, 1 ≤ self < MAX_THREADS): poll gen a
+// little (a job often follows a job), then sleep on it; on a new job, take part when
+// self < active. Returns when quit is set.
+void pool_helper(pool_t *p, int self) {
+  __atomic_fetch_add(&p->alive, 1, SEQ);
+  int seen = __atomic_load_n(&p->gen, SEQ);
+  for (;;) {
+    int g = __atomic_load_n(&p->gen, SEQ);
+    for (int i = 0, spin = __atomic_load_n(&p->spin, SEQ); g == seen && i < spin; i++)
+      g = __atomic_load_n(&p->gen, SEQ);
+    if (g == seen) {
+      __builtin_wasm_memory_atomic_wait32(&p->gen, seen, -1);
+      continue;
+    }
+    seen = g;
+    if (__atomic_load_n(&p->quit, SEQ)) break;
+    if (self < __atomic_load_n(&p->active, SEQ)) work(p, self);
+  }
+  __atomic_fetch_sub(&p->alive, 1, SEQ);
+}
+#endif
