@@ -83,7 +83,7 @@ function biasGeluBackward({ inputs: { x, b, dy }, backend }: GeluArgs): tf.Tenso
   const dx = backend.makeOutput([rows, n], 'float32');
   const db = backend.makeOutput([n], 'float32');
   if (n === 0) return [dx, db];
-  const run = jobRunner(backend, { ns: rows * n * RATE.geluNs, bytes: tensorBytes(x, b, dy, dx, db) });
+  const run = jobRunner(backend, { ns: rows * n * RATE.geluGradNs, bytes: tensorBytes(x, b, dy, dx, db) });
   try {
     const X = run.input(x);
     const B = run.input(b);

@@ -9,7 +9,7 @@
 //   try { run.run(JOB.erf, tasks, [run.input(x), run.output(y), n, per]); } finally { run.finish(); }
 //
 // The runner shares the job when that saves time: the time the other threads take off
-// (ns · (1 − 1/threads)) must exceed twice the cost of sharing — waking the helpers
+// (ns · (1 − 1/threads)) must exceed 1.5 times the cost of sharing — waking the helpers
 // and, when the pool works in its own memory, copying the operands in and the outputs
 // back. Otherwise, and without a pool, the job runs on this thread on the tfjs heap.
 // Either way the outputs are the same bits (kernels.c, "Jobs").
@@ -20,12 +20,14 @@ import { kernelPoolFor, type KernelPool } from './threads.js';
 import { fastModuleFor, heapOffset, type WasmBackendLike } from './wasm-module.js';
 
 /**
- * Publishing a job and waking the helpers, then waiting for the last task: measured
- * 20–60 µs here (tests/bench/engine.ts prints the figures a job costs); 50 µs assumed.
+ * Publishing a job, waking the helpers and waiting for the last task: 10–15 µs measured
+ * here for a 64³ product (tests/bench/engine.ts prints it), 20 µs assumed.
  */
-const SHARE_NS = 50_000;
-/** Copying into and out of the pool's memory: ~30 bytes/ns measured for 8 MB (in cache); 8 assumed. */
-const COPY_BYTES_PER_NS = 8;
+const SHARE_NS = 20_000;
+/** Copying into and out of the pool's memory: ~30 bytes/ns measured for 8 MB in cache, less from DRAM; 12 assumed. */
+const COPY_BYTES_PER_NS = 12;
+/** Share when the time saved exceeds the cost of sharing by this factor (estimates are rough). */
+const MARGIN = 1.5;
 /** A copies pool never takes jobs with operands larger than this (the memory would double); they stay on one thread. */
 const COPY_LIMIT_BYTES = 512 * 2 ** 20;
 
@@ -33,8 +35,10 @@ const COPY_LIMIT_BYTES = 512 * 2 ** 20;
 export const RATE = {
   /** GEMM FLOP per ns (~28 GFLOP/s) */
   gemmFlops: 28,
-  /** erf-based elementwise work (GELU and its gradient): ns per element */
+  /** erf-based elementwise work: ns per element of GELU (6 ms for 4096 × 512) */
   geluNs: 2.8,
+  /** … and of its gradient with the bias gradient (8 ms for 4096 × 512) */
+  geluGradNs: 4,
   /** memory-bound elementwise work (LayerNorm, dropout, AdamW, sums): ns per element */
   streamNs: 0.4,
 } as const;
@@ -154,7 +158,10 @@ class PoolRunner implements JobRunner {
     const bytes = bytesOf(info);
     const addr = this.alloc(bytes);
     const from = heapOffset(this.backend, info);
+    const t0 = performance.now();
     new Uint8Array(this.pool.memory.buffer, addr, bytes).set(this.backend.wasm.HEAPU8.subarray(from, from + bytes));
+    this.pool.stats.copyMs += performance.now() - t0;
+    this.pool.stats.copyBytes += bytes;
     return addr;
   }
 
@@ -184,15 +191,23 @@ class PoolRunner implements JobRunner {
     words[base + POOL_TASKS] = tasks;
     words.set(args, base + POOL_ARGS);
     Atomics.store(words, base + POOL_ACTIVE, this.threads);
+    const t0 = performance.now();
     exports.pool_run!(ctrl);
+    this.pool.stats.jobMs += performance.now() - t0;
+    this.pool.stats.jobs += 1;
     if (Atomics.load(words, base + POOL_FAILED) !== 0) throw new Error('src/kernels: a kernel thread failed; the job did not finish');
   }
 
   finish(): void {
     if (this.pool.copies) {
+      const t0 = performance.now();
       const heap = this.backend.wasm.HEAPU8;
       const mem = new Uint8Array(this.pool.memory.buffer);
-      for (const [addr, to, bytes] of this.outputs) heap.set(mem.subarray(addr, addr + bytes), to);
+      for (const [addr, to, bytes] of this.outputs) {
+        heap.set(mem.subarray(addr, addr + bytes), to);
+        this.pool.stats.copyBytes += bytes;
+      }
+      this.pool.stats.copyMs += performance.now() - t0;
       this.outputs.length = 0;
       this.top = this.pool.arenaBase;
     }
@@ -215,7 +230,7 @@ export function jobRunner(backend: WasmBackendLike, cost: JobCost): JobRunner {
     const threads = pool.threadsNow();
     if (threads > 1 && (!pool.copies || cost.bytes <= COPY_LIMIT_BYTES)) {
       const overhead = SHARE_NS + (pool.copies ? cost.bytes / COPY_BYTES_PER_NS : 0);
-      if (sharing === 'always' || cost.ns * (1 - 1 / threads) > 2 * overhead) return new PoolRunner(backend, pool, threads);
+      if (sharing === 'always' || cost.ns * (1 - 1 / threads) > MARGIN * overhead) return new PoolRunner(backend, pool, threads);
     }
   }
   return new DirectRunner(backend);

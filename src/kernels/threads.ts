@@ -166,6 +166,8 @@ export class KernelPool {
   requested: number;
   /** copies: first byte of the operand arena in `memory` */
   readonly arenaBase: number;
+  /** what shared jobs have cost so far (benchmarks read and reset it) */
+  readonly stats = { jobs: 0, jobMs: 0, copyBytes: 0, copyMs: 0 };
   private readonly helpers: KernelThreadHandle[] = [];
   private readonly mallocs: number[] = [];
 

@@ -128,7 +128,7 @@ export function relaxedSimdSupported(): boolean {
 }
 
 /** The relaxed-SIMD probe's bytes (tests check it against the real relaxed build). */
-export const RELAXED_SIMD_PROBE: Uint8Array = relaxedProbe();
+export const RELAXED_SIMD_PROBE: Uint8Array<ArrayBuffer> = relaxedProbe();
 
 /** The build the options and the runtime call for, for a heap shared or not. */
 export function chooseBuild(shared: boolean): KernelBuild {

@@ -1,26 +1,43 @@
 // defines: the engine benchmark — training-step throughput of the real reader
 // (src/model/encoder.ts) and trainer (src/train/trainer.ts) on the wasm backend with
-// the fast kernels, against references measured in the same run:
-//   engine      wasm + registerFastKernels()
+// the fast kernels, on one thread and on all N cores, against references measured in
+// the same run:
+//   engine_1    wasm + registerFastKernels(), kernel threads set to 1
+//   engine_N    the same with N kernel threads (src/kernels/threads.ts; N = every core)
 //   stock_wasm  wasm + restoreStockKernels() (stock tfjs ops; the kernel fixes that
 //               stock wasm needs to train at all stay on, see src/kernels/register.ts)
 //   cpu         tfjs 'cpu' backend (very slow: one timed step)
-//   torch       PyTorch, one thread (tests/bench/torch_step.py via /usr/bin/python3)
-// plus a plain-GEMM peak on wasm, the share of it a step reaches, the peak wasm heap,
-// and the forward latency of one 384-token window.
+//   torch_1     PyTorch on one thread (tests/bench/torch_step.py via /usr/bin/python3)
+//   torch_N     PyTorch on N threads: the fastest of torch.set_num_threads(N) with
+//               OpenBLAS's default threads, with OPENBLAS_NUM_THREADS=1, and
+//               set_num_threads(1) with OPENBLAS_NUM_THREADS=N (Debian's torch does its
+//               matrix products in OpenBLAS; set_num_threads(N) alone runs N OpenMP
+//               threads that each call a threaded OpenBLAS, which is slower here)
+// plus the plain-GEMM peak on wasm at 1 and N threads, the share of the 1-thread peak a
+// step reaches, the cost of one shared job, the peak wasm heap, the forward latency of
+// one 384-token window, and the machine's load average (os.loadavg) beside each config:
+// the machine is shared, so figures taken under load say so.
 //
-//   npx tsx tests/bench/engine.ts [--json] [--skip-cpu] [--skip-stock] [--steps N] [--config NAME]
+//   npx tsx tests/bench/engine.ts [--json] [--skip-cpu] [--skip-stock] [--steps N] [--config NAME] [--threads N]
 //
-// Step time is the median of N timed steps after one warm-up step. Model FLOPs count
+// Step times: after two warm-up steps, N rounds (--steps, default 5) of one step on one
+// thread then one on N threads, alternating so that a burst of other work on the
+// machine falls on both; each figure is the median of its N steps. PyTorch: each
+// setting twice, alternating, the median of all their timed steps. Model FLOPs count
 // the matrix products only (3× the forward: forward, input gradient, weight gradient).
 
 import { spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
+import { availableParallelism, loadavg } from 'node:os';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import * as tf from '@tensorflow/tfjs';
 import '@tensorflow/tfjs-backend-wasm';
+import { startKernelThreads } from '../../src/cli/kernel-threads.js';
+import { setJobSharing } from '../../src/kernels/jobs.js';
 import { registerFastKernels, registerKernelFixes, restoreStockKernels } from '../../src/kernels/register.js';
+import { kernelPoolFor, kernelThreadCount, setKernelThreads } from '../../src/kernels/threads.js';
+import { fastModuleFor, type WasmBackendLike } from '../../src/kernels/wasm-module.js';
 import { presetConfig, type PresetName, type ReaderConfig } from '../../src/model/config.js';
 import { spanLogits } from '../../src/model/encoder.js';
 import { ReaderParams } from '../../src/model/params.js';
@@ -34,6 +51,10 @@ const here = dirname(fileURLToPath(import.meta.url));
 /** 30522: BERT's uncased vocabulary; the shipped tiny vocabulary is of the same order (~30 000). */
 const VOCAB = 30522;
 
+/** The issue's goals (issue 14): engine on N threads ≥ 0.5× PyTorch on N, and ≥ 1.7× its own one thread on 2 cores. */
+const GOAL_VS_TORCH = 0.5;
+const GOAL_SCALING_2 = 1.7;
+
 interface BenchConfig {
   name: string;
   preset: PresetName;
@@ -46,18 +67,35 @@ const CONFIGS: BenchConfig[] = [
   { name: 'L4-H256-T384-B8', preset: 'small', seqLen: 384, batch: 8 },
 ];
 
+const ROWS = ['engine_1', 'engine_N', 'stock_wasm', 'cpu', 'torch_1', 'torch_N'] as const;
+type Row = (typeof ROWS)[number];
+
 export interface ConfigResult {
   name: string;
-  tokens_per_s: { engine: number | null; stock_wasm: number | null; cpu: number | null; torch: number | null };
-  step_ms: { engine: number | null; stock_wasm: number | null; cpu: number | null; torch: number | null };
+  tokens_per_s: Record<Row, number | null>;
+  step_ms: Record<Row, number | null>;
+  /** engine_N / engine_1, and that over N */
+  engine_speedup: number;
+  engine_efficiency: number;
+  torch_speedup: number | null;
+  torch_efficiency: number | null;
+  /** the PyTorch setting torch_N is */
+  torch_n_setting: string;
   peak_fraction: number | null;
   heap_peak_bytes: number;
   forward_ms_384: number | null;
   model_gflop_per_step: number;
+  /** os.loadavg() when the config started and ended */
+  load_before: number[];
+  load_after: number[];
 }
 
 export interface EngineBenchResult {
+  threads: number;
+  relaxed_simd: boolean;
   gemm_peak_gflops: number;
+  gemm_peak_gflops_n: number;
+  shared_job_us: number;
   configs: ConfigResult[];
 }
 
@@ -92,8 +130,16 @@ function noteHeap(): void {
   heapPeak = Math.max(heapPeak, wasmBytes, tf.memory().numBytes);
 }
 
-/** Median step time (ms) of the real trainer on the current backend. */
-function timeSteps(config: ReaderConfig, bc: BenchConfig, warmup: number, timed: number): number {
+function median(xs: number[]): number {
+  const s = [...xs].sort((a, b) => a - b);
+  return s[Math.floor(s.length / 2)];
+}
+
+/**
+ * Median step time (ms) of the real trainer on the current backend for each thread
+ * count in `threadCounts`, the counts alternating step by step.
+ */
+function timeSteps(config: ReaderConfig, bc: BenchConfig, warmup: number, rounds: number, threadCounts: number[]): number[] {
   const tc = trainConfig({
     batchSize: bc.batch,
     gradAccumulation: 1,
@@ -107,16 +153,21 @@ function timeSteps(config: ReaderConfig, bc: BenchConfig, warmup: number, timed:
   const trainer = new Trainer(params, config, tc, planTraining(tc, 1000 * bc.batch));
   const batch = syntheticBatch(bc.batch, bc.seqLen, config.vocabSize);
   try {
-    for (let i = 0; i < warmup; i++) trainer.step([batch]);
-    const times: number[] = [];
-    for (let i = 0; i < timed; i++) {
-      const t0 = performance.now();
+    for (let i = 0; i < warmup; i++) {
+      setKernelThreads(threadCounts[i % threadCounts.length]);
       trainer.step([batch]);
-      times.push(performance.now() - t0);
-      noteHeap();
     }
-    times.sort((a, b) => a - b);
-    return times[Math.floor(times.length / 2)];
+    const times = threadCounts.map(() => [] as number[]);
+    for (let r = 0; r < rounds; r++) {
+      threadCounts.forEach((n, i) => {
+        setKernelThreads(n);
+        const t0 = performance.now();
+        trainer.step([batch]);
+        times[i].push(performance.now() - t0);
+        noteHeap();
+      });
+    }
+    return times.map(median);
   } finally {
     trainer.dispose();
     params.dispose();
@@ -146,23 +197,23 @@ function forward384(config: ReaderConfig): number {
       run();
       times.push(performance.now() - t0);
     }
-    times.sort((x, y) => x - y);
-    return times[2];
+    return median(times);
   } finally {
     params.dispose();
   }
 }
 
-/** Best GFLOP/s of a plain 2-D 512³ product on wasm, fast kernel or stock XNNPACK. */
-function gemmPeak(): number {
+/** Best GFLOP/s of a plain 2-D 512³ product on wasm: the fast kernel on `threads` threads, and (1 thread) stock XNNPACK. */
+function gemmPeak(threads: number): number {
   const n = 512;
   const a = tf.randomUniform([n, n]);
   const b = tf.randomUniform([n, n]);
   let best = 0;
-  for (const fast of [true, false]) {
+  for (const fast of threads === 1 ? [true, false] : [true]) {
     if (fast) registerFastKernels();
     else restoreStockKernels();
-    for (let rep = 0; rep < 6; rep++) {
+    setKernelThreads(threads);
+    for (let rep = 0; rep < 8; rep++) {
       const t0 = performance.now();
       const c = tf.matMul(a, b);
       c.dataSync();
@@ -171,40 +222,90 @@ function gemmPeak(): number {
       if (rep > 0) best = Math.max(best, (2 * n * n * n) / ms / 1e6);
     }
   }
+  registerFastKernels();
   tf.dispose([a, b]);
   return best;
 }
 
-function torchTokensPerS(config: ReaderConfig, bc: BenchConfig): { tokensPerS: number | null; stepMs: number | null; note: string } {
+/** Microseconds one small product (64³) takes more when shared with the kernel threads than on this thread. */
+function sharedJobCost(threads: number): number {
+  const x = tf.randomUniform([64, 64]);
+  setKernelThreads(threads);
+  const per = (mode: 'auto' | 'always'): number => {
+    setJobSharing(mode);
+    const times: number[] = [];
+    for (let r = 0; r < 5; r++) {
+      const t0 = performance.now();
+      for (let i = 0; i < 200; i++) tf.matMul(x, x).dispose();
+      times.push(((performance.now() - t0) / 200) * 1000);
+    }
+    return median(times);
+  };
+  per('auto');
+  const cost = per('always') - per('auto');
+  setJobSharing('auto');
+  x.dispose();
+  return cost;
+}
+
+interface TorchRun {
+  stepMs: number | null;
+  times: number[];
+  note: string;
+}
+
+function torchSteps(config: ReaderConfig, bc: BenchConfig, threads: number, blasThreads: number | null, steps: number): TorchRun {
   const python = '/usr/bin/python3';
-  if (!existsSync(python)) return { tokensPerS: null, stepMs: null, note: 'no /usr/bin/python3' };
-  const probe = spawnSync(python, ['-c', 'import torch'], { encoding: 'utf8' });
-  if (probe.status !== 0) return { tokensPerS: null, stepMs: null, note: 'python3-torch is not installed (apt-get install python3-torch)' };
   const args = [
     join(here, 'torch_step.py'),
-    '--layers',
-    String(config.numLayers),
-    '--hidden',
-    String(config.hiddenSize),
-    '--heads',
-    String(config.numHeads),
-    '--intermediate',
-    String(config.intermediateSize),
-    '--seq',
-    String(bc.seqLen),
-    '--batch',
-    String(bc.batch),
-    '--vocab',
-    String(config.vocabSize),
+    ...['--layers', String(config.numLayers), '--hidden', String(config.hiddenSize), '--heads', String(config.numHeads)],
+    ...['--intermediate', String(config.intermediateSize), '--seq', String(bc.seqLen), '--batch', String(bc.batch)],
+    ...['--vocab', String(config.vocabSize), '--steps', String(steps), '--threads', String(threads)],
   ];
-  const run = spawnSync(python, args, { encoding: 'utf8', env: { ...process.env, OMP_NUM_THREADS: '1' } });
+  const env: NodeJS.ProcessEnv = { ...process.env, OMP_NUM_THREADS: String(threads) };
+  if (blasThreads === null) delete env.OPENBLAS_NUM_THREADS;
+  else env.OPENBLAS_NUM_THREADS = String(blasThreads);
+  const run = spawnSync(python, args, { encoding: 'utf8', env });
   const line = run.stdout.trim().split('\n').pop() ?? '';
   try {
-    const parsed = JSON.parse(line) as { tokens_per_s: number; step_s: number };
-    return { tokensPerS: parsed.tokens_per_s, stepMs: parsed.step_s * 1000, note: '' };
+    const parsed = JSON.parse(line) as { step_s: number; times_s: number[] };
+    return { stepMs: parsed.step_s * 1000, times: parsed.times_s.map((s) => s * 1000), note: '' };
   } catch {
-    return { tokensPerS: null, stepMs: null, note: `torch_step.py failed: ${run.stderr.trim().split('\n').pop()}` };
+    return { stepMs: null, times: [], note: `torch_step.py failed: ${run.stderr.trim().split('\n').pop()}` };
   }
+}
+
+/** PyTorch on 1 and on N threads (the fastest setting for N), each setting run twice, alternating. */
+function torchRows(
+  config: ReaderConfig,
+  bc: BenchConfig,
+  n: number,
+  steps: number,
+): { one: number | null; many: number | null; setting: string; note: string } {
+  const python = '/usr/bin/python3';
+  if (!existsSync(python)) return { one: null, many: null, setting: '', note: 'no /usr/bin/python3' };
+  const probe = spawnSync(python, ['-c', 'import torch'], { encoding: 'utf8' });
+  if (probe.status !== 0)
+    return { one: null, many: null, setting: '', note: 'python3-torch is not installed (apt-get install python3-torch)' };
+  const settings: { label: string; threads: number; blas: number | null }[] = [
+    { label: 'torch.set_num_threads(1), OPENBLAS_NUM_THREADS=1', threads: 1, blas: 1 },
+    { label: `torch.set_num_threads(${n})`, threads: n, blas: null },
+    { label: `torch.set_num_threads(${n}), OPENBLAS_NUM_THREADS=1`, threads: n, blas: 1 },
+    { label: `torch.set_num_threads(1), OPENBLAS_NUM_THREADS=${n}`, threads: 1, blas: n },
+  ];
+  const times = settings.map(() => [] as number[]);
+  let note = '';
+  for (let round = 0; round < 2; round++) {
+    settings.forEach((s, i) => {
+      const r = torchSteps(config, bc, s.threads, s.blas, steps);
+      times[i].push(...r.times);
+      note ||= r.note;
+    });
+  }
+  const medians = times.map((t) => (t.length ? median(t) : null));
+  let best = -1;
+  for (let i = 1; i < settings.length; i++) if (medians[i] !== null && (best < 0 || medians[i]! < medians[best]!)) best = i;
+  return { one: medians[0], many: best < 0 ? null : medians[best], setting: best < 0 ? '' : settings[best].label, note };
 }
 
 export interface EngineBenchOptions {
@@ -212,88 +313,162 @@ export interface EngineBenchOptions {
   skipStock: boolean;
   steps: number;
   only: string | null;
+  threads: number;
 }
+
+const load = (): number[] => loadavg().map((x) => Math.round(x * 100) / 100);
 
 export async function runEngineBench(opts: EngineBenchOptions): Promise<EngineBenchResult> {
   await tf.setBackend('wasm');
   await tf.ready();
   registerKernelFixes();
-  const peak = gemmPeak();
+  registerFastKernels();
+  const backend = tf.backend() as unknown as WasmBackendLike;
+  const N = await startKernelThreads(opts.threads, backend);
+  if (N < 2) console.error(`engine bench: ${N} kernel thread(s) only (${availableParallelism()} cores)`);
+  const peak = gemmPeak(1);
+  const peakN = gemmPeak(N);
+  const sharedUs = N > 1 ? sharedJobCost(N) : 0;
   const results: ConfigResult[] = [];
   for (const bc of CONFIGS) {
     if (opts.only && opts.only !== bc.name) continue;
+    const loadBefore = load();
     const config = presetConfig(bc.preset, VOCAB);
     const tokens = bc.batch * bc.seqLen;
     heapPeak = 0;
 
     await tf.setBackend('wasm');
     registerFastKernels();
-    const engineMs = timeSteps(config, bc, 1, opts.steps);
+    const [engine1, engineN] = timeSteps(config, bc, 2, opts.steps, [1, N]);
+    setKernelThreads(N);
     const fwd = forward384(config);
     const engineHeap = heapPeak;
 
     let stockMs: number | null = null;
     if (!opts.skipStock) {
       restoreStockKernels();
-      stockMs = timeSteps(config, bc, 1, 1);
+      setKernelThreads(1);
+      stockMs = timeSteps(config, bc, 1, 1, [1])[0];
       registerFastKernels();
     }
 
     let cpuMs: number | null = null;
     if (!opts.skipCpu) {
       await tf.setBackend('cpu');
-      cpuMs = timeSteps(config, bc, 0, 1);
+      cpuMs = timeSteps(config, bc, 0, 1, [1])[0];
       await tf.setBackend('wasm');
     }
+    setKernelThreads(N);
 
-    const torch = torchTokensPerS(config, bc);
-    if (torch.note) console.error(`${bc.name}: torch row skipped: ${torch.note}`);
+    const torch = torchRows(config, bc, N, opts.steps);
+    if (torch.note) console.error(`${bc.name}: torch rows incomplete: ${torch.note}`);
     const flops = stepFlops(config, bc.batch, bc.seqLen);
+    const stepMs: Record<Row, number | null> = {
+      engine_1: engine1,
+      engine_N: engineN,
+      stock_wasm: stockMs,
+      cpu: cpuMs,
+      torch_1: torch.one,
+      torch_N: torch.many,
+    };
     const perS = (ms: number | null) => (ms === null ? null : tokens / (ms / 1000));
+    const tokensPerS = Object.fromEntries(ROWS.map((r) => [r, perS(stepMs[r])])) as Record<Row, number | null>;
+    const torchSpeedup = torch.one !== null && torch.many !== null ? torch.one / torch.many : null;
     results.push({
       name: bc.name,
-      tokens_per_s: { engine: perS(engineMs), stock_wasm: perS(stockMs), cpu: perS(cpuMs), torch: torch.tokensPerS },
-      step_ms: { engine: engineMs, stock_wasm: stockMs, cpu: cpuMs, torch: torch.stepMs },
-      peak_fraction: flops / (engineMs / 1000) / 1e9 / peak,
+      tokens_per_s: tokensPerS,
+      step_ms: stepMs,
+      engine_speedup: engine1 / engineN,
+      engine_efficiency: engine1 / engineN / N,
+      torch_speedup: torchSpeedup,
+      torch_efficiency: torchSpeedup === null ? null : torchSpeedup / N,
+      torch_n_setting: torch.setting,
+      peak_fraction: flops / (engine1 / 1000) / 1e9 / peak,
       heap_peak_bytes: engineHeap,
       forward_ms_384: fwd,
       model_gflop_per_step: flops / 1e9,
+      load_before: loadBefore,
+      load_after: load(),
     });
   }
-  return { gemm_peak_gflops: peak, configs: results };
+  return {
+    threads: N,
+    relaxed_simd: fastModuleFor(backend).build.relaxed,
+    gemm_peak_gflops: peak,
+    gemm_peak_gflops_n: peakN,
+    shared_job_us: sharedUs,
+    configs: results,
+  };
 }
 
 function fmt(x: number | null, digits = 0): string {
   return x === null ? '—' : x.toFixed(digits);
 }
 
+function ratio(a: number | null, b: number | null): string {
+  return a === null || b === null ? '—' : (a / b).toFixed(2);
+}
+
 export function printEngineTable(r: EngineBenchResult): void {
-  console.log(`plain 2-D GEMM peak on wasm (512³, best of fast kernel and stock XNNPACK): ${r.gemm_peak_gflops.toFixed(1)} GFLOP/s`);
-  console.log('config              row         step ms    tokens/s');
+  const N = r.threads;
+  console.log(
+    `engine: ${N} kernel threads (${availableParallelism()} cores), ${r.relaxed_simd ? 'relaxed-SIMD' : 'SIMD128'} build; ` +
+      `plain 2-D GEMM 512³: ${r.gemm_peak_gflops.toFixed(1)} GFLOP/s on 1 thread (best of fast kernel and stock XNNPACK), ` +
+      `${r.gemm_peak_gflops_n.toFixed(1)} on ${N}; one shared job costs ${r.shared_job_us.toFixed(0)} µs more than one on this thread`,
+  );
+  const label: Record<Row, string> = {
+    engine_1: 'engine 1',
+    engine_N: `engine ${N}`,
+    stock_wasm: 'stock wasm',
+    cpu: 'tfjs cpu',
+    torch_1: 'torch 1',
+    torch_N: `torch ${N}`,
+  };
+  console.log('config              row           step ms    tokens/s');
   for (const c of r.configs) {
-    for (const row of ['engine', 'stock_wasm', 'cpu', 'torch'] as const) {
-      console.log(`${c.name.padEnd(20)}${row.padEnd(12)}${fmt(c.step_ms[row]).padStart(8)}${fmt(c.tokens_per_s[row]).padStart(12)}`);
+    console.log(`${c.name}: load average ${c.load_before.join(' ')} before, ${c.load_after.join(' ')} after (1, 5, 15 min)`);
+    for (const row of ROWS) {
+      console.log(`${c.name.padEnd(20)}${label[row].padEnd(14)}${fmt(c.step_ms[row]).padStart(8)}${fmt(c.tokens_per_s[row]).padStart(12)}`);
     }
     const t = c.tokens_per_s;
-    const ratio = (a: number | null, b: number | null) => (a === null || b === null ? '—' : (a / b).toFixed(2));
     console.log(
-      `${c.name.padEnd(20)}engine/stock ${ratio(t.engine, t.stock_wasm)}×  engine/torch ${ratio(t.engine, t.torch)}  ` +
-        `engine/cpu ${ratio(t.engine, t.cpu)}×  peak fraction ${fmt(c.peak_fraction, 2)}  ` +
-        `(${c.model_gflop_per_step.toFixed(1)} GFLOP/step)  heap peak ${(c.heap_peak_bytes / 2 ** 20).toFixed(0)} MiB  ` +
-        `forward 384 tokens ${fmt(c.forward_ms_384, 1)} ms`,
+      `${c.name.padEnd(20)}engine ${N}/1 ${c.engine_speedup.toFixed(2)}× (efficiency ${c.engine_efficiency.toFixed(2)})  ` +
+        `torch ${N}/1 ${fmt(c.torch_speedup, 2)}× (efficiency ${fmt(c.torch_efficiency, 2)}; torch ${N} = ${c.torch_n_setting || '—'})`,
+    );
+    const vsTorch = t.engine_N !== null && t.torch_N !== null ? t.engine_N / t.torch_N : null;
+    const goals =
+      `goal engine ${N}/torch ${N} ≥ ${GOAL_VS_TORCH}: ${vsTorch === null ? '—' : vsTorch >= GOAL_VS_TORCH ? 'met' : 'NOT met'}` +
+      (N === 2 ? `; goal engine 2/1 ≥ ${GOAL_SCALING_2}: ${c.engine_speedup >= GOAL_SCALING_2 ? 'met' : 'NOT met'}` : '');
+    console.log(
+      `${c.name.padEnd(20)}engine ${N}/torch ${N} ${ratio(t.engine_N, t.torch_N)}  engine 1/torch 1 ${ratio(t.engine_1, t.torch_1)}  ` +
+        `engine 1/stock ${ratio(t.engine_1, t.stock_wasm)}×  engine ${N}/stock ${ratio(t.engine_N, t.stock_wasm)}×  engine 1/cpu ${ratio(t.engine_1, t.cpu)}×  (${goals})`,
+    );
+    console.log(
+      `${c.name.padEnd(20)}peak fraction ${fmt(c.peak_fraction, 2)} on 1 thread (${c.model_gflop_per_step.toFixed(1)} GFLOP/step)  ` +
+        `heap peak ${(c.heap_peak_bytes / 2 ** 20).toFixed(0)} MiB  forward 384 tokens ${fmt(c.forward_ms_384, 1)} ms on ${N} threads`,
     );
   }
 }
 
 export function engineJson(r: EngineBenchResult): string {
   return JSON.stringify({
+    threads: r.threads,
+    relaxed_simd: r.relaxed_simd,
     gemm_peak_gflops: r.gemm_peak_gflops,
+    gemm_peak_gflops_n: r.gemm_peak_gflops_n,
+    shared_job_us: r.shared_job_us,
     configs: r.configs.map((c) => ({
       name: c.name,
       tokens_per_s: c.tokens_per_s,
+      engine_speedup: c.engine_speedup,
+      engine_efficiency: c.engine_efficiency,
+      torch_speedup: c.torch_speedup,
+      torch_n_setting: c.torch_n_setting,
       peak_fraction: c.peak_fraction,
       heap_peak_bytes: c.heap_peak_bytes,
       forward_ms_384: c.forward_ms_384,
+      load_before: c.load_before,
+      load_after: c.load_after,
     })),
   });
 }
@@ -301,12 +476,14 @@ export function engineJson(r: EngineBenchResult): string {
 function parseArgs(argv: string[]): EngineBenchOptions & { json: boolean } {
   const stepsAt = argv.indexOf('--steps');
   const configAt = argv.indexOf('--config');
+  const threadsAt = argv.indexOf('--threads');
   return {
     json: argv.includes('--json'),
     skipCpu: argv.includes('--skip-cpu'),
     skipStock: argv.includes('--skip-stock'),
-    steps: stepsAt >= 0 ? Number(argv[stepsAt + 1]) : 3,
+    steps: stepsAt >= 0 ? Number(argv[stepsAt + 1]) : 5,
     only: configAt >= 0 ? argv[configAt + 1] : null,
+    threads: threadsAt >= 0 ? Number(argv[threadsAt + 1]) : availableParallelism(),
   };
 }
 
@@ -315,6 +492,7 @@ export async function main(argv: string[]): Promise<void> {
   const result = await runEngineBench(opts);
   printEngineTable(result);
   if (opts.json) console.log(engineJson(result));
+  if (kernelPoolFor(tf.backend() as unknown as WasmBackendLike)) console.error(`(kernel threads at the end: ${kernelThreadCount()})`);
 }
 
 if (process.argv[1] && fileURLToPath(import.meta.url) === process.argv[1]) {

@@ -1,7 +1,7 @@
 // defines: the per-kernel profile of one training step on wasm with the fast kernels —
 // where the step's time goes, kernel by kernel (tf.profile), to decide what to fuse next.
 //
-//   npx tsx tests/bench/profile.ts [--config L2-H128-T256-B16 | L4-H256-T384-B8] [--top N]
+//   npx tsx tests/bench/profile.ts [--config L2-H128-T256-B16 | L4-H256-T384-B8] [--top N] [--threads N]
 //
 // Times are tfjs's own kernelTimeMs (wall time around each kernel on wasm), summed per
 // kernel name over one step after a warm-up step; "other" is the step's wall time not
@@ -11,6 +11,7 @@
 
 import * as tf from '@tensorflow/tfjs';
 import '@tensorflow/tfjs-backend-wasm';
+import { startKernelThreads } from '../../src/cli/kernel-threads.js';
 import { registerFastKernels } from '../../src/kernels/register.js';
 import { presetConfig } from '../../src/model/config.js';
 import { ReaderParams } from '../../src/model/params.js';
@@ -29,6 +30,9 @@ const bench = name === 'L4-H256-T384-B8' ? { preset: 'small' as const, T: 384, B
 await tf.setBackend('wasm');
 await tf.ready();
 registerFastKernels();
+const threadsAt = argv.indexOf('--threads');
+const threads = threadsAt >= 0 ? Number(argv[threadsAt + 1]) : 1;
+if (threads > 1) await startKernelThreads(threads, tf.backend() as never);
 
 const config = presetConfig(bench.preset, 30522);
 const tc = trainConfig({
@@ -75,7 +79,7 @@ for (const k of info.kernels) {
   inKernels += ms;
 }
 console.log(
-  `${name}: one profiled step ${wall.toFixed(0)} ms wall (profiling adds overhead), ${inKernels.toFixed(0)} ms in kernels, peak ${(info.peakBytes / 2 ** 20).toFixed(0)} MiB`,
+  `${name} on ${threads} thread(s): one profiled step ${wall.toFixed(0)} ms wall (profiling adds overhead), ${inKernels.toFixed(0)} ms in kernels, peak ${(info.peakBytes / 2 ** 20).toFixed(0)} MiB`,
 );
 console.log('kernel                      ms   calls');
 for (const [kernel, row] of [...perKernel].sort((a, b) => b[1].ms - a[1].ms).slice(0, top)) {

@@ -1,9 +1,12 @@
 """PyTorch reference for the engine benchmark: one span fine-tuning step of the same
-post-LayerNorm BERT encoder (DEVELOPERS.md "Architecture"), on ONE CPU thread.
+post-LayerNorm BERT encoder (DEVELOPERS.md "Architecture"), on --threads CPU threads
+(torch.set_num_threads; default 1). Debian's torch does its matrix products in
+OpenBLAS, whose own threads OPENBLAS_NUM_THREADS sets before the start (the bench
+tries the combinations, tests/bench/engine.ts).
 
 Run: /usr/bin/python3 tests/bench/torch_step.py --layers 2 --hidden 128 --heads 2 \
-         --intermediate 512 --seq 256 --batch 16 --vocab 30522 [--steps 3]
-Prints one JSON line: {"tokens_per_s": ..., "step_s": ..., "torch": "<version>"}.
+         --intermediate 512 --seq 256 --batch 16 --vocab 30522 [--steps 3] [--threads 1]
+Prints one JSON line: {"tokens_per_s": ..., "step_s": ..., "times_s": [...], "threads": ..., "torch": "<version>"}.
 
 The step mirrors src/train/trainer.ts: forward with dropout 0.1 (hidden and attention),
 start/end cross-entropy over [CLS] + context positions, backward, global-norm clipping
@@ -17,8 +20,6 @@ import time
 
 import torch
 import torch.nn.functional as F
-
-torch.set_num_threads(1)
 
 
 class Layer(torch.nn.Module):
@@ -66,9 +67,10 @@ class Reader(torch.nn.Module):
 def main():
     ap = argparse.ArgumentParser()
     for name, default in [("layers", 2), ("hidden", 128), ("heads", 2), ("intermediate", 512),
-                          ("seq", 256), ("batch", 16), ("vocab", 30522), ("steps", 3)]:
+                          ("seq", 256), ("batch", 16), ("vocab", 30522), ("steps", 3), ("threads", 1)]:
         ap.add_argument(f"--{name}", type=int, default=default)
     a = ap.parse_args()
+    torch.set_num_threads(a.threads)
     torch.manual_seed(0)
     model = Reader(a.vocab, a.hidden, a.layers, a.heads, a.intermediate)
     model.train()
@@ -102,7 +104,8 @@ def main():
         times.append(time.perf_counter() - t0)
     times.sort()
     median = times[len(times) // 2]
-    print(json.dumps({"tokens_per_s": b * t / median, "step_s": median, "torch": torch.__version__}))
+    print(json.dumps({"tokens_per_s": b * t / median, "step_s": median, "times_s": times,
+                      "threads": torch.get_num_threads(), "torch": torch.__version__}))
 
 
 if __name__ == "__main__":
