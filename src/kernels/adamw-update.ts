@@ -15,7 +15,7 @@
 
 import * as tf from '@tensorflow/tfjs';
 import { hasKernel, runKernel } from './fused-op.js';
-import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { jobRunner, RATE, split } from './jobs.js';
 import { f32, JOB } from './pool-layout.js';
 import type { WasmBackendLike } from './wasm-module.js';
 
@@ -76,7 +76,7 @@ function adamwKernel({ inputs: { p, g, m, v }, backend, attrs: s }: AdamWArgs): 
   const outs = [0, 1, 2].map(() => backend.makeOutput(p.shape.slice(), 'float32'));
   const n = p.shape.reduce((a, d) => a * d, 1);
   if (n === 0) return outs;
-  const run = jobRunner(backend, { ns: 2 * n * RATE.streamNs, bytes: tensorBytes(p, g, m, v, ...outs) });
+  const run = jobRunner(backend, { ns: 2 * n * RATE.streamNs, inputs: [p, g, m, v], outputs: outs });
   try {
     const { tasks, per } = split(n, run.threads, 4);
     run.run(JOB.adamw, tasks, [

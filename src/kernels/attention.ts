@@ -27,7 +27,7 @@
 import * as tf from '@tensorflow/tfjs';
 import { dropoutMask, keepMultipliers } from './dropout-mask.js';
 import { hasKernel, recordingGradients, runKernel } from './fused-op.js';
-import { jobRunner, RATE, tensorBytes } from './jobs.js';
+import { jobRunner, RATE } from './jobs.js';
 import { f32, JOB } from './pool-layout.js';
 import type { WasmBackendLike } from './wasm-module.js';
 
@@ -157,11 +157,15 @@ function fusedAttentionForward({ inputs, backend, attrs }: ForwardArgs): tf.Tens
   const outputs = probs ? [context, probs] : [context];
   if (B * T * H === 0) return outputs;
   const mask = dropoutMask(attrs.dropoutSeed, attrs.dropoutRate);
-  const run = jobRunner(backend, { ns: attentionNs(B, N, T, D, false), bytes: tensorBytes(q, k, v, keyBias, context, probs) });
+  const run = jobRunner(backend, {
+    ns: attentionNs(B, N, T, D, false),
+    inputs: [q, k, v, keyBias],
+    outputs: [context, probs],
+    scratch: 2 * T * T * 4, // each thread's two T×T planes (the scores when P is not kept, the dropped P)
+  });
   try {
     const args = [run.input(q), run.input(k), run.input(v), run.input(keyBias), run.output(context), probs ? run.output(probs) : 0];
-    // each thread's two T×T planes (the scores when P is not kept, the dropped P)
-    const scratch = run.scratch(2 * T * T * 4);
+    const scratch = run.scratch();
     run.run(JOB.attentionForward, B * N, [
       ...args,
       ...[scratch.addr, scratch.strideFloats, T, N, D, f32(1 / Math.sqrt(D))],
@@ -185,7 +189,12 @@ function fusedAttentionBackward({ inputs, backend, attrs }: BackwardArgs): tf.Te
   const dv = backend.makeOutput([B * T, H], 'float32');
   if (B * T * H === 0) return [dq, dk, dv];
   const mask = dropoutMask(attrs.dropoutSeed, attrs.dropoutRate);
-  const run = jobRunner(backend, { ns: attentionNs(B, N, T, D, true), bytes: tensorBytes(q, k, v, probs, dy, dq, dk, dv) });
+  const run = jobRunner(backend, {
+    ns: attentionNs(B, N, T, D, true),
+    inputs: [q, k, v, probs, dy],
+    outputs: [dq, dk, dv],
+    scratch: 2 * T * T * 4, // each thread's dPd (then dS) and Pd
+  });
   try {
     const args = [
       run.input(q),
@@ -197,7 +206,7 @@ function fusedAttentionBackward({ inputs, backend, attrs }: BackwardArgs): tf.Te
       run.output(dk),
       run.output(dv),
     ];
-    const scratch = run.scratch(2 * T * T * 4); // each thread's dPd (then dS) and Pd
+    const scratch = run.scratch();
     run.run(JOB.attentionBackward, B * N, [
       ...args,
       ...[scratch.addr, scratch.strideFloats, T, N, D, f32(1 / Math.sqrt(D))],

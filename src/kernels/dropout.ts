@@ -12,7 +12,7 @@
 import * as tf from '@tensorflow/tfjs';
 import { dropoutMask, keepMultipliers } from './dropout-mask.js';
 import { hasKernel, runKernel } from './fused-op.js';
-import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { jobRunner, RATE, split } from './jobs.js';
 import { f32, JOB } from './pool-layout.js';
 import type { WasmBackendLike } from './wasm-module.js';
 
@@ -44,7 +44,7 @@ function dropoutKernel({ inputs: { x }, backend, attrs }: DropoutArgs): tf.Tenso
   const n = x.shape.reduce((p, d) => p * d, 1);
   if (n === 0) return y;
   const mask = dropoutMask(attrs.seed, attrs.rate);
-  const run = jobRunner(backend, { ns: n * RATE.streamNs, bytes: tensorBytes(x, y) });
+  const run = jobRunner(backend, { ns: n * RATE.streamNs, inputs: [x], outputs: [y] });
   try {
     const { tasks, per } = split(n, run.threads, 4);
     run.run(JOB.dropout, tasks, [run.input(x), run.output(y), n, mask.mix | 0, mask.threshold | 0, f32(mask.scale), per]);

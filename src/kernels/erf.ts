@@ -8,7 +8,7 @@
 // The gradient is tfjs-core's Erf gradient, dy · 2/√π · exp(−x²), in stock ops.
 
 import * as tf from '@tensorflow/tfjs';
-import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { jobRunner, RATE, split } from './jobs.js';
 import { JOB } from './pool-layout.js';
 import type { WasmBackendLike } from './wasm-module.js';
 
@@ -20,7 +20,7 @@ function erf({ inputs, backend }: { inputs: { x: tf.TensorInfo }; backend: WasmB
   const out = backend.makeOutput(x.shape.slice(), 'float32');
   const n = x.shape.reduce((p, d) => p * d, 1);
   if (n === 0) return out;
-  const run = jobRunner(backend, { ns: n * RATE.geluNs, bytes: tensorBytes(x, out) });
+  const run = jobRunner(backend, { ns: n * RATE.geluNs, inputs: [x], outputs: [out] });
   try {
     const { tasks, per } = split(n, run.threads, 4);
     run.run(JOB.erf, tasks, [run.input(x), run.output(out), n, per]);

@@ -15,7 +15,7 @@
 
 import * as tf from '@tensorflow/tfjs';
 import { hasKernel, recordingGradients, runKernel } from './fused-op.js';
-import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { jobRunner, RATE, split } from './jobs.js';
 import { JOB } from './pool-layout.js';
 import type { WasmBackendLike } from './wasm-module.js';
 
@@ -66,7 +66,7 @@ function biasGeluForward({ inputs: { x, b }, backend }: GeluArgs): tf.TensorInfo
   const [rows, n] = x.shape;
   const y = backend.makeOutput([rows, n], 'float32');
   if (rows * n === 0) return y;
-  const run = jobRunner(backend, { ns: rows * n * RATE.geluNs, bytes: tensorBytes(x, b, y) });
+  const run = jobRunner(backend, { ns: rows * n * RATE.geluNs, inputs: [x, b], outputs: [y] });
   try {
     const { tasks, per } = split(rows, run.threads);
     run.run(JOB.biasGelu, tasks, [run.input(x), run.input(b), run.output(y), rows, n, per]);
@@ -83,7 +83,7 @@ function biasGeluBackward({ inputs: { x, b, dy }, backend }: GeluArgs): tf.Tenso
   const dx = backend.makeOutput([rows, n], 'float32');
   const db = backend.makeOutput([n], 'float32');
   if (n === 0) return [dx, db];
-  const run = jobRunner(backend, { ns: rows * n * RATE.geluGradNs, bytes: tensorBytes(x, b, dy, dx, db) });
+  const run = jobRunner(backend, { ns: rows * n * RATE.geluGradNs, inputs: [x, b, dy], outputs: [dx, db] });
   try {
     const X = run.input(x);
     const B = run.input(b);

@@ -1,26 +1,28 @@
 // defines: jobRunner — how a fast kernel runs its job (kernels.c): on this thread in
 // place, or shared with the kernel threads (threads.ts); and split, the task sizes
 //
-// A kernel asks for a runner with its estimated one-thread time and the bytes its
-// operands take, then names its tensors through the runner (input, output, scratch)
-// and runs one or more jobs on those addresses:
+// A kernel asks for a runner with its estimated one-thread time and the tensors it
+// reads and writes (and the scratch each thread needs), then runs one or more jobs on
+// the addresses the runner gives those tensors:
 //
-//   const run = jobRunner(backend, { ns, bytes });
+//   const run = jobRunner(backend, { ns, inputs: [x], outputs: [y] });
 //   try { run.run(JOB.erf, tasks, [run.input(x), run.output(y), n, per]); } finally { run.finish(); }
 //
 // The runner shares the job when that saves time: the time the other threads take off
 // (ns · (1 − 1/threads)) must exceed 1.5 times the cost of sharing — waking the helpers
-// and, when the pool works in its own memory, copying the operands in and the outputs
-// back. Otherwise, and without a pool, the job runs on this thread on the tfjs heap.
-// Either way the outputs are the same bits (kernels.c, "Jobs").
+// and, when the pool works in its own memory, copying in the inputs it does not hold
+// already (operand-cache.ts) and the outputs back. Otherwise, and without a pool, the
+// job runs on this thread on the tfjs heap. Either way the outputs are the same bits
+// (kernels.c, "Jobs").
 
 import * as tf from '@tensorflow/tfjs';
+import type { Operand, Placement } from './operand-cache.js';
 import { JOB_ARGS, MAX_TASKS, POOL_ACTIVE, POOL_ARGS, POOL_FAILED, POOL_KIND, POOL_TASKS, type JobKind } from './pool-layout.js';
 import { kernelPoolFor, type KernelPool } from './threads.js';
 import { fastModuleFor, heapOffset, type WasmBackendLike } from './wasm-module.js';
 
 /**
- * Publishing a job, waking the helpers and waiting for the last task: 10–15 µs measured
+ * Publishing a job, waking the helpers and waiting for the last task: 10–30 µs measured
  * here for a 64³ product (tests/bench/engine.ts prints it), 20 µs assumed.
  */
 const SHARE_NS = 20_000;
@@ -43,22 +45,26 @@ export const RATE = {
   streamNs: 0.4,
 } as const;
 
-export interface JobCost {
+export interface JobSpec {
   /** estimated one-thread time of the whole kernel */
   ns: number;
-  /** bytes of every operand the kernel reads or writes */
-  bytes: number;
+  /** every tensor the jobs read */
+  inputs: (tf.TensorInfo | null)[];
+  /** every tensor the jobs write (each fully) */
+  outputs: (tf.TensorInfo | null)[];
+  /** scratch bytes each thread needs (default none) */
+  scratch?: number;
 }
 
 export interface JobRunner {
   /** threads taking part (1: this thread only) */
   readonly threads: number;
-  /** the address of `info`'s data while the jobs run (copied in first when the pool has its own memory) */
+  /** the address of an input's data while the jobs run */
   input(info: tf.TensorInfo): number;
-  /** the address the jobs write `info`'s data to (copied back by finish when it is not the tensor itself) */
+  /** the address the jobs write an output's data to (copied back by finish when it is not the tensor itself) */
   output(info: tf.TensorInfo): number;
-  /** scratch of `bytes` for each thread; returns its address and the distance between threads' scratch in floats */
-  scratch(bytes: number): { addr: number; strideFloats: number };
+  /** the scratch the spec asked for: its address and the distance between threads' scratch in floats */
+  scratch(): { addr: number; strideFloats: number };
   /** runs one job: `args` are ints (addresses, sizes, f32() bits), in kernels.c's order for `kind` */
   run(kind: JobKind, tasks: number, args: number[]): void;
   /** copies outputs back and frees scratch; call once, also after an error */
@@ -70,9 +76,8 @@ function bytesOf(info: tf.TensorInfo): number {
   return tf.util.sizeFromShape(info.shape) * per;
 }
 
-/** Bytes of all these tensors (a JobCost's `bytes`). */
-export function tensorBytes(...infos: (tf.TensorInfo | null | undefined)[]): number {
-  return infos.reduce((s, t) => s + (t ? bytesOf(t) : 0), 0);
+function present(infos: (tf.TensorInfo | null)[]): tf.TensorInfo[] {
+  return infos.filter((t): t is tf.TensorInfo => t !== null);
 }
 
 /**
@@ -93,11 +98,24 @@ function checkTasks(kind: JobKind, tasks: number, args: number[]): void {
   if (!Number.isInteger(tasks) || tasks < 0 || tasks > MAX_TASKS) throw new Error(`src/kernels: job ${kind} has ${tasks} tasks`);
 }
 
-/** This thread, on the tfjs heap, through kernels.c's job_run. */
-class DirectRunner implements JobRunner {
-  readonly threads = 1;
-  private readonly scratches: number[] = [];
-  constructor(private readonly backend: WasmBackendLike) {}
+function declared(map: Map<object, number>, info: tf.TensorInfo, what: string): number {
+  const addr = map.get(info.dataId);
+  if (addr === undefined) throw new Error(`src/kernels: ${what} [${info.shape}] was not declared in the job's spec`);
+  return addr;
+}
+
+/** Tensors on the tfjs heap where they are, scratch from its malloc: this thread, or a pool sharing the heap. */
+abstract class InPlaceRunner implements JobRunner {
+  abstract readonly threads: number;
+  private scratchAddr = 0;
+  private readonly strideBytes: number;
+
+  constructor(
+    protected readonly backend: WasmBackendLike,
+    private readonly spec: JobSpec,
+  ) {
+    this.strideBytes = ((spec.scratch ?? 0) + 63) & ~63;
+  }
 
   input(info: tf.TensorInfo): number {
     return heapOffset(this.backend, info);
@@ -107,11 +125,23 @@ class DirectRunner implements JobRunner {
     return heapOffset(this.backend, info);
   }
 
-  scratch(bytes: number): { addr: number; strideFloats: number } {
-    const addr = this.backend.wasm._malloc(bytes) >>> 0;
-    this.scratches.push(addr);
-    return { addr, strideFloats: 0 };
+  scratch(): { addr: number; strideFloats: number } {
+    if (!this.spec.scratch) throw new Error('src/kernels: the job asked for no scratch');
+    if (this.scratchAddr === 0) this.scratchAddr = this.backend.wasm._malloc(this.strideBytes * this.threads + 64) >>> 0;
+    return { addr: (this.scratchAddr + 63) & ~63, strideFloats: this.strideBytes / 4 };
   }
+
+  abstract run(kind: JobKind, tasks: number, args: number[]): void;
+
+  finish(): void {
+    if (this.scratchAddr !== 0) this.backend.wasm._free(this.scratchAddr);
+    this.scratchAddr = 0;
+  }
+}
+
+/** This thread, on the tfjs heap, through kernels.c's job_run. */
+class DirectRunner extends InPlaceRunner {
+  readonly threads = 1;
 
   run(kind: JobKind, tasks: number, args: number[]): void {
     checkTasks(kind, tasks, args);
@@ -124,95 +154,111 @@ class DirectRunner implements JobRunner {
     words.set(args, POOL_ARGS);
     fast.exports.job_run(fast.jobArea);
   }
-
-  finish(): void {
-    for (const s of this.scratches) this.backend.wasm._free(s);
-    this.scratches.length = 0;
-  }
 }
 
-/** The caller and the helper threads, through kernels.c's pool_run. */
-class PoolRunner implements JobRunner {
-  private readonly scratches: number[] = [];
-  /** copies: arena top, and the outputs to copy back (pool address, tfjs heap address, bytes) */
-  private top: number;
-  private readonly outputs: [number, number, number][] = [];
+/** Publishes a job in the pool's job area and runs it with the helpers (kernels.c's pool_run). */
+function runShared(pool: KernelPool, threads: number, kind: JobKind, tasks: number, args: number[]): void {
+  checkTasks(kind, tasks, args);
+  if (tasks === 0) return;
+  const words = pool.words();
+  const base = pool.ctrl / 4;
+  words[base + POOL_KIND] = kind;
+  words[base + POOL_TASKS] = tasks;
+  words.set(args, base + POOL_ARGS);
+  Atomics.store(words, base + POOL_ACTIVE, threads);
+  const t0 = performance.now();
+  pool.exports.pool_run!(pool.ctrl);
+  pool.stats.jobMs += performance.now() - t0;
+  pool.stats.jobs += 1;
+  if (Atomics.load(words, base + POOL_FAILED) !== 0) throw new Error('src/kernels: a kernel thread failed; the job did not finish');
+}
 
+/** The caller and the helpers on the tfjs heap itself (it is shared: the browser's threaded tfjs). */
+class SharedHeapRunner extends InPlaceRunner {
   constructor(
-    private readonly backend: WasmBackendLike,
+    backend: WasmBackendLike,
+    spec: JobSpec,
     private readonly pool: KernelPool,
     readonly threads: number,
   ) {
-    this.top = pool.arenaBase;
-  }
-
-  private alloc(bytes: number): number {
-    const addr = this.top;
-    this.top = (addr + bytes + 63) & ~63; // cache-line aligned operands
-    if (!this.pool.ensureBytes(this.top)) throw new Error('src/kernels: the kernel pool memory is full');
-    return addr;
-  }
-
-  input(info: tf.TensorInfo): number {
-    if (!this.pool.copies) return heapOffset(this.backend, info);
-    const bytes = bytesOf(info);
-    const addr = this.alloc(bytes);
-    const from = heapOffset(this.backend, info);
-    const t0 = performance.now();
-    new Uint8Array(this.pool.memory.buffer, addr, bytes).set(this.backend.wasm.HEAPU8.subarray(from, from + bytes));
-    this.pool.stats.copyMs += performance.now() - t0;
-    this.pool.stats.copyBytes += bytes;
-    return addr;
-  }
-
-  output(info: tf.TensorInfo): number {
-    if (!this.pool.copies) return heapOffset(this.backend, info);
-    const bytes = bytesOf(info);
-    const addr = this.alloc(bytes);
-    this.outputs.push([addr, heapOffset(this.backend, info), bytes]);
-    return addr;
-  }
-
-  scratch(bytes: number): { addr: number; strideFloats: number } {
-    const stride = (bytes + 63) & ~63;
-    if (this.pool.copies) return { addr: this.alloc(stride * this.threads), strideFloats: stride / 4 };
-    const raw = this.backend.wasm._malloc(stride * this.threads + 64) >>> 0;
-    this.scratches.push(raw);
-    return { addr: (raw + 63) & ~63, strideFloats: stride / 4 };
+    super(backend, spec);
   }
 
   run(kind: JobKind, tasks: number, args: number[]): void {
-    checkTasks(kind, tasks, args);
-    if (tasks === 0) return;
-    const { ctrl, exports } = this.pool;
-    const words = this.pool.words();
-    const base = ctrl / 4;
-    words[base + POOL_KIND] = kind;
-    words[base + POOL_TASKS] = tasks;
-    words.set(args, base + POOL_ARGS);
-    Atomics.store(words, base + POOL_ACTIVE, this.threads);
+    runShared(this.pool, this.threads, kind, tasks, args);
+  }
+}
+
+/** The caller and the helpers in the pool's own memory: inputs copied in unless held already, outputs copied back. */
+class CopiesRunner implements JobRunner {
+  private readonly placement: Placement;
+  private readonly outputs: Operand[];
+  private readonly outputInfos: tf.TensorInfo[];
+  private readonly strideBytes: number;
+  private failed = false;
+
+  constructor(
+    private readonly backend: WasmBackendLike,
+    spec: JobSpec,
+    private readonly pool: KernelPool,
+    readonly threads: number,
+  ) {
+    const operand = (t: tf.TensorInfo): Operand => ({ key: t.dataId, bytes: bytesOf(t) });
+    this.strideBytes = ((spec.scratch ?? 0) + 63) & ~63;
+    const inputs = present(spec.inputs);
+    this.outputInfos = present(spec.outputs);
+    this.outputs = this.outputInfos.map(operand);
+    this.placement = pool.cache!.place(inputs.map(operand), this.outputs, this.strideBytes * threads);
+    if (!pool.ensureBytes(this.placement.end)) {
+      pool.cache!.clear();
+      throw new Error('src/kernels: the kernel pool memory is full');
+    }
     const t0 = performance.now();
-    exports.pool_run!(ctrl);
-    this.pool.stats.jobMs += performance.now() - t0;
-    this.pool.stats.jobs += 1;
-    if (Atomics.load(words, base + POOL_FAILED) !== 0) throw new Error('src/kernels: a kernel thread failed; the job did not finish');
+    const heap = this.backend.wasm.HEAPU8;
+    const mem = new Uint8Array(pool.memory.buffer);
+    const byKey = new Map(inputs.map((t) => [t.dataId, t]));
+    for (const miss of this.placement.misses) {
+      const from = heapOffset(this.backend, byKey.get(miss.key)!);
+      mem.set(heap.subarray(from, from + miss.bytes), this.placement.addr.get(miss.key)!);
+      pool.stats.copyBytes += miss.bytes;
+    }
+    pool.stats.copyMs += performance.now() - t0;
+  }
+
+  input(info: tf.TensorInfo): number {
+    return declared(this.placement.addr, info, 'input');
+  }
+
+  output(info: tf.TensorInfo): number {
+    return declared(this.placement.addr, info, 'output');
+  }
+
+  scratch(): { addr: number; strideFloats: number } {
+    if (this.placement.scratch === 0) throw new Error('src/kernels: the job asked for no scratch');
+    return { addr: this.placement.scratch, strideFloats: this.strideBytes / 4 };
+  }
+
+  run(kind: JobKind, tasks: number, args: number[]): void {
+    this.failed = true; // until it returns
+    runShared(this.pool, this.threads, kind, tasks, args);
+    this.failed = false;
   }
 
   finish(): void {
-    if (this.pool.copies) {
-      const t0 = performance.now();
-      const heap = this.backend.wasm.HEAPU8;
-      const mem = new Uint8Array(this.pool.memory.buffer);
-      for (const [addr, to, bytes] of this.outputs) {
-        heap.set(mem.subarray(addr, addr + bytes), to);
-        this.pool.stats.copyBytes += bytes;
-      }
-      this.pool.stats.copyMs += performance.now() - t0;
-      this.outputs.length = 0;
-      this.top = this.pool.arenaBase;
+    if (this.failed) {
+      this.pool.cache!.clear();
+      return;
     }
-    for (const s of this.scratches) this.backend.wasm._free(s);
-    this.scratches.length = 0;
+    const t0 = performance.now();
+    const heap = this.backend.wasm.HEAPU8;
+    const mem = new Uint8Array(this.pool.memory.buffer);
+    this.outputs.forEach((out, i) => {
+      const from = this.placement.addr.get(out.key)!;
+      heap.set(mem.subarray(from, from + out.bytes), heapOffset(this.backend, this.outputInfos[i]));
+      this.pool.stats.copyBytes += out.bytes;
+    });
+    this.pool.stats.copyMs += performance.now() - t0;
+    this.pool.cache!.commit(this.outputs, this.placement);
   }
 }
 
@@ -224,14 +270,29 @@ export function setJobSharing(mode: 'auto' | 'always'): void {
 }
 
 /** The runner for a kernel of this cost: shared with the kernel threads when that pays, else this thread. */
-export function jobRunner(backend: WasmBackendLike, cost: JobCost): JobRunner {
+export function jobRunner(backend: WasmBackendLike, spec: JobSpec): JobRunner {
   const pool = kernelPoolFor(backend);
   if (pool) {
     const threads = pool.threadsNow();
-    if (threads > 1 && (!pool.copies || cost.bytes <= COPY_LIMIT_BYTES)) {
-      const overhead = SHARE_NS + (pool.copies ? cost.bytes / COPY_BYTES_PER_NS : 0);
-      if (sharing === 'always' || cost.ns * (1 - 1 / threads) > MARGIN * overhead) return new PoolRunner(backend, pool, threads);
+    if (threads > 1) {
+      if (!pool.copies) {
+        if (sharing === 'always' || spec.ns * (1 - 1 / threads) > MARGIN * SHARE_NS)
+          return new SharedHeapRunner(backend, spec, pool, threads);
+      } else {
+        const inputs = present(spec.inputs);
+        const outputs = present(spec.outputs);
+        const bytes = [...inputs, ...outputs].reduce((s, t) => s + bytesOf(t), 0);
+        if (bytes <= COPY_LIMIT_BYTES) {
+          // inputs the pool holds already cost no copy
+          const copied =
+            pool.cache!.missingBytes(inputs.map((t) => ({ key: t.dataId, bytes: bytesOf(t) }))) +
+            outputs.reduce((s, t) => s + bytesOf(t), 0);
+          const overhead = SHARE_NS + copied / COPY_BYTES_PER_NS;
+          if (sharing === 'always' || spec.ns * (1 - 1 / threads) > MARGIN * overhead)
+            return new CopiesRunner(backend, spec, pool, threads);
+        }
+      }
     }
   }
-  return new DirectRunner(backend);
+  return new DirectRunner(backend, spec);
 }

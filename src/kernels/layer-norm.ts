@@ -15,7 +15,7 @@
 
 import * as tf from '@tensorflow/tfjs';
 import { hasKernel, recordingGradients, runKernel } from './fused-op.js';
-import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { jobRunner, RATE, split } from './jobs.js';
 import { f32, JOB } from './pool-layout.js';
 import type { WasmBackendLike } from './wasm-module.js';
 
@@ -78,7 +78,7 @@ function layerNormForward({ inputs: { x, gamma, beta }, backend, attrs }: Forwar
   const y = backend.makeOutput([rows, n], 'float32');
   const stats = attrs.keepStats ? [backend.makeOutput([rows], 'float32'), backend.makeOutput([rows], 'float32')] : [];
   if (rows * n === 0) return [y, ...stats];
-  const run = jobRunner(backend, { ns: rows * n * RATE.streamNs, bytes: tensorBytes(x, gamma, beta, y, ...stats) });
+  const run = jobRunner(backend, { ns: rows * n * RATE.streamNs, inputs: [x, gamma, beta], outputs: [y, ...stats] });
   try {
     const args = [run.input(x), run.input(gamma), run.input(beta), run.output(y)];
     const [mean, rstd] = stats.length ? [run.output(stats[0]), run.output(stats[1])] : [0, 0];
@@ -97,7 +97,7 @@ function layerNormBackward({ inputs: { x, gamma, mean, rstd, dy }, backend }: Ba
   const dgamma = backend.makeOutput([n], 'float32');
   const dbeta = backend.makeOutput([n], 'float32');
   if (n === 0) return [dx, dgamma, dbeta];
-  const run = jobRunner(backend, { ns: 2 * rows * n * RATE.streamNs, bytes: tensorBytes(x, gamma, mean, rstd, dy, dx, dgamma, dbeta) });
+  const run = jobRunner(backend, { ns: 2 * rows * n * RATE.streamNs, inputs: [x, gamma, mean, rstd, dy], outputs: [dx, dgamma, dbeta] });
   try {
     const X = run.input(x);
     const MEAN = run.input(mean);

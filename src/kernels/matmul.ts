@@ -15,7 +15,7 @@
 // broadcast leading dimensions.
 
 import * as tf from '@tensorflow/tfjs';
-import { jobRunner, RATE, tensorBytes } from './jobs.js';
+import { jobRunner, RATE } from './jobs.js';
 import { JOB } from './pool-layout.js';
 import { fastModuleFor, type WasmBackendLike } from './wasm-module.js';
 
@@ -85,7 +85,7 @@ function batchMatMul({ inputs, backend, attrs }: BatchMatMulArgs): tf.TensorInfo
   // batch strides in floats: one operand may be a single matrix for every batch
   const strides = sameBatch ? [M * K, K * N] : countA === 1 ? [0, K * N] : countB === 1 ? [M * K, 0] : null;
   fastModuleFor(backend); // first: it may malloc, which may grow the heap
-  const run = jobRunner(backend, { ns: (2 * batches * M * N * K) / RATE.gemmFlops, bytes: tensorBytes(a, b, out) });
+  const run = jobRunner(backend, { ns: (2 * batches * M * N * K) / RATE.gemmFlops, inputs: [a, b], outputs: [out] });
   try {
     const A = run.input(a);
     const B = run.input(b);

@@ -12,7 +12,7 @@
 // ~50 ms per step at V = 30522 here. int32 keeps a plain loop over the heap.
 
 import * as tf from '@tensorflow/tfjs';
-import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { jobRunner, RATE, split } from './jobs.js';
 import { JOB } from './pool-layout.js';
 import { heapOffset, type WasmBackendLike } from './wasm-module.js';
 
@@ -45,7 +45,7 @@ function unsortedSegmentSum({ inputs, backend, attrs }: SegmentSumArgs): tf.Tens
   const out = backend.makeOutput([numSegments, ...x.shape.slice(idRank)], x.dtype);
   if (numSegments * inner === 0) return out;
   if (x.dtype === 'float32') {
-    const run = jobRunner(backend, { ns: (numSegments + count) * inner * RATE.streamNs, bytes: tensorBytes(x, segmentIds, out) });
+    const run = jobRunner(backend, { ns: (numSegments + count) * inner * RATE.streamNs, inputs: [x, segmentIds], outputs: [out] });
     try {
       // by ranges of segments: each zeroes its rows and adds the rows of x that land there
       const { tasks, per } = split(numSegments, run.threads);

@@ -13,7 +13,7 @@
 
 import * as tf from '@tensorflow/tfjs';
 import { runStock } from './stock.js';
-import { jobRunner, RATE, split, tensorBytes } from './jobs.js';
+import { jobRunner, RATE, split } from './jobs.js';
 import { JOB } from './pool-layout.js';
 import type { WasmBackendLike } from './wasm-module.js';
 
@@ -43,7 +43,7 @@ function sum(args: SumArgs): tf.TensorInfo | tf.TensorInfo[] {
   const n = kept.reduce((p, d) => p * d, 1);
   const out = backend.makeOutput(keepDims ? [...new Array<number>(lead).fill(1), ...kept] : kept, 'float32');
   if (n === 0) return out;
-  const run = jobRunner(backend, { ns: m * n * RATE.streamNs, bytes: tensorBytes(x, out) });
+  const run = jobRunner(backend, { ns: m * n * RATE.streamNs, inputs: [x], outputs: [out] });
   try {
     const { tasks, per } = split(n, run.threads, 32);
     run.run(JOB.sumCols, tasks, [run.input(x), run.output(out), m, n, per]);

@@ -36,6 +36,7 @@ import {
   POOL_TAKEN,
   POOL_WS,
 } from './pool-layout.js';
+import { OperandCache } from './operand-cache.js';
 import { compiledKernels, fastModuleFor, heapMemory, isShared, type KernelExports, type WasmBackendLike } from './wasm-module.js';
 
 /** What a helper thread is sent, once, to start. */
@@ -60,7 +61,14 @@ export type SpawnKernelThread = (index: number) => KernelThreadHandle;
 /** Polls of the job counter before a helper sleeps (~1 ns each): bridges the gap between back-to-back jobs. */
 const HELPER_SPIN = 20000;
 
-/** Pages (64 KiB) of a copies pool's shared memory; it grows to the largest job. */
+/**
+ * A copies pool's operand cache (operand-cache.ts): 128 MiB, taken as it fills. Measured
+ * on one L2-H128-T256-B16 step, a ring this size would hold 191 of the 239 MB of inputs
+ * shared jobs read (64 MiB: 171; 256 MiB: 210); for L4-H256-T384-B8, 471 of 756.
+ */
+const CACHE_BYTES = 128 * 2 ** 20;
+
+/** Pages (64 KiB) of a copies pool's shared memory at the start; it grows as the cache fills and for larger jobs. */
 const INITIAL_PAGES = 256;
 const MAX_PAGES = 65536; // 4 GiB, the maximum kernels-shared.wasm declares for its import
 
@@ -164,8 +172,8 @@ export class KernelPool {
   readonly capacity: number;
   /** threads jobs may use (≤ capacity) */
   requested: number;
-  /** copies: first byte of the operand arena in `memory` */
-  readonly arenaBase: number;
+  /** copies: where operands go in `memory` (null in place) */
+  readonly cache: OperandCache | null;
   /** what shared jobs have cost so far (benchmarks read and reset it) */
   readonly stats = { jobs: 0, jobMs: 0, copyBytes: 0, copyMs: 0 };
   private readonly helpers: KernelThreadHandle[] = [];
@@ -194,7 +202,7 @@ export class KernelPool {
         this.mallocs.push(w);
         workspaces.push((w + 15) & ~15);
       }
-      this.arenaBase = 0;
+      this.cache = null;
     } else {
       this.copies = true;
       // 64: the pool_t (address 0 stays unused, so a 0 argument can mean "none");
@@ -202,8 +210,9 @@ export class KernelPool {
       this.ctrl = 64;
       workspaces = [];
       for (let i = 0; i < threads; i++) workspaces.push(1024 + i * wsBytes);
-      this.arenaBase = 1024 + threads * wsBytes;
-      const pages = Math.max(INITIAL_PAGES, Math.ceil(this.arenaBase / 65536) + 16);
+      const arena = 1024 + threads * wsBytes;
+      this.cache = new OperandCache(arena, CACHE_BYTES);
+      const pages = Math.max(INITIAL_PAGES, Math.ceil(arena / 65536) + 16);
       this.memory = new WebAssembly.Memory({ initial: pages, maximum: MAX_PAGES, shared: true });
       // the same relaxed-SIMD choice as the one-thread build, so a result never depends
       // on which path computed it

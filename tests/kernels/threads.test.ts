@@ -217,17 +217,52 @@ describe('kernel threads over copies (Node: the tfjs heap is not shared)', () =>
 
   it('keeps small jobs on one thread unless told otherwise, and cuts tasks by the rules', () => {
     const backend = tf.backend() as unknown as WasmBackendLike;
-    expect(jobRunner(backend, { ns: 1000, bytes: 4000 }).threads).toBe(1);
-    expect(jobRunner(backend, { ns: 50e6, bytes: 4e6 }).threads).toBe(2);
-    // a copy that costs more than the time saved stays home
-    expect(jobRunner(backend, { ns: 1e6, bytes: 400e6 }).threads).toBe(1);
+    const info = (t: tf.Tensor): tf.TensorInfo => ({ dataId: t.dataId, shape: t.shape, dtype: t.dtype });
+    const [x, y, big, bigOut] = [tf.zeros([1000]), tf.zeros([1000]), tf.zeros([2 ** 21]), tf.zeros([2 ** 21])];
+    const threadsFor = (ns: number, inputs: tf.Tensor[], outputs: tf.Tensor[]): number => {
+      const run = jobRunner(backend, { ns, inputs: inputs.map(info), outputs: outputs.map(info) });
+      run.finish();
+      return run.threads;
+    };
+    expect(threadsFor(1000, [x], [y])).toBe(1);
+    expect(threadsFor(50e6, [x], [y])).toBe(2);
+    // 16 MB to copy (~1.4 ms) for 0.5 ms saved: stays home
+    expect(threadsFor(1e6, [big], [bigOut])).toBe(1);
     setJobSharing('always');
-    expect(jobRunner(backend, { ns: 1000, bytes: 4000 }).threads).toBe(2);
+    expect(threadsFor(1000, [x], [y])).toBe(2);
     setJobSharing('auto');
+    tf.dispose([x, y, big, bigOut]);
     expect(split(100, 1)).toEqual({ tasks: 1, per: 100 });
     expect(split(100, 2, 4)).toEqual({ tasks: 7, per: 16 }); // 8 wanted: 12.5 rounded up to 16
     expect(split(0, 2)).toEqual({ tasks: 0, per: 1 });
     expect(split(1e9, 2).tasks).toBeLessThanOrEqual(32767);
+  });
+
+  it('copies in only the inputs the pool does not hold: an output feeds the next job without a copy', () => {
+    const a = tf.tensor2d(uniform(300 * 200, 41), [300, 200]);
+    const b = tf.tensor2d(uniform(200 * 100, 42), [200, 100]);
+    const want = tf.tidy(() => {
+      setKernelThreads(1);
+      const r = tf.matMul(tf.matMul(a, b), tf.transpose(b)).dataSync() as Float32Array;
+      setKernelThreads(2);
+      return r;
+    });
+    setJobSharing('always');
+    try {
+      const cache = pool!.cache!;
+      const before = { ...cache.counts };
+      const c = tf.matMul(a, b); // a and b copied in (or held from earlier tests), c out
+      const afterFirst = { ...cache.counts };
+      const d = tf.matMul(c, b, false, true); // c and b held: nothing copied in
+      expect(cache.counts.missBytes).toBe(afterFirst.missBytes);
+      expect(cache.counts.hitBytes - afterFirst.hitBytes).toBe((300 * 100 + 200 * 100) * 4);
+      expect(afterFirst.missBytes + afterFirst.hitBytes - before.missBytes - before.hitBytes).toBe((300 * 200 + 200 * 100) * 4);
+      expectSameBits({ d: d.dataSync() as Float32Array }, { d: want }, 'chained through the cache');
+      tf.dispose([c, d]);
+    } finally {
+      setJobSharing('auto');
+      tf.dispose([a, b]);
+    }
   });
 });
 
