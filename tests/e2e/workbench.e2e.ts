@@ -149,6 +149,9 @@ describe('the browser workbench', () => {
     await expect(page.locator('#isolation').textContent()).resolves.toContain('isolated');
     await expect(page.locator('#simd').textContent()).resolves.toContain('on');
     await expect(page.locator('#engine').textContent()).resolves.toContain('wasm + fast kernels');
+    // the kernels' helper threads came up from this origin, one per core (src/kernels/threads.ts)
+    const cores = await page.evaluate(() => navigator.hardwareConcurrency);
+    await expect(page.locator('#threads').textContent()).resolves.toMatch(new RegExp(`threads: ${cores} of ${cores} cores`));
     // the offline cache takes control for the later offline check
     await page.evaluate(() => navigator.serviceWorker.ready.then(() => undefined));
   });
