@@ -2,8 +2,12 @@
 // (src/model/encoder.ts) and trainer (src/train/trainer.ts) on the wasm backend with
 // the fast kernels, on one thread and on all N cores, against references measured in
 // the same run:
-//   engine_1    wasm + registerFastKernels(), kernel threads set to 1
-//   engine_N    the same with N kernel threads (src/kernels/threads.ts; N = every core)
+//   engine_1    wasm + registerFastKernels(), kernel threads set to 1, in Node
+//   engine_N    the same with N kernel threads (src/kernels/threads.ts; N = every core):
+//               in Node the pool copies operands into its own shared memory
+//   browser_1,  the same steps in Debian's Chromium, set up as the workbench is
+//   browser_N   (browser.ts): tfjs's threaded build, the kernels in place on its shared
+//               heap, relaxed SIMD where Chromium has it; --skip-browser leaves them out
 //   stock_wasm  wasm + restoreStockKernels() (stock tfjs ops; the kernel fixes that
 //               stock wasm needs to train at all stay on, see src/kernels/register.ts)
 //   cpu         tfjs 'cpu' backend (very slow: one timed step)
@@ -18,7 +22,7 @@
 // one 384-token window, and the machine's load average (os.loadavg) beside each config:
 // the machine is shared, so figures taken under load say so.
 //
-//   npx tsx tests/bench/engine.ts [--json] [--skip-cpu] [--skip-stock] [--steps N] [--config NAME] [--threads N]
+//   npx tsx tests/bench/engine.ts [--json] [--skip-cpu] [--skip-stock] [--skip-browser] [--steps N] [--config NAME] [--threads N]
 //
 // Step times: after two warm-up steps, N rounds (--steps, default 5) of one step on one
 // thread then one on N threads, alternating so that a burst of other work on the
@@ -38,51 +42,38 @@ import { setJobSharing } from '../../src/kernels/jobs.js';
 import { registerFastKernels, registerKernelFixes, restoreStockKernels } from '../../src/kernels/register.js';
 import { kernelPoolFor, kernelThreadCount, setKernelThreads } from '../../src/kernels/threads.js';
 import { fastModuleFor, type WasmBackendLike } from '../../src/kernels/wasm-module.js';
-import { presetConfig, type PresetName, type ReaderConfig } from '../../src/model/config.js';
+import { presetConfig, type ReaderConfig } from '../../src/model/config.js';
 import { spanLogits } from '../../src/model/encoder.js';
 import { ReaderParams } from '../../src/model/params.js';
-import type { SpanBatch } from '../../src/train/batches.js';
-import { trainConfig } from '../../src/train/config.js';
-import { planTraining } from '../../src/train/schedule.js';
-import { Trainer } from '../../src/train/trainer.js';
+import { runBrowserBench } from './browser.js';
+import type { BrowserBenchResult } from './browser/step-worker.js';
+import { CONFIGS, gemmGflops, median, syntheticBatch, timeSteps, VOCAB, type BenchConfig } from './step-timing.js';
 
 const here = dirname(fileURLToPath(import.meta.url));
-
-/** 30522: BERT's uncased vocabulary; the shipped tiny vocabulary is of the same order (~30 000). */
-const VOCAB = 30522;
 
 /** The issue's goals (issue 14): engine on N threads ≥ 0.5× PyTorch on N, and ≥ 1.7× its own one thread on 2 cores. */
 const GOAL_VS_TORCH = 0.5;
 const GOAL_SCALING_2 = 1.7;
 
-interface BenchConfig {
-  name: string;
-  preset: PresetName;
-  seqLen: number;
-  batch: number;
-}
-
-const CONFIGS: BenchConfig[] = [
-  { name: 'L2-H128-T256-B16', preset: 'tiny', seqLen: 256, batch: 16 },
-  { name: 'L4-H256-T384-B8', preset: 'small', seqLen: 384, batch: 8 },
-];
-
-const ROWS = ['engine_1', 'engine_N', 'stock_wasm', 'cpu', 'torch_1', 'torch_N'] as const;
+const ROWS = ['engine_1', 'engine_N', 'browser_1', 'browser_N', 'stock_wasm', 'cpu', 'torch_1', 'torch_N'] as const;
 type Row = (typeof ROWS)[number];
 
 export interface ConfigResult {
   name: string;
   tokens_per_s: Record<Row, number | null>;
   step_ms: Record<Row, number | null>;
-  /** engine_N / engine_1, and that over N */
+  /** engine_N / engine_1, and that over N (Node); browser_N / browser_1 */
   engine_speedup: number;
   engine_efficiency: number;
+  browser_speedup: number | null;
   torch_speedup: number | null;
   torch_efficiency: number | null;
   /** the PyTorch setting torch_N is */
   torch_n_setting: string;
   peak_fraction: number | null;
   heap_peak_bytes: number;
+  /** the kernel pool's own shared memory after the config (Node: workspaces, operand cache, copies) */
+  pool_bytes: number;
   forward_ms_384: number | null;
   model_gflop_per_step: number;
   /** os.loadavg() when the config started and ended */
@@ -93,6 +84,8 @@ export interface ConfigResult {
 export interface EngineBenchResult {
   threads: number;
   relaxed_simd: boolean;
+  /** the Chromium run's setup and GEMM figures (its step times are in the configs' rows) */
+  browser: BrowserBenchResult | null;
   gemm_peak_gflops: number;
   gemm_peak_gflops_n: number;
   shared_job_us: number;
@@ -108,70 +101,11 @@ function stepFlops(config: ReaderConfig, B: number, T: number): number {
   return 3 * (config.numLayers * perLayer + head);
 }
 
-function syntheticBatch(B: number, T: number, vocab: number): SpanBatch {
-  const inputIds = new Int32Array(B * T);
-  for (let i = 0; i < inputIds.length; i++) inputIds[i] = 5 + ((i * 7919) % (vocab - 5));
-  const tokenTypeIds = new Int32Array(B * T).map((_, i) => (i % T > T / 4 ? 1 : 0));
-  return {
-    size: B,
-    seqLen: T,
-    inputIds,
-    tokenTypeIds,
-    attentionMask: new Int32Array(B * T).fill(1),
-    startPositions: new Int32Array(B).fill(T / 2),
-    endPositions: new Int32Array(B).fill(T / 2 + 2),
-  };
-}
-
 let heapPeak = 0;
 function noteHeap(): void {
   const backend = tf.backend() as unknown as { wasm?: { HEAPU8: Uint8Array } };
   const wasmBytes = backend.wasm ? backend.wasm.HEAPU8.buffer.byteLength : 0;
   heapPeak = Math.max(heapPeak, wasmBytes, tf.memory().numBytes);
-}
-
-function median(xs: number[]): number {
-  const s = [...xs].sort((a, b) => a - b);
-  return s[Math.floor(s.length / 2)];
-}
-
-/**
- * Median step time (ms) of the real trainer on the current backend for each thread
- * count in `threadCounts`, the counts alternating step by step.
- */
-function timeSteps(config: ReaderConfig, bc: BenchConfig, warmup: number, rounds: number, threadCounts: number[]): number[] {
-  const tc = trainConfig({
-    batchSize: bc.batch,
-    gradAccumulation: 1,
-    maxLength: bc.seqLen,
-    stride: bc.seqLen / 4,
-    maxQueryLength: bc.seqLen / 4,
-    epochs: 1,
-    trimPadding: false,
-  });
-  const params = ReaderParams.init(config, 1);
-  const trainer = new Trainer(params, config, tc, planTraining(tc, 1000 * bc.batch));
-  const batch = syntheticBatch(bc.batch, bc.seqLen, config.vocabSize);
-  try {
-    for (let i = 0; i < warmup; i++) {
-      setKernelThreads(threadCounts[i % threadCounts.length]);
-      trainer.step([batch]);
-    }
-    const times = threadCounts.map(() => [] as number[]);
-    for (let r = 0; r < rounds; r++) {
-      threadCounts.forEach((n, i) => {
-        setKernelThreads(n);
-        const t0 = performance.now();
-        trainer.step([batch]);
-        times[i].push(performance.now() - t0);
-        noteHeap();
-      });
-    }
-    return times.map(median);
-  } finally {
-    trainer.dispose();
-    params.dispose();
-  }
 }
 
 /** Forward (eval mode) latency of one window of 384 tokens, median of 5. */
@@ -205,25 +139,12 @@ function forward384(config: ReaderConfig): number {
 
 /** Best GFLOP/s of a plain 2-D 512³ product on wasm: the fast kernel on `threads` threads, and (1 thread) stock XNNPACK. */
 function gemmPeak(threads: number): number {
-  const n = 512;
-  const a = tf.randomUniform([n, n]);
-  const b = tf.randomUniform([n, n]);
-  let best = 0;
-  for (const fast of threads === 1 ? [true, false] : [true]) {
-    if (fast) registerFastKernels();
-    else restoreStockKernels();
-    setKernelThreads(threads);
-    for (let rep = 0; rep < 8; rep++) {
-      const t0 = performance.now();
-      const c = tf.matMul(a, b);
-      c.dataSync();
-      const ms = performance.now() - t0;
-      c.dispose();
-      if (rep > 0) best = Math.max(best, (2 * n * n * n) / ms / 1e6);
-    }
+  let best = gemmGflops(threads);
+  if (threads === 1) {
+    restoreStockKernels();
+    best = Math.max(best, gemmGflops(1));
+    registerFastKernels();
   }
-  registerFastKernels();
-  tf.dispose([a, b]);
   return best;
 }
 
@@ -311,6 +232,7 @@ function torchRows(
 export interface EngineBenchOptions {
   skipCpu: boolean;
   skipStock: boolean;
+  skipBrowser: boolean;
   steps: number;
   only: string | null;
   threads: number;
@@ -329,6 +251,11 @@ export async function runEngineBench(opts: EngineBenchOptions): Promise<EngineBe
   const peak = gemmPeak(1);
   const peakN = gemmPeak(N);
   const sharedUs = N > 1 ? sharedJobCost(N) : 0;
+  // the browser first, while this process's helper threads sleep
+  const browser = opts.skipBrowser
+    ? { result: null, note: 'skipped (--skip-browser)' }
+    : await runBrowserBench({ steps: opts.steps, only: opts.only });
+  if (!browser.result) console.error(`browser rows: ${browser.note}`);
   const results: ConfigResult[] = [];
   for (const bc of CONFIGS) {
     if (opts.only && opts.only !== bc.name) continue;
@@ -339,7 +266,7 @@ export async function runEngineBench(opts: EngineBenchOptions): Promise<EngineBe
 
     await tf.setBackend('wasm');
     registerFastKernels();
-    const [engine1, engineN] = timeSteps(config, bc, 2, opts.steps, [1, N]);
+    const [engine1, engineN] = timeSteps(config, bc, 2, opts.steps, [1, N], noteHeap);
     setKernelThreads(N);
     const fwd = forward384(config);
     const engineHeap = heapPeak;
@@ -348,7 +275,7 @@ export async function runEngineBench(opts: EngineBenchOptions): Promise<EngineBe
     if (!opts.skipStock) {
       restoreStockKernels();
       setKernelThreads(1);
-      stockMs = timeSteps(config, bc, 1, 1, [1])[0];
+      stockMs = timeSteps(config, bc, 1, 1, [1], noteHeap)[0];
       registerFastKernels();
     }
 
@@ -363,9 +290,12 @@ export async function runEngineBench(opts: EngineBenchOptions): Promise<EngineBe
     const torch = torchRows(config, bc, N, opts.steps);
     if (torch.note) console.error(`${bc.name}: torch rows incomplete: ${torch.note}`);
     const flops = stepFlops(config, bc.batch, bc.seqLen);
+    const inBrowser = browser.result?.configs.find((c) => c.name === bc.name);
     const stepMs: Record<Row, number | null> = {
       engine_1: engine1,
       engine_N: engineN,
+      browser_1: inBrowser?.stepMs1 ?? null,
+      browser_N: inBrowser?.stepMsN ?? null,
       stock_wasm: stockMs,
       cpu: cpuMs,
       torch_1: torch.one,
@@ -380,11 +310,13 @@ export async function runEngineBench(opts: EngineBenchOptions): Promise<EngineBe
       step_ms: stepMs,
       engine_speedup: engine1 / engineN,
       engine_efficiency: engine1 / engineN / N,
+      browser_speedup: inBrowser ? inBrowser.stepMs1 / inBrowser.stepMsN : null,
       torch_speedup: torchSpeedup,
       torch_efficiency: torchSpeedup === null ? null : torchSpeedup / N,
       torch_n_setting: torch.setting,
       peak_fraction: flops / (engine1 / 1000) / 1e9 / peak,
       heap_peak_bytes: engineHeap,
+      pool_bytes: kernelPoolFor(backend)?.memory.buffer.byteLength ?? 0,
       forward_ms_384: fwd,
       model_gflop_per_step: flops / 1e9,
       load_before: loadBefore,
@@ -394,6 +326,7 @@ export async function runEngineBench(opts: EngineBenchOptions): Promise<EngineBe
   return {
     threads: N,
     relaxed_simd: fastModuleFor(backend).build.relaxed,
+    browser: browser.result,
     gemm_peak_gflops: peak,
     gemm_peak_gflops_n: peakN,
     shared_job_us: sharedUs,
@@ -416,9 +349,18 @@ export function printEngineTable(r: EngineBenchResult): void {
       `plain 2-D GEMM 512³: ${r.gemm_peak_gflops.toFixed(1)} GFLOP/s on 1 thread (best of fast kernel and stock XNNPACK), ` +
       `${r.gemm_peak_gflops_n.toFixed(1)} on ${N}; one shared job costs ${r.shared_job_us.toFixed(0)} µs more than one on this thread`,
   );
+  const b = r.browser;
+  if (b) {
+    console.log(
+      `browser: ${b.userAgent.match(/(Headless)?Chrome\/[\d.]+/)?.[0] ?? b.userAgent}, ${b.threads} kernel threads ${b.inPlace ? 'in place on the shared tfjs heap' : 'over copies'}, ` +
+        `${b.relaxedSimd ? 'relaxed-SIMD' : 'SIMD128'} build; GEMM 512³: ${b.gemmGflops1.toFixed(1)} GFLOP/s on 1 thread, ${b.gemmGflopsN.toFixed(1)} on ${b.threads}`,
+    );
+  }
   const label: Record<Row, string> = {
     engine_1: 'engine 1',
     engine_N: `engine ${N}`,
+    browser_1: 'browser 1',
+    browser_N: `browser ${b?.threads ?? N}`,
     stock_wasm: 'stock wasm',
     cpu: 'tfjs cpu',
     torch_1: 'torch 1',
@@ -435,17 +377,24 @@ export function printEngineTable(r: EngineBenchResult): void {
       `${c.name.padEnd(20)}engine ${N}/1 ${c.engine_speedup.toFixed(2)}× (efficiency ${c.engine_efficiency.toFixed(2)})  ` +
         `torch ${N}/1 ${fmt(c.torch_speedup, 2)}× (efficiency ${fmt(c.torch_efficiency, 2)}; torch ${N} = ${c.torch_n_setting || '—'})`,
     );
-    const vsTorch = t.engine_N !== null && t.torch_N !== null ? t.engine_N / t.torch_N : null;
-    const goals =
-      `goal engine ${N}/torch ${N} ≥ ${GOAL_VS_TORCH}: ${vsTorch === null ? '—' : vsTorch >= GOAL_VS_TORCH ? 'met' : 'NOT met'}` +
-      (N === 2 ? `; goal engine 2/1 ≥ ${GOAL_SCALING_2}: ${c.engine_speedup >= GOAL_SCALING_2 ? 'met' : 'NOT met'}` : '');
+    const goals = (who: 'engine' | 'browser', speedup: number | null): string => {
+      const vs = t[`${who}_N`] !== null && t.torch_N !== null ? t[`${who}_N`]! / t.torch_N : null;
+      return (
+        `goal ${who} ${N}/torch ${N} ≥ ${GOAL_VS_TORCH}: ${vs === null ? '—' : vs >= GOAL_VS_TORCH ? 'met' : 'NOT met'}` +
+        (N === 2 ? `; ${who} 2/1 ≥ ${GOAL_SCALING_2}: ${speedup === null ? '—' : speedup >= GOAL_SCALING_2 ? 'met' : 'NOT met'}` : '')
+      );
+    };
     console.log(
       `${c.name.padEnd(20)}engine ${N}/torch ${N} ${ratio(t.engine_N, t.torch_N)}  engine 1/torch 1 ${ratio(t.engine_1, t.torch_1)}  ` +
-        `engine 1/stock ${ratio(t.engine_1, t.stock_wasm)}×  engine ${N}/stock ${ratio(t.engine_N, t.stock_wasm)}×  engine 1/cpu ${ratio(t.engine_1, t.cpu)}×  (${goals})`,
+        `engine 1/stock ${ratio(t.engine_1, t.stock_wasm)}×  engine ${N}/stock ${ratio(t.engine_N, t.stock_wasm)}×  engine 1/cpu ${ratio(t.engine_1, t.cpu)}×  (${goals('engine', c.engine_speedup)})`,
+    );
+    console.log(
+      `${c.name.padEnd(20)}browser ${N}/1 ${fmt(c.browser_speedup, 2)}×  browser ${N}/torch ${N} ${ratio(t.browser_N, t.torch_N)}  ` +
+        `browser 1/torch 1 ${ratio(t.browser_1, t.torch_1)}  (${goals('browser', c.browser_speedup)})`,
     );
     console.log(
       `${c.name.padEnd(20)}peak fraction ${fmt(c.peak_fraction, 2)} on 1 thread (${c.model_gflop_per_step.toFixed(1)} GFLOP/step)  ` +
-        `heap peak ${(c.heap_peak_bytes / 2 ** 20).toFixed(0)} MiB  forward 384 tokens ${fmt(c.forward_ms_384, 1)} ms on ${N} threads`,
+        `heap peak ${(c.heap_peak_bytes / 2 ** 20).toFixed(0)} MiB (+ ${(c.pool_bytes / 2 ** 20).toFixed(0)} MiB kernel pool)  forward 384 tokens ${fmt(c.forward_ms_384, 1)} ms on ${N} threads`,
     );
   }
 }
@@ -454,6 +403,7 @@ export function engineJson(r: EngineBenchResult): string {
   return JSON.stringify({
     threads: r.threads,
     relaxed_simd: r.relaxed_simd,
+    browser: r.browser && { ...r.browser, configs: undefined },
     gemm_peak_gflops: r.gemm_peak_gflops,
     gemm_peak_gflops_n: r.gemm_peak_gflops_n,
     shared_job_us: r.shared_job_us,
@@ -462,10 +412,12 @@ export function engineJson(r: EngineBenchResult): string {
       tokens_per_s: c.tokens_per_s,
       engine_speedup: c.engine_speedup,
       engine_efficiency: c.engine_efficiency,
+      browser_speedup: c.browser_speedup,
       torch_speedup: c.torch_speedup,
       torch_n_setting: c.torch_n_setting,
       peak_fraction: c.peak_fraction,
       heap_peak_bytes: c.heap_peak_bytes,
+      pool_bytes: c.pool_bytes,
       forward_ms_384: c.forward_ms_384,
       load_before: c.load_before,
       load_after: c.load_after,
@@ -481,6 +433,7 @@ function parseArgs(argv: string[]): EngineBenchOptions & { json: boolean } {
     json: argv.includes('--json'),
     skipCpu: argv.includes('--skip-cpu'),
     skipStock: argv.includes('--skip-stock'),
+    skipBrowser: argv.includes('--skip-browser'),
     steps: stepsAt >= 0 ? Number(argv[stepsAt + 1]) : 5,
     only: configAt >= 0 ? argv[configAt + 1] : null,
     threads: threadsAt >= 0 ? Number(argv[threadsAt + 1]) : availableParallelism(),
