@@ -36,15 +36,13 @@ interface ChildReport {
 const root = join(import.meta.dirname, '..', '..');
 
 function childReport(): ChildReport {
-  const run = spawnSync(
-    process.execPath,
-    ['--experimental-wasm-relaxed-simd', '--import', 'tsx', join(import.meta.dirname, 'relaxed-simd.child.ts')],
-    {
-      cwd: root,
-      encoding: 'utf8',
-      timeout: 120_000,
-    },
-  );
+  // a runtime that validates relaxed SIMD already (a newer Node) needs no flag
+  const flag = relaxedSimdSupported() ? [] : ['--experimental-wasm-relaxed-simd'];
+  const run = spawnSync(process.execPath, [...flag, '--import', 'tsx', join(import.meta.dirname, 'relaxed-simd.child.ts')], {
+    cwd: root,
+    encoding: 'utf8',
+    timeout: 120_000,
+  });
   const line = run.stdout.trim().split('\n').pop() ?? '';
   if (run.status !== 0 || !line.startsWith('{')) throw new Error(`relaxed-simd.child.ts failed (${run.status}): ${run.stderr}`);
   return JSON.parse(line) as ChildReport;
