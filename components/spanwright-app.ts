@@ -399,7 +399,11 @@ export class SpanwrightApp extends LitElement {
             threads: ${r === null ? '…' : `${r.threads} of ${r.cores} cores`}
           </span>
           <span class="badge ${this.simd ? 'on' : ''}" id="simd">SIMD: ${this.simd ? (r?.relaxedSimd ? 'on, relaxed' : 'on') : 'off'}</span>
-          <span class="badge ${r?.fastKernels ? 'on' : ''}" id="engine">
+          <span
+            class="badge ${r?.fastKernels ? 'on' : ''}"
+            id="engine"
+            title=${r === null ? 'the engine is starting' : `engine: ${r.backend}${r.fastKernels ? ' + fast kernels' : ''}`}
+          >
             engine: ${this.engineError ? 'failed' : r === null ? 'starting…' : `${r.backend}${r.fastKernels ? ' + fast kernels' : ''}`}
           </span>
         </div>

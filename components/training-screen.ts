@@ -193,6 +193,14 @@ export class TrainingScreen extends LitElement {
       section.compact h3 {
         margin-top: 0;
       }
+      section.compact h3.run-heading {
+        margin: 0.75rem 0 0.25rem;
+        padding-top: 0.5rem;
+        border-top: 1px solid var(--line, #ccc);
+      }
+      #run-start-from {
+        margin: 0.25rem 0;
+      }
       details.fold {
         margin: 0 0 0.75rem;
       }
@@ -224,6 +232,8 @@ export class TrainingScreen extends LitElement {
   /** "Start a new run" was pressed while a fine-tuned reader is in use: the question is on screen */
   @state() private confirming = false;
   @state() private noteDismissed = false;
+  /** the practice fold as the user left it (it opens by itself while practising) */
+  @state() private practiceOpen = false;
 
   /**
    * A setting's default: the learning rate's depends on the loaded reader's width, the
@@ -270,7 +280,12 @@ export class TrainingScreen extends LitElement {
             </p>`
           : ''
       }
-      <details class="fold" id="practice-fold" ?open=${practising}>
+      <details
+        class="fold"
+        id="practice-fold"
+        ?open=${practising || this.practiceOpen}
+        @toggle=${(e: Event) => (this.practiceOpen = (e.target as HTMLDetailsElement).open)}
+      >
         <summary>
           Practice first (optional):
           <span class="muted"
@@ -307,10 +322,7 @@ export class TrainingScreen extends LitElement {
               </p>`
             : ''
         }
-      </section>
-
-      <section class="compact">
-        <h3>Run</h3>
+        <h3 class="run-heading">Run</h3>
         <p class="muted" id="run-start-from">
           ${run?.stage === 'practice' && running ? 'Practising now' : 'Fine-tuning starts from'}:
           ${this.practice ? `the practised reader (${this.practice.questions.toLocaleString()} practice questions)` : `the base reader${this.baseInfo ? ` ${this.baseInfo.name}` : ''}`}.
