@@ -74,6 +74,8 @@ export interface ConfigResult {
   heap_peak_bytes: number;
   /** the kernel pool's own shared memory after the config (Node: workspaces, operand cache, copies) */
   pool_bytes: number;
+  /** per N-thread step in Node: shared jobs, the time inside them, and the copies in and out of the pool's memory */
+  pool_per_step: { jobs: number; job_ms: number; copy_mb: number; copy_ms: number } | null;
   forward_ms_384: number | null;
   model_gflop_per_step: number;
   /** os.loadavg() when the config started and ended */
@@ -266,7 +268,19 @@ export async function runEngineBench(opts: EngineBenchOptions): Promise<EngineBe
 
     await tf.setBackend('wasm');
     registerFastKernels();
+    const pool = kernelPoolFor(backend);
+    if (pool) Object.assign(pool.stats, { jobs: 0, jobMs: 0, copyBytes: 0, copyMs: 0 });
     const [engine1, engineN] = timeSteps(config, bc, 2, opts.steps, [1, N], noteHeap);
+    // shared jobs run only in the N-thread steps: the timed ones and one warm-up
+    const perStep = (x: number) => x / (opts.steps + 1);
+    const poolStats = pool
+      ? {
+          jobs: perStep(pool.stats.jobs),
+          job_ms: perStep(pool.stats.jobMs),
+          copy_mb: perStep(pool.stats.copyBytes) / 2 ** 20,
+          copy_ms: perStep(pool.stats.copyMs),
+        }
+      : null;
     setKernelThreads(N);
     const fwd = forward384(config);
     const engineHeap = heapPeak;
@@ -317,6 +331,7 @@ export async function runEngineBench(opts: EngineBenchOptions): Promise<EngineBe
       peak_fraction: flops / (engine1 / 1000) / 1e9 / peak,
       heap_peak_bytes: engineHeap,
       pool_bytes: kernelPoolFor(backend)?.memory.buffer.byteLength ?? 0,
+      pool_per_step: poolStats,
       forward_ms_384: fwd,
       model_gflop_per_step: flops / 1e9,
       load_before: loadBefore,
@@ -392,6 +407,13 @@ export function printEngineTable(r: EngineBenchResult): void {
       `${c.name.padEnd(20)}browser ${N}/1 ${fmt(c.browser_speedup, 2)}×  browser ${N}/torch ${N} ${ratio(t.browser_N, t.torch_N)}  ` +
         `browser 1/torch 1 ${ratio(t.browser_1, t.torch_1)}  (${goals('browser', c.browser_speedup)})`,
     );
+    const ps = c.pool_per_step;
+    if (ps) {
+      console.log(
+        `${c.name.padEnd(20)}per engine ${N}-thread step: ${ps.jobs.toFixed(0)} shared jobs taking ${ps.job_ms.toFixed(0)} ms; ` +
+          `${ps.copy_mb.toFixed(0)} MB copied into and out of the kernel pool's memory in ${ps.copy_ms.toFixed(1)} ms`,
+      );
+    }
     console.log(
       `${c.name.padEnd(20)}peak fraction ${fmt(c.peak_fraction, 2)} on 1 thread (${c.model_gflop_per_step.toFixed(1)} GFLOP/step)  ` +
         `heap peak ${(c.heap_peak_bytes / 2 ** 20).toFixed(0)} MiB (+ ${(c.pool_bytes / 2 ** 20).toFixed(0)} MiB kernel pool)  forward 384 tokens ${fmt(c.forward_ms_384, 1)} ms on ${N} threads`,
@@ -418,6 +440,7 @@ export function engineJson(r: EngineBenchResult): string {
       peak_fraction: c.peak_fraction,
       heap_peak_bytes: c.heap_peak_bytes,
       pool_bytes: c.pool_bytes,
+      pool_per_step: c.pool_per_step,
       forward_ms_384: c.forward_ms_384,
       load_before: c.load_before,
       load_after: c.load_after,
