@@ -25,7 +25,16 @@ import { biasGelu } from '../../src/kernels/gelu.js';
 import { jobRunner, setJobSharing, split } from '../../src/kernels/jobs.js';
 import { layerNorm, layerNormGradConfig } from '../../src/kernels/layer-norm.js';
 import { batchMatMulConfig } from '../../src/kernels/matmul.js';
-import { kernelPoolFor, kernelThreadCount, setKernelThreads, stopKernelThreads } from '../../src/kernels/threads.js';
+import { POOL_BYTES, POOL_FAILED } from '../../src/kernels/pool-layout.js';
+import {
+  kernelPoolFor,
+  kernelThreadCount,
+  kernelThreadsReady,
+  setKernelThreads,
+  stopKernelThreads,
+  useKernelThreads,
+  type KernelThreadStart,
+} from '../../src/kernels/threads.js';
 import type { WasmBackendLike } from '../../src/kernels/wasm-module.js';
 import { maxAbsDiff, readyBoth, runOn, uniform } from './backends.js';
 import { SharedHeapBackend } from './shared-heap.js';
@@ -263,6 +272,27 @@ describe('kernel threads over copies (Node: the tfjs heap is not shared)', () =>
       setJobSharing('auto');
       tf.dispose([a, b]);
     }
+  });
+});
+
+describe('a kernel thread that fails to start', () => {
+  it('leaves the engine on one thread, with the same results', async () => {
+    const backend = tf.backend() as unknown as WasmBackendLike;
+    // a stand-in helper that fails as runKernelThread does when its instance traps
+    useKernelThreads(
+      () => ({
+        postMessage: (start: KernelThreadStart) => {
+          Atomics.store(new Int32Array(start.memory.buffer, start.pool, POOL_BYTES / 4), POOL_FAILED, 1);
+        },
+        terminate: () => undefined,
+      }),
+      2,
+    );
+    await expect(kernelThreadsReady(backend)).resolves.toBe(1);
+    expect(kernelThreadCount()).toBe(1);
+    expect(kernelPoolFor(backend)).toBeNull();
+    const name = 'matMul, all four transposes, tails';
+    expectSameBits(tf.tidy(CASES[name]), oneThread[name], 'after a failed start');
   });
 });
 
