@@ -2,7 +2,8 @@
 // count: loss, validation EM/F1, learning rate or tokens per second, each in its one look
 // (metric-style.ts). Both axes are labelled with their units; the legend under the chart
 // shows the values at the update under the cursor. Reflects the number of points drawn
-// in `data-points`, so tests can wait for them. No events out.
+// in `data-points`, so tests can wait for them, and the axis labels in `data-axes`.
+// No events out.
 import { LitElement, css, html, unsafeCSS, type PropertyValues } from 'lit';
 import { customElement, property } from 'lit/decorators.js';
 import uPlot from 'uplot';
@@ -105,6 +106,8 @@ export class MetricChart extends LitElement {
       data,
       target,
     );
+    // the axis labels are drawn on the canvas: their texts are reflected for tests and tools
+    this.setAttribute('data-axes', this.plot.axes.map((a) => a.label ?? '').join(' | '));
     this.resize ??= new ResizeObserver(() => this.plot?.setSize({ width: this.width(target), height: HEIGHT }));
     this.resize.observe(target);
   }

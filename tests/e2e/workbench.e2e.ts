@@ -375,6 +375,26 @@ describe('the browser workbench', () => {
       expect(box, id).not.toBeNull();
       expect(box!.y + Math.min(box!.height, 60), `${id} at ${box!.y}`).toBeLessThan(viewport.height);
     }
+    // a chart shows the values at the update under the cursor, in its unit
+    const chart = page.locator('#chart-eval .u-over');
+    await chart.scrollIntoViewIfNeeded(); // the plot's lower part lies below 800 px
+    const box = (await chart.boundingBox())!;
+    let x = 0;
+    await expect
+      .poll(
+        async () => {
+          // wander over the plot, a few pixels at a time, as a hand would
+          x = (x + 0.3) % 1;
+          await page.mouse.move(box.x + box.width * (0.35 + x / 2), box.y + box.height / 2, { steps: 4 });
+          return (await page.locator('#chart-eval .u-legend .u-value').allTextContents()).slice(1, 3).join(' | ');
+        },
+        { timeout: 10_000 },
+      )
+      .toMatch(/^\d+\.\d % \| \d+\.\d %$/); // EM | F1
+    // the axes name their units (drawn on the canvas by uPlot; its axes' labels reflected in data-axes)
+    await expect(page.locator('#chart-eval').getAttribute('data-axes')).resolves.toBe('optimizer update | percent');
+    await expect(page.locator('#chart-loss').getAttribute('data-axes')).resolves.toBe('optimizer update | cross-entropy, nats');
+    await page.evaluate(() => window.scrollTo(0, 0));
     await expect(page.locator('#run-name').inputValue()).resolves.toBe('run 2');
     const inUse = (await page.locator('#tuned-name').textContent())?.trim() ?? '';
     await page.locator('#start-run').click();
@@ -765,6 +785,7 @@ describe('the browser workbench', () => {
         .evaluateAll((bs) => new Set(bs.map((b) => Math.round(b.getBoundingClientRect().top))).size);
       expect(rows, `${name}: rows of screen buttons`).toBe(1);
       await shot(`narrow-${name}`);
+      if (name === 'training') await shot('narrow', true);
     }
     await page.setViewportSize({ width: 1280, height: 900 });
   });
