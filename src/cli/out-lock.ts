@@ -8,6 +8,7 @@ import { mkdir, open, readFile, rm } from 'node:fs/promises';
 import { hostname } from 'node:os';
 import { join } from 'node:path';
 import { UserError } from './common.js';
+import { writeErrorMessage } from './write-files.js';
 
 export const LOCK_FILE = '.spanwright-lock';
 
@@ -28,14 +29,27 @@ function alive(pid: number): boolean {
 }
 
 export async function lockOutputFolder(dir: string, what = 'training'): Promise<OutputLock> {
-  await mkdir(dir, { recursive: true });
+  try {
+    await mkdir(dir, { recursive: true });
+  } catch (err) {
+    throw new UserError(await writeErrorMessage(err, dir, 0));
+  }
   const path = join(dir, LOCK_FILE);
   let tookOverFrom: number | null = null;
   for (let attempt = 0; attempt < 2; attempt++) {
     try {
+      const text = `${JSON.stringify({ pid: process.pid, host: hostname(), what, since: new Date().toISOString() })}\n`;
       const handle = await open(path, 'wx');
-      await handle.writeFile(`${JSON.stringify({ pid: process.pid, host: hostname(), what, since: new Date().toISOString() })}\n`);
-      await handle.close();
+      try {
+        await handle.writeFile(text);
+        await handle.close();
+      } catch (err) {
+        // a full disk lets the file be created but not written: take the empty lock away
+        // again and say so, rather than leave it for the next run to puzzle over
+        await handle.close().catch(() => undefined);
+        await rm(path, { force: true });
+        throw new UserError(await writeErrorMessage(err, path, text.length));
+      }
       let released = false;
       const release = async () => {
         if (released) return;
@@ -44,7 +58,8 @@ export async function lockOutputFolder(dir: string, what = 'training'): Promise<
       };
       return { tookOverFrom, release };
     } catch (err) {
-      if ((err as NodeJS.ErrnoException).code !== 'EEXIST') throw err;
+      if (err instanceof UserError) throw err;
+      if ((err as NodeJS.ErrnoException).code !== 'EEXIST') throw new UserError(await writeErrorMessage(err, path, 0));
     }
     let held: { pid?: number; host?: string; what?: string; since?: string } = {};
     try {

@@ -1,9 +1,9 @@
-// defines: writeFileAtomically, writeFilesAtomically, writeErrorMessage — how the CLI puts
-// files on disk: each written under a hidden temporary name beside its target, flushed,
-// then renamed over the target (atomic within one file system on POSIX), so an
-// interruption never leaves half a file under its name; a failed write removes its
-// temporary file and says which file could not be written, how large it was, and why in
-// words ("the disk is full"), not an internal error code alone.
+// defines: writeFileAtomically, writePathsAtomically, writeFilesAtomically,
+// writeErrorMessage — how the CLI puts files on disk: each written under a hidden
+// temporary name beside its target, flushed, then renamed over the target (atomic within
+// one file system on POSIX), so an interruption never leaves half a file under its name;
+// a failed write removes its temporary file and says which file could not be written,
+// how large it was, and why in words ("the disk is full"), not an internal error code alone.
 import { randomBytes } from 'node:crypto';
 import { mkdir, open, rename, rm, statfs } from 'node:fs/promises';
 import { basename, dirname, join } from 'node:path';
@@ -68,25 +68,40 @@ export async function writeFileAtomically(path: string, data: Uint8Array | strin
 }
 
 /**
- * Several files into `dir`, all or nothing: every file is first written under its
- * temporary name; only when all are on disk are they renamed into place. A failure while
- * writing removes the temporary files and leaves the folder as it was.
+ * Several files, each at its own path, all or nothing: every file is first written under
+ * its temporary name; only when all are on disk are they renamed into place. A failure
+ * while writing removes the temporary files and leaves every target as it was. (A rename
+ * can still fail after others succeeded — a folder standing where a file should go — but
+ * no temporary file is left behind and the message names the file.)
  */
+export async function writePathsAtomically(files: ReadonlyArray<{ path: string; bytes: Uint8Array | string }>): Promise<void> {
+  const written: Array<{ tmp: string; path: string; size: number }> = [];
+  try {
+    for (const f of files) {
+      const bytes = typeof f.bytes === 'string' ? new TextEncoder().encode(f.bytes) : f.bytes;
+      written.push({ tmp: await writeTemp(f.path, bytes), path: f.path, size: bytes.length });
+    }
+  } catch (err) {
+    for (const w of written) await rm(w.tmp, { force: true });
+    throw err;
+  }
+  for (let i = 0; i < written.length; i++) {
+    const w = written[i]!;
+    try {
+      await rename(w.tmp, w.path);
+    } catch (err) {
+      for (const rest of written.slice(i)) await rm(rest.tmp, { force: true });
+      throw new UserError(await writeErrorMessage(err, w.path, w.size));
+    }
+  }
+}
+
+/** Several files into `dir` (created if missing), all or nothing as writePathsAtomically. */
 export async function writeFilesAtomically(dir: string, files: ReadonlyArray<{ name: string; bytes: Uint8Array | string }>): Promise<void> {
   try {
     await mkdir(dir, { recursive: true });
   } catch (err) {
     throw new UserError(await writeErrorMessage(err, dir, 0));
   }
-  const written: Array<{ tmp: string; path: string }> = [];
-  try {
-    for (const f of files) {
-      const bytes = typeof f.bytes === 'string' ? new TextEncoder().encode(f.bytes) : f.bytes;
-      written.push({ tmp: await writeTemp(join(dir, f.name), bytes), path: join(dir, f.name) });
-    }
-  } catch (err) {
-    for (const w of written) await rm(w.tmp, { force: true });
-    throw err;
-  }
-  for (const w of written) await rename(w.tmp, w.path);
+  await writePathsAtomically(files.map((f) => ({ path: join(dir, f.name), bytes: f.bytes })));
 }

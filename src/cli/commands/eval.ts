@@ -1,10 +1,10 @@
 // defines: the `eval` and `predict` commands — a model directory over a question file:
 // SQuAD 2.0 EM/F1 (answerable and unanswerable apart, with the tuned no-answer
 // threshold), or the id → answer map that `score` reads.
-import { writeFile } from 'node:fs/promises';
 import type { Command } from 'commander';
 import { UserError, printJson, runCommand } from '../common.js';
 import { loadRecords, readModelDir, startEngine } from '../model-dir.js';
+import { writePathsAtomically } from '../write-files.js';
 import { countProgress } from '../progress.js';
 import { readerWarnings } from '../../eval/reader-warnings.js';
 import { scoresObject, scoresTable } from '../scores.js';
@@ -108,8 +108,12 @@ export function register(program: Command): void {
           bar.stop();
           session.dispose();
         }
-        await writeFile(o.out!, `${JSON.stringify(decoded.predictions, null, 1)}\n`);
-        if (o.naProb) await writeFile(o.naProb, `${JSON.stringify(decoded.scoreDiffs, null, 1)}\n`);
+        // both files or neither, under temporary names first: a full disk names the file and
+        // leaves an earlier predictions file as it was (src/cli/write-files.ts)
+        await writePathsAtomically([
+          { path: o.out!, bytes: `${JSON.stringify(decoded.predictions, null, 1)}\n` },
+          ...(o.naProb ? [{ path: o.naProb, bytes: `${JSON.stringify(decoded.scoreDiffs, null, 1)}\n` }] : []),
+        ]);
         const n = Object.keys(decoded.predictions).length;
         const empty = Object.values(decoded.predictions).filter((p) => p === '').length;
         process.stdout.write(

@@ -278,9 +278,6 @@ export async function trainReader(
   // one run per output folder: two would prune each other's checkpoints
   const lock = await lockOutputFolder(o.out);
   if (lock.tookOverFrom !== null) log(`note: ${o.out} held a lock of process ${lock.tookOverFrom}, which no longer runs; taken over`);
-  const orphans = await store.sweepOrphans();
-  if (orphans.length > 0)
-    log(`note: removed ${orphans.length} file(s) an interrupted checkpoint save left in ${join(o.out, 'checkpoints')}`);
   const abort = new AbortController();
   const onSigint = () => {
     log('\nstopping after this update; the run can continue with --resume');
@@ -288,6 +285,11 @@ export async function trainReader(
   };
   process.once('SIGINT', onSigint);
   try {
+    // what a killed save left (a temporary blob, a blob without its summary), swept while
+    // this run holds the folder, so no other process's save is in flight
+    const orphans = await store.sweepOrphans();
+    if (orphans.length > 0)
+      log(`note: removed ${orphans.length} file(s) an interrupted checkpoint save left in ${join(o.out, 'checkpoints')}`);
     const before = evalRecords && o.measureBase ? evaluate('evaluating the base', 'base') : null;
 
     // 2a. the practice stage, from the user's passages
