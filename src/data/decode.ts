@@ -3,6 +3,8 @@
 // 1. A byte-order mark is stripped: UTF-8 (EF BB BF), and UTF-16 LE/BE (FF FE / FE FF),
 //    which are then decoded as UTF-16. Without a mark the file must be UTF-8.
 // 2. Invalid UTF-8 is an error at the byte offset of the first bad sequence (and its line).
+//    Valid text longer than one JavaScript string can hold is an error saying so, found
+//    by counting before decoding.
 // 3. A NUL character is an error with its line and column: no text format Spanwright
 //    reads allows one, and a run of them usually means UTF-16 saved without a mark.
 // Line endings are left as they are here; each format decides (see normalise.ts).
@@ -22,6 +24,15 @@ export function decodeText(bytes: Uint8Array): DecodeResult {
   else if (bytes[0] === 0xfe && bytes[1] === 0xff) [encoding, skip] = ['utf-16be', 2];
   const body = bytes.subarray(skip);
 
+  // a text longer than one string can hold is refused by counting, before the decoder is
+  // asked to build it: the message can give the count, and does not rest on how the
+  // decoder happens to fail
+  const units = encoding !== 'utf-8' ? Math.floor(body.length / 2) : body.length > MAX_STRING_UNITS ? utf16Units(body) : body.length;
+  if (units > MAX_STRING_UNITS) {
+    const invalid = encoding === 'utf-8' ? firstInvalidUtf8(body) : body.length;
+    if (invalid === body.length) return tooLarge(bytes.length, encoding, units);
+  }
+
   let text: string;
   try {
     // ignoreBOM: the mark is already skipped above; a second one would be content
@@ -36,16 +47,13 @@ export function decodeText(bytes: Uint8Array): DecodeResult {
       };
     }
     const invalid = firstInvalidUtf8(body);
-    if (invalid === body.length) {
-      // every byte is valid UTF-8, so the decoder failed for the text's length: one
-      // JavaScript string holds at most 2^29 − 24 UTF-16 code units in V8 (from memory)
-      return {
-        ok: false,
-        message: `the file is ${(bytes.length / 1e6).toFixed(0)} MB of valid UTF-8, more text than one JavaScript string can hold (about 536 million characters); split it into files of a few hundred MB`,
-        byteOffset: 0,
-        line: 1,
-      };
-    }
+    // every byte is valid UTF-8 and the text fits a string (the check above), so the
+    // decoder refused the input's size: Node's refuses more than MAX_STRING_UNITS bytes in
+    // one call (ERR_STRING_TOO_LONG, measured with Node 20) even when, as with a 1 GB file
+    // of three-byte characters, the text would fit. Decoding in pieces would read such a
+    // file, but `check` of one then peaked at 3.3× its size in memory (measured), so it is
+    // refused, saying why.
+    if (invalid === body.length) return tooLarge(bytes.length, encoding, null);
     const bad = skip + invalid;
     return {
       ok: false,
@@ -71,6 +79,40 @@ export function decodeText(bytes: Uint8Array): DecodeResult {
     };
   }
   return { ok: true, text, encoding, hadByteOrderMark: skip > 0 };
+}
+
+/**
+ * The longest string V8 builds on 64-bit machines: 2^29 − 24 UTF-16 code units
+ * (String::kMaxLength in v8.h, from memory) — Node and Chromium alike.
+ */
+export const MAX_STRING_UNITS = 2 ** 29 - 24;
+
+/**
+ * UTF-16 code units that well-formed UTF-8 decodes to, without decoding: one per sequence
+ * (every byte that is not a continuation byte 10xxxxxx), two for a 4-byte sequence (a
+ * surrogate pair) — Unicode Standard ch. 3, table 3-6 (from memory).
+ */
+export function utf16Units(bytes: Uint8Array): number {
+  let units = 0;
+  for (let i = 0; i < bytes.length; i++) {
+    const b = bytes[i]!;
+    if ((b & 0xc0) !== 0x80) units += b >= 0xf0 ? 2 : 1;
+  }
+  return units;
+}
+
+/**
+ * The error for a file too large to decode: with `units`, the text is longer than any
+ * string; without, the decoder refused the input's size (see decodeText).
+ */
+function tooLarge(fileBytes: number, encoding: Encoding, units: number | null): DecodeResult {
+  const size = `the file is ${(fileBytes / 1e6).toFixed(0)} MB of ${encoding === 'utf-8' ? 'valid UTF-8' : `${encoding.toUpperCase()} text`}`;
+  const limit = (MAX_STRING_UNITS / 1e6).toFixed(0);
+  const why =
+    units === null
+      ? `more than this runtime decodes into one string (about ${limit} MB at once)`
+      : `${(units / 1e6).toFixed(0)} million characters: more text than one JavaScript string can hold (about ${limit} million)`;
+  return { ok: false, message: `${size}, ${why}; split it into files of a few hundred MB`, byteOffset: 0, line: 1 };
 }
 
 /**

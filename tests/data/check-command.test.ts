@@ -1,6 +1,6 @@
 // The `check` command end to end, run as the user runs it (tsx src/cli/main.ts check ...).
 import { execFile } from 'node:child_process';
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, readFileSync, readdirSync, truncateSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { promisify } from 'node:util';
@@ -81,6 +81,61 @@ describe('spanwright check', () => {
     expect(self.code).toBe(1);
     expect(self.stderr).toContain('is the file being checked');
     expect(readFileSync(file, 'utf8')).toBe(good);
+  });
+
+  it('--write-clean that cannot be written names the file and leaves no temporary file', async () => {
+    const file = join(dir, 'to-clean.jsonl');
+    writeFileSync(file, good);
+    // a folder stands where the clean file should go: the temporary file is written, its rename fails
+    const target = join(dir, 'taken.jsonl');
+    mkdirSync(target);
+    const r = await check(file, '--write-clean', target);
+    expect(r.code).toBe(1);
+    expect(r.stderr).toMatch(/--write-clean: cannot write .*taken\.jsonl \(\d+ bytes\): a folder has that name \(EISDIR\)/);
+    expect(r.stderr).not.toContain('internal error');
+    expect(readdirSync(dir).filter((n) => n.includes('.tmp'))).toEqual([]);
+  });
+
+  it('refuses a file too large for one string within 2× its size in memory, saying why', async () => {
+    // the issue's bound for `check` on a large file. A sparse file: 600 MB of zero bytes on
+    // no disk blocks — valid UTF-8 of more characters than a V8 string holds (2^29 − 24)
+    const file = join(dir, 'huge.jsonl');
+    writeFileSync(file, '');
+    truncateSync(file, 600_000_000);
+    // the process's own peak resident size, printed as it exits (process.resourceUsage, Node ≥ 12.6)
+    const probe = join(dir, 'max-rss.cjs');
+    writeFileSync(probe, "process.on('exit', () => process.stderr.write(`max-rss-kib ${process.resourceUsage().maxRSS}\\n`));\n");
+    let r: { code: number; stdout: string; stderr: string };
+    try {
+      const out = await run(process.execPath, ['--require', probe, '--import', 'tsx', 'src/cli/main.ts', 'check', file], { cwd: root });
+      r = { code: 0, ...out };
+    } catch (err) {
+      r = err as typeof r;
+    } finally {
+      rmSync(file);
+    }
+    expect(r.code).toBe(1);
+    expect(r.stdout).toContain(
+      `${file}: error: the file is 600 MB of valid UTF-8, 600 million characters: more text than one JavaScript string`,
+    );
+    const peak = Number(/max-rss-kib (\d+)/.exec(r.stderr)?.[1]) * 1024;
+    expect(peak, r.stderr).toBeGreaterThan(600_000_000); // the file was read
+    expect(peak).toBeLessThan(2 * 600_000_000);
+  }, 60_000);
+
+  it('a file over 2 GiB, which Node cannot read at once, is refused in words', async () => {
+    const file = join(dir, 'over-2-gib.jsonl');
+    writeFileSync(file, '');
+    truncateSync(file, 2_600_000_000); // sparse: no disk blocks
+    try {
+      const r = await check(file);
+      expect(r.code).toBe(1);
+      expect(r.stderr).toBe(
+        `spanwright: ${file}: the file is 2.6 GB, more than Node reads into memory at once (2 GiB); split it into smaller files\n`,
+      );
+    } finally {
+      rmSync(file);
+    }
   });
 
   it('counts records from 1 in its lines, as the workbench does, and keeps the 0-based index in --json', async () => {

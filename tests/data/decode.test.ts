@@ -1,7 +1,7 @@
 // Decoding data files. The reference for "is this valid UTF-8" is the WHATWG Encoding
 // Standard decoder as built into Node (TextDecoder with fatal: true).
 import { describe, expect, it } from 'vitest';
-import { decodeText, firstInvalidUtf8 } from '../../src/data/decode.js';
+import { MAX_STRING_UNITS, decodeText, firstInvalidUtf8, utf16Units } from '../../src/data/decode.js';
 import { mulberry32 } from '../../src/data/random.js';
 
 const bytes = (...b: number[]): Uint8Array => new Uint8Array(b);
@@ -51,14 +51,48 @@ describe('firstInvalidUtf8', () => {
   });
 });
 
+describe('utf16Units', () => {
+  it('counts the UTF-16 code units the WHATWG decoder gives, without decoding', () => {
+    const random = mulberry32(11);
+    // code points from every UTF-8 length: ASCII, 2-byte, 3-byte (surrogates skipped), 4-byte
+    const pick = (): number => {
+      const r = random();
+      if (r < 0.4) return Math.floor(random() * 0x80);
+      if (r < 0.6) return 0x80 + Math.floor(random() * 0x780);
+      if (r < 0.8) return 0xe000 + Math.floor(random() * 0x2000);
+      return 0x10000 + Math.floor(random() * 0x100000);
+    };
+    for (let trial = 0; trial < 500; trial++) {
+      const text = String.fromCodePoint(...Array.from({ length: Math.floor(random() * 40) }, pick));
+      const b = new TextEncoder().encode(text);
+      expect(utf16Units(b), JSON.stringify(text)).toBe(fatal.decode(b).length);
+    }
+  });
+});
+
 describe('decodeText', () => {
-  it('says plainly that a valid UTF-8 file is too large for one string, not that it is invalid', () => {
+  it('says plainly that a valid UTF-8 file is too large for one string, with its length, not that it is invalid', () => {
     // 600 MB of "a\n": more characters than a V8 string holds (2^29 − 24, from memory)
     const big = new Uint8Array(600_000_000).fill(0x61);
     for (let i = 99; i < big.length; i += 100) big[i] = 0x0a;
+    expect(big.length).toBeGreaterThan(MAX_STRING_UNITS);
     const r = decodeText(big);
     expect(r.ok).toBe(false);
-    expect(r.ok ? '' : r.message).toMatch(/^the file is 600 MB of valid UTF-8, more text than one JavaScript string can hold/);
+    expect(r.ok ? '' : r.message).toBe(
+      'the file is 600 MB of valid UTF-8, 600 million characters: more text than one JavaScript string can hold ' +
+        '(about 537 million); split it into files of a few hundred MB',
+    );
+    // the same bytes as 200 million three-byte characters: a string holds them, but Node 20's
+    // decoder takes at most 2^29 − 24 bytes in one call (ERR_STRING_TOO_LONG, measured); the
+    // file is refused for that, saying so — never called invalid. (A runtime whose decoder
+    // takes it reads it whole.)
+    for (let i = 0; i < big.length; i += 3) [big[i], big[i + 1], big[i + 2]] = [0xe6, 0x97, 0xa5]; // 日
+    const wide = decodeText(big);
+    if (wide.ok) expect(wide.text.length).toBe(200_000_000);
+    else
+      expect(wide.message).toMatch(
+        /^the file is 600 MB of valid UTF-8, more than this runtime decodes into one string \(about 537 MB at once\)/,
+      );
   }, 60_000);
 
   it('strips a UTF-8 byte-order mark', () => {
