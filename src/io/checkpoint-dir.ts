@@ -106,16 +106,7 @@ export function loadCheckpointDir(
   opts: { seed?: number } = {},
 ): CheckpointDirContents & { params: ReaderParams; report: LoadReport } {
   const contents = readCheckpointDir(files);
-  // a NaN or an infinity in the weights makes every output NaN: refuse it here, naming the tensor
-  for (const [name, t] of contents.tensors) {
-    const bad = t.data.findIndex((v) => !Number.isFinite(v));
-    if (bad >= 0) {
-      const count = t.data.reduce((n, v) => (Number.isFinite(v) ? n : n + 1), 0);
-      throw new Error(
-        `${files.names?.weights ?? 'model.safetensors'}: tensor "${name}" holds ${count} value(s) that are NaN or infinite (the first at index ${bad}); the weights are damaged or were saved from a run that diverged`,
-      );
-    }
-  }
+  // (ReaderParams.fromNamed refuses NaN or infinite weights, naming the file and the tensor)
   const { params, report } = ReaderParams.fromNamed(contents.config, contents.tensors, {
     seed: opts.seed,
     source: files.names?.weights ?? 'model.safetensors',

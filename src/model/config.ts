@@ -94,23 +94,25 @@ export function presetConfig(name: PresetName, vocabSize: number, overrides: Par
 
 /**
  * Throws one error listing every bad field, each with its value and what was expected.
- * `source` names where the config came from (a file name) for the message.
+ * `source` names where the config came from (a file name) for the message; `names` the
+ * fields as that file spells them (configFromHf: `num_hidden_layers`, not `numLayers`).
  */
-export function validateConfig(config: ReaderConfig, source = 'config'): void {
+export function validateConfig(config: ReaderConfig, source = 'config', names: Partial<Record<keyof ReaderConfig, string>> = {}): void {
   const problems: string[] = [];
+  const name = (field: keyof ReaderConfig): string => names[field] ?? field;
   const positiveInt = (field: keyof ReaderConfig): void => {
     const v = config[field];
     if (typeof v !== 'number' || !Number.isInteger(v) || v <= 0)
-      problems.push(`${field} must be a positive integer, got ${JSON.stringify(v)}`);
+      problems.push(`${name(field)} must be a positive integer, got ${JSON.stringify(v)}`);
   };
   const probability = (field: keyof ReaderConfig): void => {
     const v = config[field];
-    if (typeof v !== 'number' || !(v >= 0 && v < 1)) problems.push(`${field} must be a number in [0, 1), got ${JSON.stringify(v)}`);
+    if (typeof v !== 'number' || !(v >= 0 && v < 1)) problems.push(`${name(field)} must be a number in [0, 1), got ${JSON.stringify(v)}`);
   };
   const positiveNumber = (field: keyof ReaderConfig): void => {
     const v = config[field];
     if (typeof v !== 'number' || !Number.isFinite(v) || v <= 0)
-      problems.push(`${field} must be a positive number, got ${JSON.stringify(v)}`);
+      problems.push(`${name(field)} must be a positive number, got ${JSON.stringify(v)}`);
   };
   for (const f of ['vocabSize', 'hiddenSize', 'numLayers', 'numHeads', 'intermediateSize', 'maxPositions', 'typeVocabSize'] as const)
     positiveInt(f);
@@ -119,20 +121,20 @@ export function validateConfig(config: ReaderConfig, source = 'config'): void {
   // BERT-family checkpoints have 48 layers, hidden 4096, vocabularies of 250 000, from memory)
   for (const [f, max] of SIZE_LIMITS) {
     const v = config[f];
-    if (Number.isInteger(v) && v > max) problems.push(`${f} ${v} is beyond what this engine reads (at most ${max})`);
+    if (Number.isInteger(v) && v > max) problems.push(`${name(f)} ${v} is beyond what this engine reads (at most ${max})`);
   }
   probability('hiddenDropout');
   probability('attentionDropout');
   positiveNumber('layerNormEps');
   positiveNumber('initStd');
   if (config.activation !== 'gelu' && config.activation !== 'gelu_sigmoid') {
-    problems.push(`activation must be "gelu" or "gelu_sigmoid", got ${JSON.stringify(config.activation)}`);
+    problems.push(`${name('activation')} must be "gelu" or "gelu_sigmoid", got ${JSON.stringify(config.activation)}`);
   }
   if (config.questionMatch !== undefined && !(config.questionMatch in MATCH_TYPES)) {
-    problems.push(`questionMatch must be "words" or "words+sentence", got ${JSON.stringify(config.questionMatch)}`);
+    problems.push(`${name('questionMatch')} must be "words" or "words+sentence", got ${JSON.stringify(config.questionMatch)}`);
   } else if (config.questionMatch && config.typeVocabSize < MATCH_TYPES[config.questionMatch]) {
     problems.push(
-      `questionMatch "${config.questionMatch}" needs typeVocabSize of at least ${MATCH_TYPES[config.questionMatch]}, got ${config.typeVocabSize}`,
+      `${name('questionMatch')} "${config.questionMatch}" needs ${name('typeVocabSize')} of at least ${MATCH_TYPES[config.questionMatch]}, got ${config.typeVocabSize}`,
     );
   }
   if (
@@ -141,7 +143,7 @@ export function validateConfig(config: ReaderConfig, source = 'config'): void {
     config.numHeads > 0 &&
     config.hiddenSize % config.numHeads !== 0
   ) {
-    problems.push(`hiddenSize (${config.hiddenSize}) must be a multiple of numHeads (${config.numHeads})`);
+    problems.push(`${name('hiddenSize')} (${config.hiddenSize}) must be a multiple of ${name('numHeads')} (${config.numHeads})`);
   }
   if (problems.length > 0) throw new Error(`${source}: invalid reader config: ${problems.join('; ')}`);
 }
@@ -218,9 +220,26 @@ export function configFromHf(json: unknown, file = 'config.json'): ReaderConfig 
     initStd: optional('initializer_range', DEFAULT_CONFIG.initStd),
     ...(typeof match === 'string' ? { questionMatch: match as QuestionMatch } : {}),
   };
-  validateConfig(config, file);
+  validateConfig(config, file, HF_NAMES);
   return config;
 }
+
+/** Each field as config.json spells it (configFromHf, configToHf). */
+const HF_NAMES: Record<keyof ReaderConfig, string> = {
+  vocabSize: 'vocab_size',
+  hiddenSize: 'hidden_size',
+  numLayers: 'num_hidden_layers',
+  numHeads: 'num_attention_heads',
+  intermediateSize: 'intermediate_size',
+  maxPositions: 'max_position_embeddings',
+  typeVocabSize: 'type_vocab_size',
+  hiddenDropout: 'hidden_dropout_prob',
+  attentionDropout: 'attention_probs_dropout_prob',
+  layerNormEps: 'layer_norm_eps',
+  activation: 'hidden_act',
+  initStd: 'initializer_range',
+  questionMatch: 'spanwright_question_match',
+};
 
 /** The HF-style `config.json` object for a checkpoint directory. */
 export function configToHf(config: ReaderConfig): Record<string, unknown> {

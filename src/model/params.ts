@@ -12,6 +12,15 @@ import type { NamedTensor, NamedTensors } from '../io/tensors.js';
 import { parameterShapes, validateConfig, type ParamSpec, type ReaderConfig } from './config.js';
 import { seedFor, truncatedNormal } from './random.js';
 
+/**
+ * Weights that do not fit the config or hold values no reader can use (a missing or
+ * misshapen tensor, a NaN): a fault of the input, not of the program, so the CLI reports
+ * it without "internal error" (src/cli/common.ts, runCommand).
+ */
+export class WeightsError extends Error {
+  override name = 'WeightsError';
+}
+
 /** What `fromNamed` did with each checkpoint tensor. */
 export interface LoadReport {
   /** engine names filled from the checkpoint */
@@ -80,8 +89,8 @@ export class ReaderParams {
   /**
    * Weights from checkpoint tensors. Names may come with or without the `bert.` prefix.
    * A missing span head (`qa_outputs`) or MLM head (`cls.predictions.*`) is initialised
-   * afresh with a notice; a missing encoder tensor or a shape mismatch is an error
-   * naming the tensor.
+   * afresh with a notice; a missing encoder tensor, a shape mismatch or a NaN or infinite
+   * value is an error naming the tensor.
    */
   static fromNamed(config: ReaderConfig, named: NamedTensors, opts: FromNamedOptions = {}): { params: ReaderParams; report: LoadReport } {
     const source = opts.source ?? 'checkpoint';
@@ -97,14 +106,14 @@ export class ReaderParams {
         continue;
       }
       const earlier = found.get(name);
-      if (earlier !== undefined) throw new Error(`${source}: tensors "${earlier.original}" and "${original}" both name ${name}`);
+      if (earlier !== undefined) throw new WeightsError(`${source}: tensors "${earlier.original}" and "${original}" both name ${name}`);
       found.set(name, { original, tensor });
     }
 
     const missingEncoder = [...specs].filter(([name, spec]) => spec.part === 'encoder' && !found.has(name)).map(([name]) => name);
     if (missingEncoder.length > 0) {
       const shown = missingEncoder.slice(0, 5).join(', ') + (missingEncoder.length > 5 ? `, … (${missingEncoder.length} in all)` : '');
-      throw new Error(`${source}: missing encoder tensor(s): ${shown}`);
+      throw new WeightsError(`${source}: missing encoder tensor(s): ${shown}`);
     }
 
     const values = new Map<string, tf.Tensor>();
@@ -119,14 +128,24 @@ export class ReaderParams {
         const { original, tensor } = entry;
         const expected = spec.shape;
         if (tensor.shape.length !== expected.length || tensor.shape.some((d, i) => d !== expected[i])) {
-          throw new Error(
+          throw new WeightsError(
             `${source}: tensor "${original}" has shape [${tensor.shape.join(', ')}], the config expects [${expected.join(', ')}]`,
           );
         }
         const size = expected.reduce((a, b) => a * b, 1);
         if (tensor.data.length !== size) {
-          throw new Error(
+          throw new WeightsError(
             `${source}: tensor "${original}" holds ${tensor.data.length} values, its shape [${expected.join(', ')}] needs ${size}`,
+          );
+        }
+        // one NaN or infinity makes every output NaN: refuse it at load, whatever the
+        // source (a model directory, a checkpoint to resume or restore), naming the tensor
+        const bad = tensor.data.findIndex((v) => !Number.isFinite(v));
+        if (bad >= 0) {
+          const count = tensor.data.reduce((n, v) => (Number.isFinite(v) ? n : n + 1), 0);
+          throw new WeightsError(
+            `${source}: tensor "${original}" holds ${count} value(s) that are NaN or infinite (the first at index ${bad}); ` +
+              'the weights are damaged or were saved from a run that diverged',
           );
         }
         values.set(name, toInternal(tensor.data, spec));

@@ -132,8 +132,9 @@ describe('checkpoint directory import', () => {
 
   it('refuses absurd sizes in config.json, and a layer count the weights do not hold, before building anything', () => {
     for (const [layers, pattern] of [
-      [1_000_000, /numLayers 1000000 is beyond what this engine reads \(at most 96\)/],
-      [1_000_000_000, /numLayers 1000000000 is beyond/],
+      // the field as config.json spells it
+      [1_000_000, /^config\.json: invalid reader config: num_hidden_layers 1000000 is beyond what this engine reads \(at most 96\)/],
+      [1_000_000_000, /num_hidden_layers 1000000000 is beyond/],
       [5, /config\.json: field num_hidden_layers is 5, but model\.safetensors holds 2 encoder layer\(s\)/],
     ] as const) {
       const files = madeDir((f) => {

@@ -201,4 +201,27 @@ describe('ReaderParams.fromNamed', () => {
     named.set('qa_outputs.bias', { shape: [2], data: new Float32Array(3) });
     expect(() => ReaderParams.fromNamed(config, named)).toThrow(/"qa_outputs\.bias" holds 3 values, its shape \[2\] needs 2/);
   });
+
+  it('rejects NaN or infinite weights from any source (a checkpoint to resume, too), naming the tensor; nothing is left allocated', () => {
+    for (const bad of [Number.NaN, Number.POSITIVE_INFINITY, Number.NEGATIVE_INFINITY]) {
+      const named = clone(reference);
+      const t = named.get('bert.encoder.layer.1.intermediate.dense.weight')!;
+      const data = Float32Array.from(t.data);
+      data[17] = bad;
+      named.set('bert.encoder.layer.1.intermediate.dense.weight', { shape: t.shape, data });
+      const before = tf.memory().numTensors;
+      let thrown: unknown;
+      try {
+        ReaderParams.fromNamed(config, named, { source: 'checkpoint step-00000040-x' }).params.dispose();
+      } catch (err) {
+        thrown = err;
+      }
+      expect((thrown as Error | undefined)?.message).toMatch(
+        /^checkpoint step-00000040-x: tensor "bert\.encoder\.layer\.1\.intermediate\.dense\.weight" holds 1 value\(s\) that are NaN or infinite \(the first at index 17\)/,
+      );
+      // a fault of the input: the CLI reports it without "internal error" (src/cli/common.ts)
+      expect((thrown as Error).name).toBe('WeightsError');
+      expect(tf.memory().numTensors).toBe(before);
+    }
+  });
 });
