@@ -63,7 +63,18 @@ test('smaller windows, the human report, and a bad stride', () => {
   expect(r.stdout).toMatch(/boundary mismatches .*: 1\n {2}cut: /);
   const bad = run(file, '--vocab', vocab, '--stride', '400');
   expect(bad.status).toBe(1);
-  expect(bad.stderr).toMatch(/--stride \(400\) must be smaller/);
+  // 384 − 64 question tokens − 3 special tokens (src/session/windows.ts, rule 4)
+  expect(bad.stderr).toMatch(/--stride 400 must be below the 317 context tokens a window holds/);
   const missing = run(file, '--vocab', join(dir, 'nope.txt'));
   expect(missing.stderr).toMatch(/nope\.txt: no such file/);
+});
+
+test('--max-len 128 alone: the stride and question length fit the short window (the rule of src/session/windows.ts)', () => {
+  // the defaults 128 / 64 leave a 128-token window 61 context tokens: a stride of 128 cannot work
+  const report = run(file, '--vocab', vocab, '--max-len', '128');
+  expect(report.status, report.stderr).toBe(0);
+  // a third of the window for the question (42), half the context room left for the stride ((128 − 42 − 3) / 2 = 41)
+  expect(report.stdout).toMatch(/\(max length 128, stride 41, max question 42 tokens\)/);
+  // an asked stride is kept when it fits
+  expect(run(file, '--vocab', vocab, '--max-len', '128', '--stride', '20').stdout).toMatch(/max length 128, stride 20, max question 42/);
 });

@@ -7,12 +7,13 @@ import { UserError, printJson, readBytes, runCommand } from '../common.js';
 import { loadDataset } from '../../data/load.js';
 import { DEFAULT_FEATURE_OPTIONS, FeatureBuilder, type FeatureOptions } from '../../text/features.js';
 import { VocabularyError, WordPieceTokenizer } from '../../text/wordpiece.js';
+import { resolveWindows } from '../../session/windows.js';
 
 interface FeaturesOptions {
   vocab: string;
   maxLen: string;
-  stride: string;
-  maxQuery: string;
+  stride?: string;
+  maxQuery?: string;
   cased?: boolean;
   uncased?: boolean;
   json?: boolean;
@@ -30,8 +31,14 @@ export function register(program: Command): void {
     .argument('<file>', 'the data file (SQuAD JSON, JSONL, CSV, TSV)')
     .requiredOption('--vocab <file>', 'the vocabulary: a vocab.txt (one token per line) or a tokenizer.json')
     .option('--max-len <n>', 'max sequence length in tokens, special tokens included', String(DEFAULT_FEATURE_OPTIONS.maxLength))
-    .option('--stride <n>', 'context tokens shared by consecutive windows', String(DEFAULT_FEATURE_OPTIONS.stride))
-    .option('--max-query <n>', 'question tokens kept; longer questions are cut', String(DEFAULT_FEATURE_OPTIONS.maxQueryLength))
+    .option(
+      '--stride <n>',
+      `context tokens shared by consecutive windows (default ${DEFAULT_FEATURE_OPTIONS.stride}, or half the context room of a short window)`,
+    )
+    .option(
+      '--max-query <n>',
+      `question tokens kept; longer questions are cut (default ${DEFAULT_FEATURE_OPTIONS.maxQueryLength}, or a third of a short window)`,
+    )
     .option('--cased', 'a vocab.txt is cased: no lowercasing or accent stripping')
     .option('--uncased', 'a vocab.txt is uncased: lowercase and strip accents')
     .option('--json', 'print {questions, windows, answers_lost, boundary_mismatches, ...} as one JSON line last')
@@ -81,11 +88,22 @@ async function loadTokenizer(path: string, options: FeaturesOptions): Promise<Wo
 }
 
 async function features(file: string, options: FeaturesOptions): Promise<number> {
-  const settings: FeatureOptions = {
-    maxLength: wholeNumber(options.maxLen, '--max-len'),
-    stride: wholeNumber(options.stride, '--stride'),
-    maxQueryLength: wholeNumber(options.maxQuery, '--max-query'),
-  };
+  // the stride and question length a window of this length gets by the one rule
+  // (src/session/windows.ts), so --max-len 128 alone works; no reader, so no position table
+  let settings: FeatureOptions;
+  try {
+    settings = resolveWindows(
+      {
+        maxLength: wholeNumber(options.maxLen, '--max-len'),
+        stride: options.stride === undefined ? undefined : wholeNumber(options.stride, '--stride'),
+        maxQueryLength: options.maxQuery === undefined ? undefined : wholeNumber(options.maxQuery, '--max-query'),
+      },
+      { maxPositions: Number.MAX_SAFE_INTEGER },
+    ).features;
+  } catch (err) {
+    if (err instanceof RangeError) throw new UserError(err.message.replace(/^(\w+)/, (k) => `--${flagName(k)}`));
+    throw err;
+  }
   const tokenizer = await loadTokenizer(options.vocab, options);
   let builder: FeatureBuilder;
   try {
