@@ -33,7 +33,7 @@ import { configFromHf, paramCount } from '../../src/model/config.js';
 import { spanLogits } from '../../src/model/encoder.js';
 import { ReaderParams } from '../../src/model/params.js';
 import { readSafetensors } from '../../src/io/safetensors.js';
-import { buildWorkbench, startServer, type RunningServer } from '../../src/cli/serve.js';
+import { startServer, type RunningServer } from '../../src/cli/serve.js';
 import { openBrowser, type OpenBrowser } from './browser.js';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
@@ -118,7 +118,6 @@ async function waitForEngine(): Promise<void> {
 beforeAll(async () => {
   mkdirSync(ARTIFACTS, { recursive: true });
   mkdirSync(SCREENSHOTS, { recursive: true });
-  if (process.env.SPANWRIGHT_E2E_NO_BUILD !== '1') await buildWorkbench();
   server = await startServer({ port: 0 });
   browser = await openBrowser();
   browser.context.on('request', (r) => requests.push(r.url()));
