@@ -281,7 +281,9 @@ export async function trainLoop(
   }
 
   const metrics = await evaluate(trainer.updatesDone);
-  await save('end', metrics);
+  // a run resumed with nothing left to do (it had finished, or its time budget was spent)
+  // keeps the checkpoint it was loaded from: saving again would only duplicate it
+  if (resume === undefined || trainer.updatesDone > startUpdate) await save('end', metrics);
   return { status: 'finished', state: state(), lastLoss, metrics };
 }
 

@@ -175,6 +175,37 @@ describe('trainLoop', () => {
     expect(savedAt).toEqual([4, 6]);
   });
 
+  it('resumed from the end checkpoint of a finished run, takes no update and saves nothing', async () => {
+    const task: TrainTask = { kind: 'span', features: FEATURES };
+    let saved: { state: RunState; weights: NamedTensors; optimizer: AdamWState } | null = null;
+    const first = fresh();
+    await trainLoop(first, task, {
+      saveCheckpoint: (r: CheckpointRequest) => {
+        if (r.reason === 'end') saved = { state: structuredClone(r.state), weights: r.weights(), optimizer: r.optimizer() };
+      },
+      yieldToEvents: noWait,
+    });
+    const checkpoint = saved!;
+    expect(checkpoint.state.trainer.update).toBe(6);
+    const resumed = fresh({}, checkpoint.weights);
+    resumed.restore(checkpoint.state.trainer, checkpoint.optimizer);
+    const savedAt: number[] = [];
+    const events: LoopEvent[] = [];
+    const outcome = await trainLoop(
+      resumed,
+      task,
+      {
+        saveCheckpoint: (r: CheckpointRequest) => void savedAt.push(r.state.trainer.update),
+        onEvent: (e) => events.push(e),
+        yieldToEvents: noWait,
+      },
+      checkpoint.state,
+    );
+    expect(outcome.status).toBe('finished');
+    expect(losses(events)).toEqual([]);
+    expect(savedAt).toEqual([]);
+  });
+
   it('stops on an aborted signal', async () => {
     const controller = new AbortController();
     const trainer = fresh();
