@@ -16,6 +16,7 @@ import { fastKernelsActive, registerFastKernels } from '../src/kernels/register.
 import { kernelThreadsReady, useKernelThreads } from '../src/kernels/threads.js';
 import { fastModuleFor, type WasmBackendLike } from '../src/kernels/wasm-module.js';
 import { ReaderSession } from '../src/session/reader-session.js';
+import { jobProgram } from './job-program.js';
 import type { RunMeta } from '../src/train/finetune.js';
 import {
   SESSION_METHODS,
@@ -32,7 +33,7 @@ const scope = self as unknown as {
   onmessage: ((e: MessageEvent<RequestMessage>) => void) | null;
 };
 
-const session = new ReaderSession(new IdbCheckpointStore<RunMeta>({ dbName: 'spanwright-checkpoints' }));
+const session = new ReaderSession(new IdbCheckpointStore<RunMeta>({ dbName: 'spanwright-checkpoints' }), { jobProgram });
 
 function post(message: WorkerMessage, transfer: Transferable[] = []): void {
   scope.postMessage(message, transfer);
@@ -86,7 +87,7 @@ async function handle(request: EngineRequest): Promise<{ result: EngineResults[R
   const result = (await method.call(session, withCallbacks(request))) as EngineResults[RequestKind];
   // each buffer once: two files may be views of one buffer
   const transfer: Transferable[] =
-    request.kind === 'export' || request.kind === 'export-checkpoint'
+    request.kind === 'export' || request.kind === 'export-checkpoint' || request.kind === 'torch-job'
       ? [...new Set((result as EngineResults['export']).files.map((f) => f.bytes.buffer as ArrayBuffer))]
       : [];
   return { result, transfer };

@@ -40,6 +40,7 @@ export const SESSION_METHODS = {
   ask: 'ask',
   export: 'exportReader',
   'export-checkpoint': 'exportCheckpoint',
+  'torch-job': 'torchJob',
 } as const satisfies Record<string, keyof ReaderSession>;
 
 type SessionKind = keyof typeof SESSION_METHODS;

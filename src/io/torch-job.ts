@@ -1,5 +1,5 @@
 // defines: torchJobFiles, TorchJobRequest, TorchJob, maskedLmJobFiles, MaskedLmJobRequest,
-// JOB_FORMAT, JOB_PATHS, baseWeightsAsIs — the data files of a job folder for PyTorch's
+// JOB_FORMAT, JOB_PATHS, JOB_PROGRAM_FILES, howToRun, baseWeightsAsIs — the data files of a job folder for PyTorch's
 // distributed training (jobs/torch/): the same run the engine would take, handed to
 // torch.distributed when one CPU is not enough. Two kinds: fine-tuning on labelled
 // questions (torchJobFiles, `spanwright job`) and masked-LM pretraining on packed rows
@@ -49,6 +49,13 @@ export const JOB_PATHS = {
   rows: 'rows',
   order: 'order.safetensors',
 } as const;
+
+/**
+ * The program's files (jobs/torch/), beside job.json in every job folder. The CLI reads
+ * them from the installation (src/cli/commands/job.ts jobProgramFiles), the workbench's
+ * worker has them in its bundle (workers/job-program.ts); both give this list.
+ */
+export const JOB_PROGRAM_FILES = ['train_reader.py', 'reader_model.py', 'job_files.py', 'masking.py'] as const;
 
 /** Packed rows per shard file of a masked-LM job: 65 536 rows of 128 tokens are 32 MiB. */
 export const ROWS_PER_SHARD = 65_536;
@@ -230,4 +237,25 @@ export function baseWeightsAsIs(config: ReaderConfig, stored: { tensors: NamedTe
   const missing = [...parameterShapes(config).keys()].filter((name) => !stored.tensors.has(name));
   if (missing.length === 0) return null;
   return `it has no tensor named ${missing.slice(0, 3).join(', ')}${missing.length > 3 ? ', …' : ''}; the weights the engine starts from are written instead`;
+}
+
+/** A job folder's README.txt: the two ways to run it, then `back` (the way back into Spanwright). */
+export function howToRun(back: readonly string[]): string {
+  return [
+    'A Spanwright job for PyTorch (torch.distributed). Run it from this folder:',
+    '',
+    '  CPU processes on one machine (gloo), e.g. 2:',
+    '    torchrun --standalone --nproc_per_node 2 train_reader.py',
+    "  (Debian's torch 1.13 on Python 3.11: add --redirects 1 --tee 1 after torchrun,",
+    '   or its launcher fails reading the default "0")',
+    '',
+    '  one process per GPU on a node (nccl), e.g. 8:',
+    '    torchrun --standalone --nproc_per_node 8 train_reader.py --device cuda',
+    '',
+    '  --resume continues from the newest checkpoint in checkpoints/.',
+    '',
+    'Back in Spanwright, model/ is a model directory:',
+    ...back,
+    '',
+  ].join('\n');
 }

@@ -8,12 +8,14 @@
 //            (practice questions from the user's passages), or the base itself
 //   tuned    the reader of the last fine-tuning run, or a restored checkpoint
 // and offers: loadBase, measure, timeSteps, previewPractice, practice, fineTune, halt,
-// the checkpoint use-cases, learningCurve, cancelCurve, evaluate, ask, exportReader.
+// the checkpoint use-cases, learningCurve, cancelCurve, evaluate, ask, exportReader,
+// torchJob (a job folder for PyTorch's distributed training).
 // Each takes one plain-data argument (plus callbacks for progress) and returns plain
 // data (types.ts), so the worker maps messages to methods one to one.
 //
 // Window settings are resolved against the reader in one place (windows.ts); a training
 // config's own three window fields are resolved the same way before a run.
+import { hashDataset } from '../data/hash.js';
 import { mulberry32, shuffleInPlace } from '../data/random.js';
 import type { QARecord } from '../data/record.js';
 import { evaluateRecords, predictRecords, readerWindows } from '../eval/evaluate.js';
@@ -22,11 +24,13 @@ import { lexicalBaselineScores } from '../eval/lexical-baseline.js';
 import { applyNoAnswerThreshold, evaluate, findBestThresholds, goldFromRecords, type SquadScores } from '../eval/squad-metric.js';
 import { loadCheckpointDir } from '../io/checkpoint-dir.js';
 import type { CheckpointStore, CheckpointSummary, StoreUsage } from '../io/checkpoint-store.js';
-import { exportModel } from '../io/export.js';
+import { exportModel, type ExportFile } from '../io/export.js';
 import { quantizeModel } from '../io/int8.js';
 import { int8AccuracyCost, measureInt8Drift } from '../io/int8-check.js';
 import type { ModelCardInfo } from '../io/model-card.js';
-import { paramCount, type QuestionMatch, type ReaderConfig } from '../model/config.js';
+import { namedToSafetensors } from '../io/safetensors.js';
+import { baseWeightsAsIs, howToRun, JOB_PATHS, torchJobFiles } from '../io/torch-job.js';
+import { configToHf, paramCount, type QuestionMatch, type ReaderConfig } from '../model/config.js';
 import { ReaderParams } from '../model/params.js';
 import { withQuestionMatch } from '../model/question-match.js';
 import { makePracticeQuestions, type PracticeOptions, type PracticePassage } from '../practice/generate.js';
@@ -34,7 +38,7 @@ import { Bm25Index } from '../retrieve/bm25.js';
 import { combineScores } from '../retrieve/combine.js';
 import { FeatureBuilder } from '../text/features.js';
 import type { WordPieceTokenizer } from '../text/wordpiece.js';
-import type { TrainConfig } from '../train/config.js';
+import { trainConfig, type TrainConfig } from '../train/config.js';
 import { fineTune, type RunMeta, type RunStage } from '../train/finetune.js';
 import type { LoopEvent } from '../train/loop.js';
 import type {
@@ -55,6 +59,7 @@ import type {
   QuestionView,
   RecordLength,
   StepTiming,
+  TorchJobFolder,
   TrainEnded,
 } from './types.js';
 import { checkpointLabel, stageLabel } from './labels.js';
@@ -73,6 +78,20 @@ interface BaseReader extends SessionReader {
   vocab: { file: 'vocab.txt' | 'tokenizer.json'; text: string };
   /** parameters the checkpoint lacked (initialised afresh); left out of exports when MLM */
   missing: string[];
+  /** the base directory's files as they were given, for job folders (torchJob) */
+  directory: ExportFile[];
+  /** why its model.safetensors cannot go into a job folder as it is (baseWeightsAsIs); null when it can */
+  weightsNotAsIs: string | null;
+}
+
+/** What a session is given besides its store. */
+export interface SessionOptions {
+  /**
+   * The job program's files (jobs/torch/, JOB_PROGRAM_FILES in src/io/torch-job.ts) for
+   * torchJob: the CLI reads them from the installation, the workbench's worker has them
+   * in its bundle (workers/job-program.ts). Without it the session writes no job folder.
+   */
+  jobProgram?: () => ExportFile[] | Promise<ExportFile[]>;
 }
 
 /** Progress hooks of a training use-case; the worker posts them, the CLI prints them. */
@@ -182,7 +201,10 @@ export class ReaderSession {
   private curve: { curveId: string; cancel: boolean; ended: Promise<void> } | null = null;
 
   /** `store` keeps checkpoints (IndexedDB in the browser, a folder for the CLI); none = no checkpoints */
-  constructor(private readonly store: CheckpointStore<RunMeta> | null = null) {}
+  constructor(
+    private readonly store: CheckpointStore<RunMeta> | null = null,
+    private readonly options: SessionOptions = {},
+  ) {}
 
   // ---- readers --------------------------------------------------------------------
 
@@ -231,8 +253,17 @@ export class ReaderSession {
     return this.tunedReader !== null;
   }
 
-  /** Makes these files the base reader; the start and fine-tuned readers go. */
-  loadBase(args: { name: string; files: ModelFiles; names?: { config: string; weights: string; vocab: string } }): BaseInfo {
+  /**
+   * Makes these files the base reader; the start and fine-tuned readers go. `directory`
+   * is every file of the base's folder as bytes, which job folders copy (the CLI's); by
+   * default the three of `files`.
+   */
+  loadBase(args: {
+    name: string;
+    files: ModelFiles;
+    names?: { config: string; weights: string; vocab: string };
+    directory?: ExportFile[];
+  }): BaseInfo {
     const names = args.names ?? {
       config: `${args.name}/config.json`,
       weights: `${args.name}/model.safetensors`,
@@ -247,6 +278,12 @@ export class ReaderSession {
       tokenizer: loaded.tokenizer,
       vocab: loaded.vocab,
       missing: loaded.report.missing,
+      directory: args.directory ?? [
+        { name: 'config.json', bytes: new TextEncoder().encode(args.files.configJson) },
+        { name: 'model.safetensors', bytes: args.files.safetensors },
+        { name: args.files.vocab.file, bytes: new TextEncoder().encode(args.files.vocab.text) },
+      ],
+      weightsNotAsIs: baseWeightsAsIs(loaded.config, loaded),
     };
     return {
       name: args.name,
@@ -1070,6 +1107,95 @@ export class ReaderSession {
       card: { ...card, int8 },
     });
     return { files, notes: card.notes ?? [] };
+  }
+
+  /**
+   * A job folder for PyTorch's distributed training (DEVELOPERS.md, "Job folders for
+   * torch.distributed"): the run `fineTune` would take from the start reader on these
+   * questions and settings, as files for the caller to write (the CLI's `job`) or to zip
+   * (the workbench's Export screen):
+   *   1. settings  the config over its defaults, its windows resolved against the start reader
+   *   2. data      questions, windows and job.json (src/io/torch-job.ts torchJobFiles)
+   *   3. base      base/: the base directory's files as loaded, its model.safetensors
+   *                written from the engine's weights when the program cannot read it as it
+   *                is; after a stage before fine-tuning (practice questions, masked-LM,
+   *                word-match types), the start reader as a model directory instead
+   *   4. program   jobs/torch/*.py (SessionOptions.jobProgram), and README.txt with the
+   *                commands, naming `folder`
+   * The bytes returned are the caller's: the base's files are copies.
+   */
+  async torchJob(args: {
+    train: QARecord[];
+    /** copied into the folder for `spanwright eval` afterwards */
+    validation?: QARecord[];
+    config: TrainConfig;
+    /** the folder's path as its user will have it (the CLI's --out, the zip's folder), for README.txt */
+    folder: string;
+    /** job.json's "written" time, ISO 8601 (default now) */
+    now?: string;
+  }): Promise<TorchJobFolder> {
+    if (!this.options.jobProgram) throw new Error('this session has no job program (jobs/torch/) to put into a job folder');
+    if (args.train.length === 0) throw new Error('a job folder needs training questions: add some on the Data screen first');
+    const b = this.base;
+    const from = this.reader('start');
+    const notes: string[] = [];
+    // 1.
+    const config = trainConfig({ ...args.config, ...this.windows(args.config, from, (n) => notes.push(n)).settings });
+    // 2.
+    const staged = from !== b;
+    const why = staged
+      ? `it is ${from.name}, the base after the stages before fine-tuning; the weights the engine starts from are written instead`
+      : b.weightsNotAsIs;
+    const validation = args.validation ?? [];
+    const job = torchJobFiles({
+      base: { name: from.name, config: from.config, tokenizer: from.tokenizer },
+      train: args.train,
+      validation,
+      config,
+      datasetHash: await hashDataset(args.train),
+      baseWeights: why === null ? { copied: true } : { copied: false, why },
+      now: args.now,
+    });
+    // 3.
+    const files: ExportFile[] = [...job.files];
+    const inBase = (name: string) => `${JOB_PATHS.base}/${name}`;
+    const weights = () => ({
+      name: inBase('model.safetensors'),
+      bytes: namedToSafetensors(from.params.toNamed(), { metadata: { format: 'pt' } }),
+    });
+    if (staged) {
+      notes.push(`base/ holds ${from.name}: ${why}`);
+      files.push({ name: inBase('config.json'), bytes: new TextEncoder().encode(`${JSON.stringify(configToHf(from.config), null, 2)}\n`) });
+      files.push(weights());
+      files.push({ name: inBase(b.vocab.file), bytes: new TextEncoder().encode(b.vocab.text) });
+    } else {
+      for (const f of b.directory)
+        if (f.name !== 'model.safetensors' || why === null) files.push({ name: inBase(f.name), bytes: f.bytes.slice() });
+      if (why !== null) {
+        notes.push(`${b.name}/model.safetensors: ${why}`);
+        files.push(weights());
+      }
+    }
+    // 4.
+    files.push(...(await this.options.jobProgram()));
+    const at = (path: string) => `${args.folder.replace(/\/+$/, '')}/${path}`;
+    const back = [
+      `  spanwright eval --model ${at('model')} --data ${validation.length > 0 ? at(JOB_PATHS.validation) : 'YOUR_VALIDATION_FILE'}`,
+      `  spanwright export --model ${at('model')} --out DIR --int8 --onnx`,
+      '  in the workbench: on the Base reader screen, choose the folder model/',
+    ];
+    files.push({ name: 'README.txt', bytes: new TextEncoder().encode(howToRun(back)) });
+    return {
+      files,
+      startsFrom: from.name,
+      baseWeights: why === null ? 'copied' : 'rewritten',
+      config,
+      questions: job.train.length,
+      validation: validation.length,
+      windows: job.windows,
+      updates: job.plan.totalUpdates,
+      notes,
+    };
   }
 
   private disposeReaders(): void {

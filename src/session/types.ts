@@ -205,3 +205,22 @@ export interface ExportResult {
   files: Array<{ name: string; bytes: Uint8Array }>;
   notes: string[];
 }
+
+/** A job folder for PyTorch's distributed training, as ReaderSession.torchJob gives it. */
+export interface TorchJobFolder {
+  /** every file by its path inside the folder (DEVELOPERS.md, "Job folders for torch.distributed") */
+  files: Array<{ name: string; bytes: Uint8Array }>;
+  /** the name of the reader the job trains from (the start reader) */
+  startsFrom: string;
+  /** base/model.safetensors: the base's own bytes, or written from the engine's weights (notes say why) */
+  baseWeights: 'copied' | 'rewritten';
+  /** the run's settings as job.json holds them (windows resolved against the reader) */
+  config: TrainConfig;
+  /** training and validation questions, the training windows and the updates the run takes */
+  questions: number;
+  validation: number;
+  windows: number;
+  updates: number;
+  /** things the user should know (a window cut to the position table, weights rewritten) */
+  notes: string[];
+}

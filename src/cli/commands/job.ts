@@ -2,11 +2,11 @@
 // fine-tuning on PyTorch's distributed training (torchrun, DistributedDataParallel), for
 // when one machine's CPU is not enough: more cores, several machines, or GPUs.
 //
-//   1. load     the base directory and the question files, as `train` does
-//   2. settle   the train config from the same options as `train`, its windows resolved
-//               against the base (src/session/windows.ts)
-//   3. build    questions, windows and settings (src/io/torch-job.ts)
-//   4. write    those, the base directory (copied), and the program (jobs/torch/*.py)
+//   1. settle   the train config from the same options as `train`, and the two of its own
+//   2. load     the base directory (every file of it) and the question files, as `train` does
+//   3. build    the folder's files: ReaderSession.torchJob (src/session), which the
+//               workbench's Export screen calls too, so both write the same folder
+//   4. write    them, all or nothing, into a new or empty folder
 //
 // The folder's layout and the program's contract: DEVELOPERS.md, "Job folders for
 // torch.distributed". What comes back — <job>/model — is a model directory that `eval`,
@@ -16,16 +16,16 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { Command } from 'commander';
 import { UserError, printJson, runCommand } from '../common.js';
-import { loadRecords, readModelDir, startEngine, writeFilesAtomically } from '../model-dir.js';
-import { hashDataset } from '../../data/hash.js';
-import { trainConfig, type TrainConfig } from '../../train/config.js';
-import { resolveWindows } from '../../session/windows.js';
+import { loadRecords, readModelDir, startEngine, writeFilesAtomically } from '../../node/model-dir.js';
+import type { TrainConfig } from '../../train/config.js';
 import { configFromOptions, DEFAULT_BASE, type TrainOptions } from './train.js';
 import type { ExportFile } from '../../io/export.js';
+import { JOB_PATHS, JOB_PROGRAM_FILES } from '../../io/torch-job.js';
+
+export { howToRun } from '../../io/torch-job.js';
 
 /** The program's files, shipped in the repository and copied into every job folder. */
 const PROGRAM_DIR = fileURLToPath(new URL('../../../jobs/torch/', import.meta.url));
-export const PROGRAM_FILES = ['train_reader.py', 'reader_model.py', 'job_files.py', 'masking.py'] as const;
 
 export interface JobOptions extends Pick<
   TrainOptions,
@@ -47,106 +47,79 @@ export interface WrittenJob {
 
 /** Steps 1–4. */
 export async function writeTorchJob(o: JobOptions, log: (line: string) => void): Promise<WrittenJob> {
-  // 2a. the settings beside the windows: what `train` would use, with the two this command adds
-  const overrides: Partial<TrainConfig> = { ...configFromOptions(o as TrainOptions) };
+  // 1. what `train` would use, with the two settings this command adds
+  const config: TrainConfig = { ...configFromOptions(o as TrainOptions) };
   if (o.dropout !== undefined) {
     const d = Number(o.dropout);
     if (!(d >= 0 && d < 1)) throw new UserError(`--dropout must be a rate in [0, 1), not "${o.dropout}"`);
-    overrides.dropout = d;
+    config.dropout = d;
   }
   if (o.checkpointEvery !== undefined) {
     const n = Number(o.checkpointEvery);
     if (!Number.isInteger(n) || n < 0)
       throw new UserError(`--checkpoint-every must be a whole number of updates, not "${o.checkpointEvery}"`);
-    overrides.checkpointEvery = n;
+    config.checkpointEvery = n;
   }
   const out = o.out;
   await refuseFilledFolder(out);
 
-  // 1. load
+  // 2. load
   await startEngine();
-  const { readCheckpointDir, loadCheckpointDir } = await import('../../io/checkpoint-dir.js');
-  const { torchJobFiles, baseWeightsAsIs, JOB_PATHS } = await import('../../io/torch-job.js');
-  const { namedToSafetensors } = await import('../../io/safetensors.js');
-  const files = await readModelDir(o.base);
-  let contents;
+  const { ReaderSession } = await import('../../session/reader-session.js');
+  const session = new ReaderSession(null, { jobProgram: jobProgramFiles });
   try {
-    contents = readCheckpointDir(files);
-  } catch (err) {
-    throw new UserError((err as Error).message);
-  }
-  for (const n of contents.notices) log(`note: ${n}`);
-  const train = await loadRecords(o.train, log);
-  const validation = o.eval ? await loadRecords(o.eval, log) : undefined;
-
-  // 2b. windows resolved against the base, as ReaderSession does before every run
-  let config: TrainConfig;
-  try {
-    const resolved = resolveWindows(
-      { maxLength: overrides.maxLength, stride: overrides.stride, maxQueryLength: overrides.maxQueryLength },
-      contents.config,
-    );
-    for (const n of resolved.notes) log(`note: ${n}`);
-    config = trainConfig({ ...overrides, ...resolved.settings });
-  } catch (err) {
-    throw new UserError((err as Error).message);
-  }
-
-  // 3. build; the base's weights copied as they are when the program can read them
-  const why = baseWeightsAsIs(contents.config, contents);
-  const job = torchJobFiles({
-    base: { name: o.base, config: contents.config, tokenizer: contents.tokenizer },
-    train,
-    validation,
-    config,
-    datasetHash: await hashDataset(train),
-    baseWeights: why === null ? { copied: true } : { copied: false, why },
-  });
-  const written: ExportFile[] = [...job.files];
-  for (const name of await readdir(o.base)) {
-    const path = join(o.base, name);
-    if (!(await stat(path)).isFile()) continue;
-    if (name === 'model.safetensors' && why !== null) continue;
-    written.push({ name: `${JOB_PATHS.base}/${name}`, bytes: new Uint8Array(await readFile(path)) });
-  }
-  if (why !== null) {
-    log(`note: ${o.base}/model.safetensors: ${why}`);
-    const loaded = loadCheckpointDir(files, { seed: 0 });
+    const files = await readModelDir(o.base);
     try {
-      written.push({
-        name: `${JOB_PATHS.base}/model.safetensors`,
-        bytes: namedToSafetensors(loaded.params.toNamed(), { metadata: { format: 'pt' } }),
+      const info = session.loadBase({
+        name: o.base,
+        files,
+        names: files.names! as { config: string; weights: string; vocab: string },
+        directory: await folderFiles(o.base, { 'model.safetensors': files.safetensors }),
       });
-    } finally {
-      loaded.params.dispose();
+      for (const n of info.notices) log(`note: ${n}`);
+    } catch (err) {
+      throw new UserError((err as Error).message);
     }
-  }
-  written.push(...(await jobProgramFiles()));
-  written.push({
-    name: 'README.txt',
-    bytes: new TextEncoder().encode(
-      howToRun([
-        validation !== undefined
-          ? `  spanwright eval --model ${join(out, 'model')} --data ${join(out, 'questions/validation.json')}`
-          : `  spanwright eval --model ${join(out, 'model')} --data YOUR_VALIDATION_FILE`,
-        `  spanwright export --model ${join(out, 'model')} --out DIR --int8 --onnx`,
-      ]),
-    ),
-  });
+    const train = await loadRecords(o.train, log);
+    const validation = o.eval ? await loadRecords(o.eval, log) : undefined;
 
-  // 4. write, all or nothing
-  await mkdir(join(out, 'questions'), { recursive: true });
-  await mkdir(join(out, JOB_PATHS.base), { recursive: true });
-  await writeFilesAtomically(out, written);
-  return {
-    out,
-    windows: job.windows,
-    questions: job.train.length,
-    updates: job.plan.totalUpdates,
-    config,
-    baseWeights: why === null ? 'copied' : 'rewritten',
-    files: written.map((f) => f.name),
-  };
+    // 3. build
+    let job;
+    try {
+      job = await session.torchJob({ train, validation, config, folder: out });
+    } catch (err) {
+      if (err instanceof UserError) throw err;
+      throw new UserError((err as Error).message);
+    }
+    for (const n of job.notes) log(`note: ${n}`);
+
+    // 4. write, all or nothing
+    await mkdir(join(out, 'questions'), { recursive: true });
+    await mkdir(join(out, JOB_PATHS.base), { recursive: true });
+    await writeFilesAtomically(out, job.files);
+    return {
+      out,
+      windows: job.windows,
+      questions: job.questions,
+      updates: job.updates,
+      config: job.config,
+      baseWeights: job.baseWeights,
+      files: job.files.map((f) => f.name),
+    };
+  } finally {
+    session.dispose();
+  }
+}
+
+/** Every file of a folder (not its subfolders), by name; `known` gives bytes already read. */
+async function folderFiles(dir: string, known: Record<string, Uint8Array>): Promise<ExportFile[]> {
+  const out: ExportFile[] = [];
+  for (const name of (await readdir(dir)).sort()) {
+    const path = join(dir, name);
+    if (!(await stat(path)).isFile()) continue;
+    out.push({ name, bytes: known[name] ?? new Uint8Array(await readFile(path)) });
+  }
+  return out;
 }
 
 /** A job goes into a new or empty folder: writing over another job's files would mix two runs. */
@@ -164,7 +137,7 @@ export async function refuseFilledFolder(out: string): Promise<void> {
 /** The program's files (jobs/torch/), as they go into a job folder. */
 export async function jobProgramFiles(): Promise<ExportFile[]> {
   const out: ExportFile[] = [];
-  for (const name of PROGRAM_FILES) {
+  for (const name of JOB_PROGRAM_FILES) {
     try {
       out.push({ name, bytes: new Uint8Array(await readFile(join(PROGRAM_DIR, name))) });
     } catch {
@@ -172,27 +145,6 @@ export async function jobProgramFiles(): Promise<ExportFile[]> {
     }
   }
   return out;
-}
-
-/** A job folder's README.txt: the two ways to run it, then `back` (the way back into Spanwright). */
-export function howToRun(back: string[]): string {
-  return [
-    'A Spanwright job for PyTorch (torch.distributed). Run it from this folder:',
-    '',
-    '  CPU processes on one machine (gloo), e.g. 2:',
-    '    torchrun --standalone --nproc_per_node 2 train_reader.py',
-    "  (Debian's torch 1.13 on Python 3.11: add --redirects 1 --tee 1 after torchrun,",
-    '   or its launcher fails reading the default "0")',
-    '',
-    '  one process per GPU on a node (nccl), e.g. 8:',
-    '    torchrun --standalone --nproc_per_node 8 train_reader.py --device cuda',
-    '',
-    '  --resume continues from the newest checkpoint in checkpoints/.',
-    '',
-    'Back in Spanwright, model/ is a model directory:',
-    ...back,
-    '',
-  ].join('\n');
 }
 
 export function register(program: Command): void {
