@@ -6,7 +6,7 @@
 #   safetensors     8-byte little-endian header length, the JSON header ({name: {dtype,
 #                   shape, data_offsets}}, "__metadata__" of strings), padded with spaces
 #                   to 8 bytes, then the data section (src/io/safetensors.ts)
-#   checkpoints     one pair per id in <out>/checkpoints (src/cli/fs-store.ts):
+#   checkpoints     one pair per id in <out>/checkpoints (src/node/fs-store.ts):
 #                   <id>.safetensors  weights under their own names, AdamW moments under
 #                                     "adam.m.<name>" / "adam.v.<name>", the meta JSON under
 #                                     "spanwright.checkpoint" and the per-parameter step

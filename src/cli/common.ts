@@ -1,18 +1,10 @@
-// defines: UserError, runCommand, readTextFile, printJson — what every CLI command shares:
-// errors that reach the user as one clear line (a stack trace only with --debug), and
-// JSON output as the last line on stdout.
-import { readFile, stat } from 'node:fs/promises';
+// defines: runCommand, printJson, and UserError and readBytes from the Node layer
+// (src/node/) — what every CLI command shares: errors that reach the user as one clear
+// line (a stack trace only with --debug), and JSON output as the last line on stdout.
+import { UserError } from '../node/user-error.js';
 
-/** An error caused by the user's input or options: printed without a stack trace. */
-export class UserError extends Error {
-  constructor(
-    message: string,
-    readonly exitCode = 1,
-  ) {
-    super(message);
-    this.name = 'UserError';
-  }
-}
+export { UserError };
+export { readBytes } from '../node/read-files.js';
 
 let debug = false;
 
@@ -42,27 +34,6 @@ export async function runCommand(body: () => Promise<number | void>): Promise<vo
       process.exitCode = 2;
     }
     if (debug && e.stack) process.stderr.write(`${e.stack}\n`);
-  }
-}
-
-/** Reads a whole file as bytes, with a user-facing error naming the file when it cannot. */
-export async function readBytes(path: string): Promise<Uint8Array> {
-  try {
-    const buffer = await readFile(path);
-    // a view of Node's buffer, not a copy of it: a copy holds the file twice at its peak
-    return new Uint8Array(buffer.buffer, buffer.byteOffset, buffer.byteLength);
-  } catch (err) {
-    const code = (err as NodeJS.ErrnoException).code;
-    if (code === 'ENOENT') throw new UserError(`${path}: no such file`);
-    if (code === 'EISDIR') throw new UserError(`${path}: is a folder, not a file`);
-    if (code === 'ERR_FS_FILE_TOO_LARGE') {
-      const size = await stat(path).then(
-        (s) => `${(s.size / 1e9).toFixed(1)} GB`,
-        () => 'over 2 GiB',
-      );
-      throw new UserError(`${path}: the file is ${size}, more than Node reads into memory at once (2 GiB); split it into smaller files`);
-    }
-    throw new UserError(`${path}: cannot read (${code ?? (err as Error).message})`);
   }
 }
 

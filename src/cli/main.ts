@@ -2,7 +2,7 @@
 // exports `register(program)`; this file only wires them together.
 import { Command, InvalidArgumentError } from 'commander';
 import { setDebug } from './common.js';
-import { setThreadsOption } from './kernel-threads.js';
+import { setThreadsOption } from '../node/kernel-threads.js';
 import { commands } from './commands/index.js';
 
 // `spanwright inspect … | head`: when the reader of our output goes away, stop quietly (what

@@ -8,7 +8,7 @@ import { mkdir, open, readFile, rm } from 'node:fs/promises';
 import { hostname } from 'node:os';
 import { join } from 'node:path';
 import { UserError } from './common.js';
-import { writeErrorMessage } from './write-files.js';
+import { writeErrorMessage } from '../node/write-files.js';
 
 export const LOCK_FILE = '.spanwright-lock';
 

@@ -52,7 +52,7 @@ export const JOB_PATHS = {
 
 /**
  * The program's files (jobs/torch/), beside job.json in every job folder. The CLI reads
- * them from the installation (src/cli/commands/job.ts jobProgramFiles), the workbench's
+ * them from the installation (src/node/job-folder.ts jobProgramFiles), the workbench's
  * worker has them in its bundle (workers/job-program.ts); both give this list.
  */
 export const JOB_PROGRAM_FILES = ['train_reader.py', 'reader_model.py', 'job_files.py', 'masking.py'] as const;

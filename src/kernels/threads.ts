@@ -19,7 +19,7 @@
 // This module is isomorphic: the host starts the threads. useKernelThreads takes a
 // function that starts helper number i — a nested Web Worker running
 // workers/kernel-thread.ts in the browser, a worker_threads Worker in Node
-// (src/cli/kernel-threads.ts) — and posts it a KernelThreadStart, which it passes to
+// (src/node/kernel-threads.ts) — and posts it a KernelThreadStart, which it passes to
 // runKernelThread. Helpers come up asynchronously; until they do, jobs run on fewer
 // threads (a task nobody else claims is done by the caller), never wrongly.
 

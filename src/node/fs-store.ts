@@ -1,4 +1,4 @@
-// defines: FsCheckpointStore — checkpoints as files in one folder, for the CLI.
+// defines: FsCheckpointStore — checkpoints as files in one folder, for the CLI and the recipe.
 //
 // Layout of the folder (one pair of files per checkpoint id):
 //   <id>.safetensors   the blob: weights and optimizer moments, meta in __metadata__

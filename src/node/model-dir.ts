@@ -1,11 +1,12 @@
 // defines: readModelDir, loadReader, writeFilesAtomically, loadRecords, startEngine — what
-// the CLI commands share on the Node side: reading a model directory and a question file
-// from disk, writing output files so an interruption leaves no half file, and starting
-// the wasm engine with its fast kernels.
+// the CLI commands and the recipe share on the Node side: reading a model directory and a
+// question file from disk, writing output files so an interruption leaves no half file,
+// and starting the wasm engine with its fast kernels.
 import { readFile, readdir } from 'node:fs/promises';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
-import { UserError, readBytes } from './common.js';
+import { readBytes } from './read-files.js';
+import { UserError } from './user-error.js';
 import { loadDataset } from '../data/load.js';
 import type { QARecord } from '../data/record.js';
 import type { CheckpointDirFiles } from '../io/checkpoint-dir.js';

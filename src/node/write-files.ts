@@ -1,13 +1,14 @@
 // defines: writeFileAtomically, writePathsAtomically, writeFilesAtomically,
-// writeErrorMessage — how the CLI puts files on disk: each written under a hidden
-// temporary name beside its target, flushed, then renamed over the target (atomic within
-// one file system on POSIX), so an interruption never leaves half a file under its name;
-// a failed write removes its temporary file and says which file could not be written,
-// how large it was, and why in words ("the disk is full"), not an internal error code alone.
+// writeErrorMessage — how the CLI and the recipe put files on disk: each written under a
+// hidden temporary name beside its target, flushed, then renamed over the target (atomic
+// within one file system on POSIX), so an interruption never leaves half a file under its
+// name; a failed write removes its temporary file and says which file could not be
+// written, how large it was, and why in words ("the disk is full"), not an internal error
+// code alone.
 import { randomBytes } from 'node:crypto';
 import { mkdir, open, rename, rm, statfs } from 'node:fs/promises';
 import { basename, dirname, join } from 'node:path';
-import { UserError } from './common.js';
+import { UserError } from './user-error.js';
 
 const REASONS: Record<string, string> = {
   ENOSPC: 'the disk is full',

@@ -37,7 +37,7 @@ import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import * as tf from '@tensorflow/tfjs';
 import '@tensorflow/tfjs-backend-wasm';
-import { startKernelThreads } from '../../src/cli/kernel-threads.js';
+import { startKernelThreads } from '../../src/node/kernel-threads.js';
 import { setJobSharing } from '../../src/kernels/jobs.js';
 import { registerFastKernels, registerKernelFixes, restoreStockKernels } from '../../src/kernels/register.js';
 import { kernelPoolFor, kernelThreadCount, setKernelThreads } from '../../src/kernels/threads.js';

@@ -11,7 +11,7 @@
 
 import * as tf from '@tensorflow/tfjs';
 import '@tensorflow/tfjs-backend-wasm';
-import { startKernelThreads } from '../../src/cli/kernel-threads.js';
+import { startKernelThreads } from '../../src/node/kernel-threads.js';
 import { registerFastKernels } from '../../src/kernels/register.js';
 import { presetConfig } from '../../src/model/config.js';
 import { ReaderParams } from '../../src/model/params.js';

@@ -34,9 +34,9 @@ vi.mock('node:fs/promises', async (importOriginal) => {
   return { ...real, open, default: { ...real, open } };
 });
 
-const { writeFileAtomically, writeFilesAtomically, writePathsAtomically } = await import('../../src/cli/write-files.js');
+const { writeFileAtomically, writeFilesAtomically, writePathsAtomically } = await import('../../src/node/write-files.js');
 const { lockOutputFolder, LOCK_FILE } = await import('../../src/cli/out-lock.js');
-const { FsCheckpointStore } = await import('../../src/cli/fs-store.js');
+const { FsCheckpointStore } = await import('../../src/node/fs-store.js');
 const { sampleCheckpoint } = await import('../io/checkpoint-store-suite.js');
 
 const dir = mkdtempSync(join(tmpdir(), 'spanwright-full-'));

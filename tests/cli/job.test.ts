@@ -40,7 +40,7 @@ import { join } from 'node:path';
 import { promisify } from 'node:util';
 import * as tf from '@tensorflow/tfjs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { FsCheckpointStore } from '../../src/cli/fs-store.js';
+import { FsCheckpointStore } from '../../src/node/fs-store.js';
 import { loadDataset, writeDataset } from '../../src/data/load.js';
 import type { QARecord } from '../../src/data/record.js';
 import { loadCheckpointDir, readCheckpointDir, type CheckpointDirFiles } from '../../src/io/checkpoint-dir.js';

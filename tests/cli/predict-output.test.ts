@@ -1,4 +1,4 @@
-// `predict` writes its files as every CLI output is written (src/cli/write-files.ts): a
+// `predict` writes its files as every CLI output is written (src/node/write-files.ts): a
 // write that fails names the file and the reason, exits 1 without "internal error", keeps
 // an earlier predictions file whole, and leaves no temporary file. The failures here are
 // real ones (a missing folder); the full-disk case is tests/cli/full-disk.test.ts.

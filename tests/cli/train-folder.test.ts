@@ -2,7 +2,7 @@
 // another living run holds is refused before anything is written; a lock left by a killed
 // run is taken over with a note; what a killed checkpoint save left (a temporary blob, a
 // blob without its summary) is swept when the run takes the folder. Unit tests of the
-// lock and the sweep: tests/cli/out-lock.test.ts, tests/cli/write-files.test.ts.
+// lock and the sweep: tests/cli/out-lock.test.ts, tests/node/write-files.test.ts.
 import { execFile, spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { hostname, tmpdir } from 'node:os';

@@ -8,7 +8,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { deleteDB, openDB } from 'idb';
 import { afterEach, describe, expect, it } from 'vitest';
-import { FsCheckpointStore } from '../../src/cli/fs-store.js';
+import { FsCheckpointStore } from '../../src/node/fs-store.js';
 import { CheckpointError, choosePrunable, decodeCheckpoint, encodeCheckpoint, META_KEY, sha256Hex } from '../../src/io/checkpoint-store.js';
 import { namedToSafetensors } from '../../src/io/safetensors.js';
 import { IdbCheckpointStore } from '../../src/io/idb-store.js';

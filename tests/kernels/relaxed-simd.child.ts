@@ -4,7 +4,7 @@
 // the relaxed-SIMD and the SIMD128 builds, and the relaxed build on 1 and 2 threads, over
 // shared test heaps (SharedHeapBackend), and prints one JSON line of their outputs'
 // differences for the test to judge.
-import { startKernelThreads } from '../../src/cli/kernel-threads.js';
+import { startKernelThreads } from '../../src/node/kernel-threads.js';
 import { fusedAttentionConfig, fusedAttentionGradConfig } from '../../src/kernels/attention.js';
 import { setJobSharing } from '../../src/kernels/jobs.js';
 import { batchMatMulConfig } from '../../src/kernels/matmul.js';

@@ -12,7 +12,7 @@
 
 import * as tf from '@tensorflow/tfjs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { startKernelThreads } from '../../src/cli/kernel-threads.js';
+import { startKernelThreads } from '../../src/node/kernel-threads.js';
 import { setJobSharing } from '../../src/kernels/jobs.js';
 import { kernelPoolFor, setKernelThreads, stopKernelThreads } from '../../src/kernels/threads.js';
 import type { WasmBackendLike } from '../../src/kernels/wasm-module.js';

@@ -17,7 +17,7 @@
 
 import * as tf from '@tensorflow/tfjs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { startKernelThreads } from '../../src/cli/kernel-threads.js';
+import { startKernelThreads } from '../../src/node/kernel-threads.js';
 import { adamwUpdate } from '../../src/kernels/adamw-update.js';
 import { attention, fusedAttentionConfig, fusedAttentionGradConfig } from '../../src/kernels/attention.js';
 import { dropout } from '../../src/kernels/dropout.js';

@@ -1,12 +1,12 @@
-// How the CLI writes files (src/cli/write-files.ts) and sweeps what a killed save left
+// How the CLI and the recipe write files (src/node/write-files.ts) and sweeps what a killed save left
 // (FsCheckpointStore.sweepOrphans): all-or-nothing folders, no temporary file left behind,
 // and a failure that names the file, its size and the reason in words.
 import { mkdtempSync, mkdirSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
-import { FsCheckpointStore } from '../../src/cli/fs-store.js';
-import { writeErrorMessage, writeFileAtomically, writeFilesAtomically } from '../../src/cli/write-files.js';
+import { FsCheckpointStore } from '../../src/node/fs-store.js';
+import { writeErrorMessage, writeFileAtomically, writeFilesAtomically } from '../../src/node/write-files.js';
 
 const dir = mkdtempSync(join(tmpdir(), 'spanwright-write-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));

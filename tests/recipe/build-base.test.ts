@@ -10,7 +10,7 @@ import { mkdtempSync, readFileSync, readdirSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { FsCheckpointStore } from '../../src/cli/fs-store.js';
+import { FsCheckpointStore } from '../../src/node/fs-store.js';
 import { readSafetensors } from '../../src/io/safetensors.js';
 import { configFromHf } from '../../src/model/config.js';
 import { ReaderParams } from '../../src/model/params.js';

@@ -7,7 +7,7 @@ import { mkdtemp, readFile, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { FsCheckpointStore } from '../../src/cli/fs-store.js';
+import { FsCheckpointStore } from '../../src/node/fs-store.js';
 import { mulberry32 } from '../../src/data/random.js';
 import type { QARecord } from '../../src/data/record.js';
 import { loadCheckpointDir } from '../../src/io/checkpoint-dir.js';

@@ -39,7 +39,7 @@ import { mkdirSync, readFileSync, existsSync, writeFileSync, appendFileSync, sta
 import { dirname, join, relative, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import * as tf from '@tensorflow/tfjs';
-import { FsCheckpointStore } from '../../src/cli/fs-store.js';
+import { FsCheckpointStore } from '../../src/node/fs-store.js';
 import { sha256Hex, type CheckpointMeta } from '../../src/io/checkpoint-store.js';
 import { namedToSafetensors, readSafetensors } from '../../src/io/safetensors.js';
 import type { NamedTensors } from '../../src/io/tensors.js';
@@ -777,9 +777,9 @@ async function finish(s: RecipeSettings, data: Prepared, meta: PretrainMeta, par
 async function writeMaskedLmJob(args: Args, data: Prepared): Promise<void> {
   const s = args.settings;
   const job = args.job!;
-  const { maskedLmJobFiles } = await import('../../src/io/torch-job.js');
-  const { howToRun, jobProgramFiles, refuseFilledFolder } = await import('../../src/cli/commands/job.js');
-  const { writeFilesAtomically } = await import('../../src/cli/write-files.js');
+  const { howToRun, maskedLmJobFiles } = await import('../../src/io/torch-job.js');
+  const { jobProgramFiles, refuseFilledFolder } = await import('../../src/node/job-folder.js');
+  const { writeFilesAtomically } = await import('../../src/node/write-files.js');
   await refuseFilledFolder(job.dir);
   const config = modelConfig(s, data.vocab.length);
   const params =

@@ -20,8 +20,8 @@
 //                 for a folder written before), SQuAD 2.0 rules, into reading-stage.json
 import { mkdirSync, readFileSync, writeFileSync, existsSync, copyFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { FsCheckpointStore } from '../../src/cli/fs-store.js';
-import { readModelDir, startEngine } from '../../src/cli/model-dir.js';
+import { FsCheckpointStore } from '../../src/node/fs-store.js';
+import { readModelDir, startEngine } from '../../src/node/model-dir.js';
 import { namedToSafetensors } from '../../src/io/safetensors.js';
 import { configToHf } from '../../src/model/config.js';
 import type { PracticePassage } from '../../src/practice/generate.js';

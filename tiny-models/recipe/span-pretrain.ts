@@ -19,8 +19,8 @@
 // (Glass et al. 2020) and word-lookup stages were not learnt in the time they were given.
 import { copyFileSync, existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { FsCheckpointStore } from '../../src/cli/fs-store.js';
-import { loadReader, startEngine } from '../../src/cli/model-dir.js';
+import { FsCheckpointStore } from '../../src/node/fs-store.js';
+import { loadReader, startEngine } from '../../src/node/model-dir.js';
 import { hashDataset } from '../../src/data/hash.js';
 import { evaluateRecords } from '../../src/eval/evaluate.js';
 import { namedToSafetensors } from '../../src/io/safetensors.js';

@@ -7,7 +7,7 @@
 import { fileURLToPath } from 'node:url';
 import * as tf from '@tensorflow/tfjs';
 import { setWasmPaths } from '@tensorflow/tfjs-backend-wasm';
-import { startKernelThreads } from '../../src/cli/kernel-threads.js';
+import { startKernelThreads } from '../../src/node/kernel-threads.js';
 import { registerFastKernels } from '../../src/kernels/register.js';
 
 export async function useWasm(): Promise<void> {

@@ -6,7 +6,7 @@ import { readdir, stat } from 'node:fs/promises';
 import { basename, join } from 'node:path';
 import type { Command } from 'commander';
 import { UserError, printJson, readBytes, runCommand } from '../common.js';
-import { readModelDir, startEngine } from '../model-dir.js';
+import { readModelDir, startEngine } from '../../node/model-dir.js';
 import { decodeText } from '../../data/decode.js';
 import type { Passage } from '../../retrieve/bm25.js';
 import { CAUTION } from '../../io/model-card.js';

@@ -1,7 +1,7 @@
 // defines: the `check` command — reads a question file, reports every problem with its
 // file, record and field, and optionally writes the repaired records that passed.
 // Exit code 1 when there are errors, 0 otherwise.
-import { writeFileAtomically } from '../write-files.js';
+import { writeFileAtomically } from '../../node/write-files.js';
 import { resolve } from 'node:path';
 import type { Command } from 'commander';
 import cliProgress from 'cli-progress';
@@ -114,7 +114,7 @@ function cleanFormatOf(out: string, input: string): DataFormat {
   return f;
 }
 
-/** Write beside the target, then rename (src/cli/write-files.ts): a failure leaves no temporary file behind. */
+/** Write beside the target, then rename (src/node/write-files.ts): a failure leaves no temporary file behind. */
 async function writeAtomically(path: string, text: string): Promise<void> {
   try {
     await writeFileAtomically(path, text);

@@ -3,8 +3,8 @@
 // threshold), or the id → answer map that `score` reads.
 import type { Command } from 'commander';
 import { UserError, printJson, runCommand } from '../common.js';
-import { loadRecords, readModelDir, startEngine } from '../model-dir.js';
-import { writePathsAtomically } from '../write-files.js';
+import { loadRecords, readModelDir, startEngine } from '../../node/model-dir.js';
+import { writePathsAtomically } from '../../node/write-files.js';
 import { countProgress } from '../progress.js';
 import { readerWarnings } from '../../eval/reader-warnings.js';
 import { scoresObject, scoresTable } from '../scores.js';
@@ -109,7 +109,7 @@ export function register(program: Command): void {
           session.dispose();
         }
         // both files or neither, under temporary names first: a full disk names the file and
-        // leaves an earlier predictions file as it was (src/cli/write-files.ts)
+        // leaves an earlier predictions file as it was (src/node/write-files.ts)
         await writePathsAtomically([
           { path: o.out!, bytes: `${JSON.stringify(decoded.predictions, null, 1)}\n` },
           ...(o.naProb ? [{ path: o.naProb, bytes: `${JSON.stringify(decoded.scoreDiffs, null, 1)}\n` }] : []),

@@ -6,7 +6,7 @@ import { mkdir, readdir } from 'node:fs/promises';
 import { basename, resolve } from 'node:path';
 import type { Command } from 'commander';
 import { UserError, printJson, runCommand } from '../common.js';
-import { readModelDir, writeFilesAtomically } from '../model-dir.js';
+import { readModelDir, writeFilesAtomically } from '../../node/model-dir.js';
 import type { ModelCardInfo } from '../../io/model-card.js';
 
 interface ExportOptions {

@@ -13,19 +13,16 @@
 // `export` and the workbench read.
 import { mkdir, readFile, readdir, stat } from 'node:fs/promises';
 import { join } from 'node:path';
-import { fileURLToPath } from 'node:url';
 import type { Command } from 'commander';
 import { UserError, printJson, runCommand } from '../common.js';
 import { loadRecords, readModelDir, startEngine, writeFilesAtomically } from '../../node/model-dir.js';
 import type { TrainConfig } from '../../train/config.js';
 import { configFromOptions, DEFAULT_BASE, type TrainOptions } from './train.js';
 import type { ExportFile } from '../../io/export.js';
-import { JOB_PATHS, JOB_PROGRAM_FILES } from '../../io/torch-job.js';
+import { JOB_PATHS } from '../../io/torch-job.js';
+import { jobProgramFiles, refuseFilledFolder } from '../../node/job-folder.js';
 
 export { howToRun } from '../../io/torch-job.js';
-
-/** The program's files, shipped in the repository and copied into every job folder. */
-const PROGRAM_DIR = fileURLToPath(new URL('../../../jobs/torch/', import.meta.url));
 
 export interface JobOptions extends Pick<
   TrainOptions,
@@ -118,31 +115,6 @@ async function folderFiles(dir: string, known: Record<string, Uint8Array>): Prom
     const path = join(dir, name);
     if (!(await stat(path)).isFile()) continue;
     out.push({ name, bytes: known[name] ?? new Uint8Array(await readFile(path)) });
-  }
-  return out;
-}
-
-/** A job goes into a new or empty folder: writing over another job's files would mix two runs. */
-export async function refuseFilledFolder(out: string): Promise<void> {
-  let names: string[];
-  try {
-    names = await readdir(out);
-  } catch (err) {
-    if ((err as NodeJS.ErrnoException).code === 'ENOENT') return;
-    throw new UserError(`${out}: cannot be read as a folder (${(err as NodeJS.ErrnoException).code ?? (err as Error).message})`);
-  }
-  if (names.length > 0) throw new UserError(`${out}: the folder is not empty; a job folder is written into a new or empty folder`);
-}
-
-/** The program's files (jobs/torch/), as they go into a job folder. */
-export async function jobProgramFiles(): Promise<ExportFile[]> {
-  const out: ExportFile[] = [];
-  for (const name of JOB_PROGRAM_FILES) {
-    try {
-      out.push({ name, bytes: new Uint8Array(await readFile(join(PROGRAM_DIR, name))) });
-    } catch {
-      throw new UserError(`${join(PROGRAM_DIR, name)}: the job program is missing from this installation`);
-    }
   }
   return out;
 }

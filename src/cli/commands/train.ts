@@ -11,7 +11,7 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Command } from 'commander';
 import { UserError, printJson, runCommand } from '../common.js';
-import { loadRecords, readModelDir, startEngine, writeFilesAtomically } from '../model-dir.js';
+import { loadRecords, readModelDir, startEngine, writeFilesAtomically } from '../../node/model-dir.js';
 import { countProgress, trainingProgress } from '../progress.js';
 import { readerWarnings } from '../../eval/reader-warnings.js';
 import { scoresObject, scoresTable } from '../scores.js';
@@ -245,7 +245,7 @@ export async function trainReader(
   const started = performance.now();
   await startEngine();
   const { ReaderSession } = await import('../../session/reader-session.js');
-  const { FsCheckpointStore } = await import('../fs-store.js');
+  const { FsCheckpointStore } = await import('../../node/fs-store.js');
   const { lockOutputFolder } = await import('../out-lock.js');
   const store = new FsCheckpointStore<RunMeta>(join(o.out, 'checkpoints'));
   const session = new ReaderSession(store);
