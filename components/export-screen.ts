@@ -4,7 +4,9 @@
 // float16, built in the worker (src/io/export.ts) and zipped here (src/io/bundle.ts),
 // each named after its reader and variant so no two downloads share a name. Any reader
 // can go: the fine-tuned one in use, the base, or any checkpoint saved in this browser.
-// Also the cleaned dataset in each import format (src/data/load.ts writeDataset). Files
+// Also the cleaned dataset in each import format (src/data/load.ts writeDataset), and a
+// job folder for PyTorch's distributed training as one ZIP (ReaderSession.torchJob: the
+// run the Training screen would start, the same folder `spanwright job` writes). Files
 // are offered as downloads made from in-memory blobs; nothing is uploaded anywhere.
 // No events out.
 import { LitElement, css, html } from 'lit';
@@ -16,7 +18,7 @@ import { checkpointLabel } from '../src/session/labels.js';
 import type { RunMeta } from '../src/train/finetune.js';
 import { writeDataset } from '../src/data/load.js';
 import type { Split } from '../src/data/split.js';
-import type { TrainConfig } from '../src/train/config.js';
+import { DEFAULT_TRAIN_CONFIG, type TrainConfig } from '../src/train/config.js';
 import type { BaseInfo, EvaluationResult, ModelChoice } from '../workers/protocol.js';
 import type { EngineClient } from './engine-client.js';
 import { screenStyles } from './shared-styles.js';
@@ -27,8 +29,8 @@ interface Offered {
   name: string;
   bytes: number;
   url: string;
-  /** a bundle's variant and which kind of reader it holds; absent for a dataset file */
-  variant?: Variant;
+  /** a bundle's variant (or a job folder) and which kind of reader it holds; absent for a dataset file */
+  variant?: Variant | 'torch-job';
   reader?: 'tuned' | 'base' | 'checkpoint';
   /** a bundle's files, each with its size */
   entries?: Array<{ name: string; bytes: number }>;
@@ -73,6 +75,14 @@ export class ExportScreen extends LitElement {
       ul.files li {
         margin: 0.2rem 0;
       }
+      pre {
+        margin: 0.3rem 0;
+        padding: 0.4rem 0.6rem;
+        overflow-x: auto;
+        background: var(--paper, #fbfbf9);
+        border: 1px solid var(--line, #c9d0d4);
+        border-radius: 4px;
+      }
     `,
   ];
 
@@ -84,6 +94,8 @@ export class ExportScreen extends LitElement {
   @property({ attribute: false }) split: Split = { train: [], validation: [] };
   /** the settings of the run that made the fine-tuned reader, for the card */
   @property({ attribute: false }) settings: TrainConfig | null = null;
+  /** the Training screen's settings, for a job folder (the run it would start) */
+  @property({ attribute: false }) trainSettings: TrainConfig | null = null;
   @property({ attribute: false }) evaluations: { base?: EvaluationResult; tuned?: EvaluationResult } = {};
 
   @state() private source: Source | null = null;
@@ -170,6 +182,26 @@ export class ExportScreen extends LitElement {
           <button id="data-squad" @click=${() => this._onData('squad')} ?disabled=${records === 0}>SQuAD 2.0 JSON</button>
           <button id="data-csv" @click=${() => this._onData('csv')} ?disabled=${records === 0}>CSV</button>
         </div>
+      </section>
+      <section id="torch-job">
+        <h3>Train on more cores or GPUs (PyTorch)</h3>
+        <p class="muted">
+          When this tab is too slow for your questions: one folder that runs the training the Training screen would start — the same
+          windows, settings and starting reader — under torch.distributed on a machine with more cores or with GPUs.
+        </p>
+        <div class="row">
+          <button id="export-job" @click=${this._onJob} ?disabled=${!this.baseInfo || this.split.train.length === 0 || this.busy !== ''}>
+            Job folder (.zip)
+          </button>
+          <span class="muted">${this.split.train.length} training and ${this.split.validation.length} validation questions</span>
+        </div>
+        <p class="muted">Unzip it, and in the folder run, with CPU processes on one machine or one process per GPU:</p>
+        <pre id="job-commands"><code>torchrun --standalone --nproc_per_node 2 train_reader.py
+torchrun --standalone --nproc_per_node 8 train_reader.py --device cuda</code></pre>
+        <p class="muted">
+          What it writes in <code>model/</code> is a model directory: choose that folder on the Base reader screen to evaluate, ask or
+          export it. The folder's README.txt says more.
+        </p>
       </section>
       ${this.busy ? html`<p class="muted">${this.busy}</p>` : ''}
       ${this.error ? html`<p class="note bad" role="alert">${this.error}</p>` : ''}
@@ -289,6 +321,40 @@ export class ExportScreen extends LitElement {
       });
     } catch (err) {
       this.error = `The ${variant} export failed: ${(err as Error).message}`;
+    } finally {
+      this.busy = '';
+    }
+  }
+
+  private async _onJob(): Promise<void> {
+    if (!this.engine) return;
+    const train = this.split.train;
+    this.busy = `writing the job folder: ${train.length} questions into windows…`;
+    this.error = '';
+    try {
+      // the folder's name, in the zip and in the README's commands
+      const folder = bundleStem({ reader: `torch job ${this.baseInfo?.name ?? ''}`, variant: `${train.length} questions` });
+      const job = await this.engine.call({
+        kind: 'torch-job',
+        train,
+        validation: this.split.validation,
+        config: { ...(this.trainSettings ?? this.settings ?? DEFAULT_TRAIN_CONFIG) },
+        folder,
+      });
+      this.busy = 'packing the folder…';
+      await this.updateComplete;
+      this.notes = [
+        `the job trains from ${job.startsFrom}: ${job.questions} questions, ${job.windows} windows of ${job.config.maxLength} tokens, ${job.updates} updates`,
+        ...job.notes,
+      ];
+      this.offer({
+        name: `${folder}.zip`,
+        bytes: zipBundle(job.files, folder),
+        variant: 'torch-job',
+        entries: job.files.map((f) => ({ name: f.name, bytes: f.bytes.length })),
+      });
+    } catch (err) {
+      this.error = `The job folder failed: ${(err as Error).message}`;
     } finally {
       this.busy = '';
     }

@@ -519,6 +519,7 @@ export class SpanwrightApp extends LitElement {
           .collection=${this.collection}
           .split=${split}
           .settings=${this.run?.config ?? this.settings}
+          .trainSettings=${this.settings}
           .evaluations=${this.evaluations}
         ></export-screen>`;
     }
