@@ -12,7 +12,8 @@
 // as in workbench.e2e.ts (32 positions, so windows of 32 tokens). The folder agreeing with
 // `spanwright job` byte for byte is tests/session/torch-job.test.ts; the full torchrun
 // round trip is tests/cli/job.test.ts. A screenshot of the screen goes to
-// tests/e2e/artifacts/export-job.png (git-ignored).
+// tests/e2e/artifacts/export-job.png (git-ignored). The workbench is built once for all
+// e2e files (tests/e2e/build.ts).
 import { execFile } from 'node:child_process';
 import { mkdirSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { mkdir, readFile, writeFile } from 'node:fs/promises';
@@ -25,7 +26,7 @@ import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { readSafetensorsRaw } from '../../src/io/safetensors.js';
 import { JOB_PROGRAM_FILES } from '../../src/io/torch-job.js';
-import { buildWorkbench, startServer, type RunningServer } from '../../src/cli/serve.js';
+import { startServer, type RunningServer } from '../../src/cli/serve.js';
 import { openBrowser, type OpenBrowser } from './browser.js';
 
 const run = promisify(execFile);
@@ -57,7 +58,6 @@ async function setField(name: string, value: number): Promise<void> {
 }
 
 beforeAll(async () => {
-  if (process.env.SPANWRIGHT_E2E_NO_BUILD !== '1') await buildWorkbench();
   server = await startServer({ port: 0 });
   browser = await openBrowser();
   browser.context.on('request', (r) => requests.push(r.url()));
