@@ -28,6 +28,7 @@ import { readSafetensorsRaw } from '../../src/io/safetensors.js';
 import { JOB_PROGRAM_FILES } from '../../src/io/torch-job.js';
 import { startServer, type RunningServer } from '../../src/cli/serve.js';
 import { openBrowser, type OpenBrowser } from './browser.js';
+import { screen, setTrainingSettings, SMALL_RUN, waitForEngine } from './page-steps.js';
 
 const run = promisify(execFile);
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
@@ -43,19 +44,6 @@ let page: Page;
 let unpacked: string;
 const requests: string[] = [];
 const consoleErrors: string[] = [];
-
-async function screen(name: string): Promise<void> {
-  await page.locator(`nav button[data-screen="${name}"]`).click();
-  await page.locator(`nav button[data-screen="${name}"][aria-current="page"]`).waitFor();
-}
-
-async function setField(name: string, value: number): Promise<void> {
-  const input = page.locator(`training-screen input[name="${name}"]`);
-  // the less used settings are folded: open the field's group
-  await input.evaluate((el) => el.closest('details')?.setAttribute('open', ''));
-  await input.fill(String(value));
-  await input.dispatchEvent('change');
-}
 
 beforeAll(async () => {
   server = await startServer({ port: 0 });
@@ -83,24 +71,16 @@ describe('the job folder on the Export screen', () => {
 
   it('downloads one .zip for the training questions, settings and base reader', async () => {
     await page.goto(server.url);
-    await page.locator('spanwright-app[data-engine="ready"]').waitFor({ timeout: 60_000 });
+    await waitForEngine(page);
     await page.locator('#import-files').setInputFiles(join(DEMO, 'validation.jsonl'));
     await page.locator('.import-report[data-file="validation.jsonl"]').waitFor();
-    await screen('reader');
+    await screen(page, 'reader');
     await page.locator('#model-files').setInputFiles(BASE_FILES.map((f) => join(FIXTURE, f)));
     await page.locator('#param-count').waitFor();
-    await screen('training');
-    for (const [name, value] of [
-      ['maxLength', 32],
-      ['stride', 4],
-      ['maxQueryLength', 12],
-      ['batchSize', 4],
-      ['gradAccumulation', 1],
-      ['epochs', 1],
-    ] as const)
-      await setField(name, value);
+    await screen(page, 'training');
+    await setTrainingSettings(page, { ...SMALL_RUN, epochs: 1 });
 
-    await screen('export');
+    await screen(page, 'export');
     const section = page.locator('#torch-job');
     // when to use it, and the two commands
     await expect(section.textContent()).resolves.toMatch(/more cores or (with )?GPUs/i);

@@ -17,6 +17,7 @@ import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startServer, type RunningServer } from '../../src/cli/serve.js';
 import { openBrowser, type OpenBrowser } from './browser.js';
+import { screen, setTrainingSettings, SMALL_RUN, waitForEngine } from './page-steps.js';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
 const BASE = join(ROOT, 'tiny-models/base');
@@ -32,22 +33,6 @@ let browser: OpenBrowser;
 let page: Page;
 /** the page's console, for the message of a failure */
 const log: string[] = [];
-
-async function screen(name: string): Promise<void> {
-  await page.locator(`nav button[data-screen="${name}"]`).click();
-  await page.locator(`nav button[data-screen="${name}"][aria-current="page"]`).waitFor();
-}
-
-async function setField(name: string, value: number): Promise<void> {
-  const input = page.locator(`training-screen input[name="${name}"]`);
-  await input.evaluate((el) => el.closest('details')?.setAttribute('open', ''));
-  await input.fill(String(value));
-  await input.dispatchEvent('change');
-}
-
-async function waitForEngine(): Promise<void> {
-  await page.locator('spanwright-app[data-engine="ready"]').waitFor({ timeout: 60_000 });
-}
 
 /**
  * What the engine worker is doing, for a stall's message: whether it runs a script at
@@ -96,24 +81,18 @@ afterAll(async () => {
 describe('a reload during a checkpoint save', () => {
   it(`leaves a run that continues, ${CYCLES} times over`, { timeout: CYCLES * (STALL_MS + 30_000) + 120_000 }, async () => {
     await page.goto(server.url);
-    await waitForEngine();
+    await waitForEngine(page);
     await page.locator('#import-files').setInputFiles(join(DEMO, 'validation.jsonl'));
     await page.locator('.import-report[data-file="validation.jsonl"]').waitFor();
-    await screen('reader');
+    await screen(page, 'reader');
     await page.locator('#model-files').setInputFiles(['config.json', 'model.safetensors', 'vocab.txt'].map((f) => join(BASE, f)));
     await page.locator('#param-count').waitFor({ timeout: 60_000 });
-    await screen('training');
-    for (const [name, value] of [
-      ['maxLength', 32],
-      ['stride', 4],
-      ['maxQueryLength', 12],
-      ['batchSize', 4],
-      ['gradAccumulation', 1],
-      ['epochs', 50], // longer than the test: every cycle reloads a running run
-      ['evalEvery', 1], // score and save after every update
-    ] as const) {
-      await setField(name, value);
-    }
+    await screen(page, 'training');
+    await setTrainingSettings(page, {
+      ...SMALL_RUN,
+      epochs: 50, // longer than the test: every cycle reloads a running run
+      evalEvery: 1, // score and save after every update
+    });
     await expect(page.locator('#settings-error').count()).resolves.toBe(0);
     await page.locator('#start-run').click();
     // a run reloaded before its first checkpoint has nothing to continue from
@@ -142,8 +121,8 @@ describe('a reload during a checkpoint save', () => {
         });
       }, delay);
       await loaded;
-      await waitForEngine();
-      await screen('training');
+      await waitForEngine(page);
+      await screen(page, 'training');
       const resume = page.locator('#continue-run');
       await resume.waitFor({ timeout: 30_000 });
       const step = Number(/update (\d+)/.exec((await resume.textContent()) ?? '')?.[1]);

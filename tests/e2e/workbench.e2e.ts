@@ -35,6 +35,7 @@ import { ReaderParams } from '../../src/model/params.js';
 import { readSafetensors } from '../../src/io/safetensors.js';
 import { startServer, type RunningServer } from '../../src/cli/serve.js';
 import { openBrowser, type OpenBrowser } from './browser.js';
+import { screen, setTrainingSettings, SMALL_RUN, waitForEngine } from './page-steps.js';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
 const ARTIFACTS = join(ROOT, 'tests/e2e/artifacts');
@@ -66,22 +67,9 @@ async function collectLongTasks(from: number, to: number): Promise<void> {
   longTasks.push(...tasks.filter((t) => t.start + t.duration >= from && t.start <= to));
 }
 
-async function screen(name: string): Promise<void> {
-  await page.locator(`nav button[data-screen="${name}"]`).click();
-  await page.locator(`nav button[data-screen="${name}"][aria-current="page"]`).waitFor();
-}
-
 async function shot(name: string, forReadme = false): Promise<void> {
   await page.screenshot({ path: join(ARTIFACTS, `${name}.png`), fullPage: true });
   if (forReadme && process.env.SPANWRIGHT_SCREENSHOTS === '1') await page.screenshot({ path: join(SCREENSHOTS, `${name}.png`) });
-}
-
-async function setField(name: string, value: number): Promise<void> {
-  const input = page.locator(`training-screen input[name="${name}"]`);
-  // the less used settings are folded: open the field's group
-  await input.evaluate((el) => el.closest('details')?.setAttribute('open', ''));
-  await input.fill(String(value));
-  await input.dispatchEvent('change');
 }
 
 async function chartPoints(id: string): Promise<number> {
@@ -109,10 +97,6 @@ async function exportBundle(variant: string, reader: string): Promise<Download> 
   expect(await alert.allTextContents()).toEqual([]);
   const [download] = await Promise.all([page.waitForEvent('download'), link.click()]);
   return download;
-}
-
-async function waitForEngine(): Promise<void> {
-  await page.locator('spanwright-app[data-engine="ready"]').waitFor({ timeout: 60_000 });
 }
 
 beforeAll(async () => {
@@ -143,7 +127,7 @@ afterAll(async () => {
 describe('the browser workbench', () => {
   it('starts cross-origin isolated with SIMD, its engine in a worker', async () => {
     await page.goto(server.url);
-    await waitForEngine();
+    await waitForEngine(page);
     expect(await page.evaluate(() => crossOriginIsolated)).toBe(true);
     await expect(page.locator('#isolation').textContent()).resolves.toContain('isolated');
     await expect(page.locator('#simd').textContent()).resolves.toContain('on');
@@ -230,7 +214,7 @@ describe('the browser workbench', () => {
   });
 
   it('loads a checkpoint folder as the base reader', async () => {
-    await screen('reader');
+    await screen(page, 'reader');
     await page.locator('#model-files').setInputFiles(['config.json', 'model.safetensors', 'vocab.txt'].map((f) => join(FIXTURE, f)));
     await page.locator('#param-count').waitFor();
     const config = JSON.parse(readFileSync(join(FIXTURE, 'config.json'), 'utf8')) as { hidden_size: number; num_hidden_layers: number };
@@ -241,7 +225,7 @@ describe('the browser workbench', () => {
   });
 
   it('writes practice questions from the training passages, shows a sample, and practises before fine-tuning', async () => {
-    await screen('training');
+    await screen(page, 'training');
     await expect(page.locator('#run-start-from').textContent()).resolves.toMatch(/starts from:\s+the base reader/);
     const fill = async (id: string, value: number) => {
       await page.locator(`#${id}`).fill(String(value));
@@ -289,18 +273,8 @@ describe('the browser workbench', () => {
   });
 
   it('trains, survives a reload mid-run, continues from the checkpoint and pauses', async () => {
-    await screen('training');
-    for (const [name, value] of [
-      ['maxLength', 32],
-      ['stride', 4],
-      ['maxQueryLength', 12],
-      ['batchSize', 4],
-      ['gradAccumulation', 1],
-      ['epochs', 1],
-      ['evalEvery', 3],
-    ] as const) {
-      await setField(name, value);
-    }
+    await screen(page, 'training');
+    await setTrainingSettings(page, { ...SMALL_RUN, epochs: 1, evalEvery: 3 });
     await expect(page.locator('#settings-error').count()).resolves.toBe(0);
     await page.locator('#start-run').click();
     trainingSince = await now();
@@ -324,10 +298,10 @@ describe('the browser workbench', () => {
 
     // a reload kills the worker mid-run: the run must come back as interrupted
     await page.reload();
-    await waitForEngine();
+    await waitForEngine(page);
     // the screen it lands on says a run was interrupted, and leads to it
     await page.locator('#interrupted-banner').waitFor();
-    await screen('training');
+    await screen(page, 'training');
     // the practice stage is restored from its checkpoint as the reader fine-tuning starts from
     await expect(page.locator('#practice-done').count()).resolves.toBe(1);
     const resume = page.locator('#continue-run');
@@ -365,8 +339,8 @@ describe('the browser workbench', () => {
   it('asks before a new run replaces the fine-tuned reader in use, and shows Start and the charts at 1280×800', async () => {
     await page.setViewportSize({ width: 1280, height: 800 });
     // as a visit finds the screen: the folded settings folded (the steps above opened some)
-    await screen('checkpoints');
-    await screen('training');
+    await screen(page, 'checkpoints');
+    await screen(page, 'training');
     await page.evaluate(() => window.scrollTo(0, 0));
     const viewport = { width: 1280, height: 800 };
     for (const id of ['#start-run', '#chart-loss', '#chart-eval']) {
@@ -411,7 +385,7 @@ describe('the browser workbench', () => {
   });
 
   it('lists the checkpoints with their scores and storage', async () => {
-    await screen('checkpoints');
+    await screen(page, 'checkpoints');
     await page.locator('#checkpoint-table tbody tr').first().waitFor();
     checkpointRows = await page.locator('#checkpoint-table tbody tr').count();
     expect(checkpointRows).toBeGreaterThan(0);
@@ -449,7 +423,7 @@ describe('the browser workbench', () => {
   });
 
   it('evaluates base and fine-tuned readers side by side', async () => {
-    await screen('evaluation');
+    await screen(page, 'evaluation');
     await page.locator('#evaluate').click();
     await page.locator('#question-table tbody tr').first().waitFor({ timeout: 120_000 });
     await page.locator('#evaluate:enabled').waitFor({ timeout: 120_000 }); // both readers scored
@@ -470,7 +444,7 @@ describe('the browser workbench', () => {
 
   it('draws a learning curve on nested shares of the training questions and keeps no checkpoint', async () => {
     // the training split as the Data screen counts it (the demo questions plus the one labelled above)
-    await screen('data');
+    await screen(page, 'data');
     const trainQuestions = Number(/(\d+) training and/.exec((await page.locator('#split-counts').textContent()) ?? '')?.[1]);
     expect(trainQuestions).toBeGreaterThan(0);
     // a share takes whole passages until it reaches round(share × all), so it overshoots by less than one passage
@@ -484,7 +458,7 @@ describe('the browser workbench', () => {
     const largestPassage = Math.max(...perPassage.values());
 
     // the short windows and one epoch set on the Training screen above keep the three runs to seconds
-    await screen('evaluation');
+    await screen(page, 'evaluation');
     const since = await now();
     // cancelled during its first share, a curve returns without a point and frees the worker
     await page.locator('#curve-start').click();
@@ -521,13 +495,13 @@ describe('the browser workbench', () => {
     await page.locator('learning-curve #curve-plot canvas').first().waitFor();
     await shot('learning-curve');
     // the three runs were throwaway: the store holds what it held before
-    await screen('checkpoints');
+    await screen(page, 'checkpoints');
     await page.locator('#checkpoint-table tbody tr').first().waitFor();
     expect(await page.locator('#checkpoint-table tbody tr').count()).toBe(checkpointRows);
   });
 
   it('answers a question over all passages, with the caution on screen', async () => {
-    await screen('ask');
+    await screen(page, 'ask');
     await expect(page.locator('#caution').textContent()).resolves.toContain(CAUTION);
     await page.locator('#ask-question').fill('When does the night boat sail?');
     await page.locator('#ask-button').click();
@@ -550,7 +524,7 @@ describe('the browser workbench', () => {
   });
 
   it("exports the fine-tuned model: one .zip per bundle, named apart; the safetensors parse, and model.onnx runs to the engine's logits", async () => {
-    await screen('export');
+    await screen(page, 'export');
     const fp32 = await exportBundle('fp32', 'tuned');
     expect(fp32.suggestedFilename()).toMatch(/^spanwright-fine-tuned-[a-z0-9-]+-float32\.zip$/);
     const fp32Files = await unzipDownload(fp32);
@@ -637,12 +611,12 @@ describe('the browser workbench', () => {
   it('opens offline from its cache', async () => {
     await browser.context.setOffline(true);
     await page.reload();
-    await waitForEngine();
+    await waitForEngine(page);
     await browser.context.setOffline(false);
   });
 
   it('loads the shipped base reader, as large as tiny-models/base/config.json says', async () => {
-    await screen('reader');
+    await screen(page, 'reader');
     // enabled once the build's precache.json lists the shipped files
     await page.locator('#use-shipped:enabled').waitFor({ timeout: 10_000 });
     const before = (await page.locator('#base-info h3').textContent()) ?? '';
@@ -665,7 +639,7 @@ describe('the browser workbench', () => {
     const [train, validation] = [count('train.jsonl'), count('validation.jsonl')];
     const passageOf = (name: string) =>
       (JSON.parse(readFileSync(join(DEMO, name), 'utf8').split('\n', 1)[0]!) as { passage_id: string }).passage_id;
-    await screen('data');
+    await screen(page, 'data');
     page.once('dialog', (d) => void d.accept());
     await page.locator('#clear-dataset').click();
     await page.locator('#stat-questions', { hasText: /^0$/ }).waitFor();
@@ -707,8 +681,8 @@ describe('the browser workbench', () => {
 
     // kept in IndexedDB with the dataset
     await page.reload();
-    await waitForEngine();
-    await screen('data');
+    await waitForEngine(page);
+    await screen(page, 'data');
     expect(await page.locator('#split-mode-file').isChecked()).toBe(true);
     await expect(page.locator('#split-counts').textContent()).resolves.toMatch(countsText);
   });
@@ -743,10 +717,10 @@ describe('the browser workbench', () => {
     const headerHeight = () =>
       page.locator('spanwright-app').evaluate((el) => el.shadowRoot!.querySelector('header')!.getBoundingClientRect().height);
     const before = await headerHeight();
-    await waitForEngine();
+    await waitForEngine(page);
     expect(await headerHeight()).toBe(before);
     for (const name of ['data', 'reader', 'training', 'checkpoints', 'evaluation', 'ask', 'export'] as const) {
-      await screen(name);
+      await screen(page, name);
       if (name === 'checkpoints') await page.locator('#checkpoint-table tbody tr').first().waitFor();
       if (name === 'training') await page.locator('#chart-loss').waitFor();
       // every element, inside shadow roots too, lies within the viewport's width, or inside a box that scrolls sideways and does
