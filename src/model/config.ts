@@ -271,7 +271,7 @@ export interface ParamSpec {
   /** checkpoint layout: Linear weights `[out, in]`, as PyTorch stores them */
   shape: number[];
   part: ParamPart;
-  /** `weight` of a Linear layer: the engine keeps it `[in, out]` internally */
+  /** `weight` of a Linear layer, `[out, in]` as everywhere: the products read it as x·Wᵀ */
   linear: boolean;
   /** how a fresh parameter starts */
   init: 'normal' | 'zeros' | 'ones';

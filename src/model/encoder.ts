@@ -5,12 +5,12 @@
 //   x = LN(word[ids] + pos[0..T) + type[tt]), dropout
 //   per layer:  a = LN(x + dropout(Wo·MHA(x)))
 //               x = LN(a + dropout(W2·act(W1·a)))
-//   span head:  [start, end] = x·Wqa + bqa
+//   span head:  [start, end] = x·Wqaᵀ + bqa
 //
 // Shapes: B batch, T tokens, H hidden, N heads, D head size (H / N), I feed-forward
 // width, V vocabulary. Token-wise work runs on [B·T, H] matrices so every Linear layer
-// is one untransposed 2-D product (weights are kept [in, out], see params.ts); attention
-// takes Q, K, V in that layout too and splits the heads itself.
+// is one 2-D product x·Wᵀ with W kept [out, in] as PyTorch's Linear stores it (see
+// params.ts); attention takes Q, K, V in that layout too and splits the heads itself.
 //
 // Tensor discipline: these functions create intermediates freely and return new
 // tensors; the caller wraps them in tf.tidy (or tf.variableGrads) and owns the result.
@@ -51,9 +51,18 @@ interface Pass {
 
 // ---- small parts -------------------------------------------------------------------
 
-/** x·W + b with W kept [in, out]: an untransposed 2-D product. */
+/**
+ * x·Wᵀ with W kept [out, in]: torch.nn.functional.linear's product. The fast GEMM takes
+ * the transpose as swapped strides (src/kernels/matmul.ts); its gradients are dy·W and
+ * dyᵀ·x, so a training step has one transposed right operand per Linear in either layout.
+ */
+function product(pass: Pass, name: string, x: tf.Tensor2D): tf.Tensor2D {
+  return tf.matMul(x, pass.params.get(`${name}.weight`), false, true);
+}
+
+/** x·Wᵀ + b. */
 function linear(pass: Pass, name: string, x: tf.Tensor2D): tf.Tensor2D {
-  return tf.add(tf.matMul(x, pass.params.get(`${name}.weight`)), pass.params.get(`${name}.bias`));
+  return tf.add(product(pass, name, x), pass.params.get(`${name}.bias`));
 }
 
 /** LayerNorm over the last axis (Ba et al. 2016), biased variance as PyTorch; one fused op (src/kernels/layer-norm.ts). */
@@ -75,7 +84,7 @@ function linearActivation(pass: Pass, name: string, x: tf.Tensor2D): tf.Tensor2D
     const u = linear(pass, name, x);
     return tf.mul(u, tf.sigmoid(tf.mul(u, 1.702)));
   }
-  return biasGelu(tf.matMul(x, pass.params.get(`${name}.weight`)), pass.params.get(`${name}.bias`) as tf.Tensor1D);
+  return biasGelu(product(pass, name, x), pass.params.get(`${name}.bias`) as tf.Tensor1D);
 }
 
 /**
@@ -176,7 +185,8 @@ export function mlmLogits(params: ReaderParams, config: ReaderConfig, inputs: Re
   const [B, T] = inputs.inputIds.shape;
   const h = linearActivation(pass, 'cls.predictions.transform.dense', encode(pass, inputs)); // [B·T, H]
   const transformed = layerNorm(pass, 'cls.predictions.transform.LayerNorm', h); // [B·T, H]
-  // an explicit transpose then a plain product: stock wasm's transposeB matMul is the slow path
+  // an explicit transpose then a plain product: chosen when stock wasm ran transposeB in a
+  // scalar loop; the fast GEMM could take x·Eᵀ directly (not re-measured for this product)
   const decoder = tf.transpose(params.get('bert.embeddings.word_embeddings.weight')); // [H, V]
   const logits = tf.add(tf.matMul(transformed, decoder), params.get('cls.predictions.bias')); // [B·T, V]
   return tf.reshape(logits, [B, T, config.vocabSize]) as tf.Tensor3D;

@@ -2,10 +2,13 @@
 // seeded initialisation, and their conversion to and from checkpoint tensors
 // (NamedTensors, common BERT naming, Linear weights [out, in]); LoadReport.
 //
-// Internal layout: every Linear weight is kept [in, out], so the forward pass is an
-// untransposed 2-D product x·W. Stock tfjs-wasm runs a transposed matMul 10–30× slower
-// than a plain one (docs/DESIGN.md, measured facts); the transpose happens once, here, at
-// load and save time instead of on every step.
+// Layout: every weight is kept as the checkpoint holds it, Linear weights [out, in] as
+// PyTorch stores them, so loading and saving copy and never transpose. The products
+// read a Linear weight transposed (x·Wᵀ, encoder.ts); the project's GEMM takes a
+// transpose as swapped strides, and keeping [out, in] measured no slower than keeping
+// [in, out] (a training step, an inference forward, both bench configs, 1 and 2 threads:
+// DEVELOPERS.md "Weights", `npx tsx tests/bench/layout.ts`). The engine kept [in, out]
+// while stock tfjs-wasm ran every transposed matMul in a scalar loop, 10–30× slower.
 
 import * as tf from '@tensorflow/tfjs';
 import type { NamedTensor, NamedTensors } from '../io/tensors.js';
@@ -60,7 +63,7 @@ function canonicalName(name: string): string {
 let instanceCount = 0;
 
 export class ReaderParams {
-  /** engine name (BERT naming) → variable; Linear weights are [in, out] here */
+  /** engine name (BERT naming) → variable, in the checkpoint layout (Linear weights [out, in]) */
   readonly variables: Map<string, tf.Variable>;
   readonly config: ReaderConfig;
   private readonly specs: Map<string, ParamSpec>;
@@ -148,7 +151,7 @@ export class ReaderParams {
               'the weights are damaged or were saved from a run that diverged',
           );
         }
-        values.set(name, toInternal(tensor.data, spec));
+        values.set(name, tf.tensor(tensor.data, spec.shape, 'float32'));
         report.loaded.push(name);
       }
     } catch (err) {
@@ -167,7 +170,7 @@ export class ReaderParams {
     const named: NamedTensors = new Map();
     for (const [name, variable] of this.variables) {
       const spec = this.specs.get(name)!;
-      named.set(name, { shape: [...spec.shape], data: fromInternal(variable.dataSync() as Float32Array, spec) });
+      named.set(name, { shape: [...spec.shape], data: Float32Array.from(variable.dataSync() as Float32Array) });
     }
     return named;
   }
@@ -209,29 +212,9 @@ export class ReaderParams {
   }
 }
 
-/** Row-major checkpoint data to the internal tensor ([out, in] → [in, out] for Linear weights). */
-function toInternal(data: Float32Array, spec: ParamSpec): tf.Tensor {
-  if (!spec.linear) return tf.tensor(data, spec.shape, 'float32');
-  const [out, inp] = spec.shape;
-  const t = new Float32Array(out * inp);
-  for (let o = 0; o < out; o++) for (let i = 0; i < inp; i++) t[i * out + o] = data[o * inp + i];
-  return tf.tensor2d(t, [inp, out], 'float32');
-}
-
-/** Internal data back to checkpoint layout ([in, out] → [out, in] for Linear weights); always a copy. */
-function fromInternal(data: Float32Array, spec: ParamSpec): Float32Array {
-  if (!spec.linear) return Float32Array.from(data);
-  // a JS loop: the cpu backend's generic transpose took ~2 s for the tiny preset's weights
-  const [out, inp] = spec.shape;
-  const t = new Float32Array(out * inp);
-  for (let i = 0; i < inp; i++) for (let o = 0; o < out; o++) t[o * inp + i] = data[i * out + o];
-  return t;
-}
-
 function freshValue(name: string, spec: ParamSpec, config: ReaderConfig, seed: number): tf.Tensor {
   const size = spec.shape.reduce((a, b) => a * b, 1);
   if (spec.init === 'zeros') return tf.zeros(spec.shape);
   if (spec.init === 'ones') return tf.ones(spec.shape);
-  // drawn in checkpoint layout so a seed gives the same checkpoint whatever the internal layout
-  return toInternal(truncatedNormal(size, config.initStd, seedFor(seed, name)), spec);
+  return tf.tensor(truncatedNormal(size, config.initStd, seedFor(seed, name)), spec.shape, 'float32');
 }

@@ -22,8 +22,7 @@
 // the ReaderParams passed in. Everything a step creates is freed before it returns.
 
 import * as tf from '@tensorflow/tfjs';
-import type { NamedTensors } from '../io/tensors.js';
-import { parameterShapes, type ReaderConfig } from '../model/config.js';
+import type { ReaderConfig } from '../model/config.js';
 import { mlmLogitsAt, spanLogits, type ReaderInputs } from '../model/encoder.js';
 import { maskedPositions } from './mlm-data.js';
 import type { ReaderParams } from '../model/params.js';
@@ -115,8 +114,6 @@ export class Trainer {
   readonly config: Readonly<TrainConfig>;
   readonly plan: Readonly<TrainPlan>;
   private readonly optimizer: AdamW;
-  /** engine name → whether the variable is a Linear weight kept [in, out] */
-  private readonly linear: Map<string, boolean>;
   private update = 0;
 
   constructor(params: ReaderParams, modelConfig: ReaderConfig, trainConfig: TrainConfig, plan: TrainPlan) {
@@ -128,7 +125,6 @@ export class Trainer {
     );
     this.config = Object.freeze({ ...trainConfig });
     this.plan = Object.freeze({ ...plan });
-    this.linear = new Map([...parameterShapes(modelConfig)].map(([name, spec]) => [name, spec.linear]));
     this.optimizer = new AdamW(params.variables, {
       beta1: trainConfig.beta1,
       beta2: trainConfig.beta2,
@@ -231,12 +227,11 @@ export class Trainer {
   }
 
   /**
-   * The optimizer's moments in the checkpoint layout (Linear weights [out, in], like
-   * `ReaderParams.toNamed`), and its per-parameter step counts.
+   * The optimizer's moments, in the checkpoint layout like the weights they follow
+   * (Linear weights [out, in], as `ReaderParams.toNamed`), and its per-parameter step counts.
    */
   optimizerState(): AdamWState {
-    const { m, v, step } = this.optimizer.exportState();
-    return { m: swapLinearAxes(m, this.linear), v: swapLinearAxes(v, this.linear), step };
+    return this.optimizer.exportState();
   }
 
   /**
@@ -250,11 +245,7 @@ export class Trainer {
     if (!Number.isInteger(state.update) || state.update < 0 || state.update > this.plan.totalUpdates) {
       throw new Error(`Trainer.restore: saved update ${state.update} is outside this plan's 0…${this.plan.totalUpdates}`);
     }
-    this.optimizer.importState({
-      m: swapLinearAxes(optimizer.m, this.linear),
-      v: swapLinearAxes(optimizer.v, this.linear),
-      step: optimizer.step,
-    });
+    this.optimizer.importState(optimizer);
     this.update = state.update;
   }
 
@@ -315,26 +306,6 @@ export class Trainer {
       lossSum?.dispose();
     }
   }
-}
-
-/**
- * Moments follow the variables' layout (Linear weights [in, out]); checkpoints hold them
- * [out, in] like the weights. A transpose is its own inverse, so this one function
- * converts both ways. `linear`: engine name → whether the variable is a Linear weight.
- */
-export function swapLinearAxes(tensors: NamedTensors, linear: ReadonlyMap<string, boolean>): NamedTensors {
-  const out: NamedTensors = new Map();
-  for (const [name, tensor] of tensors) {
-    if (linear.get(name) !== true || tensor.shape.length !== 2) {
-      out.set(name, tensor);
-      continue;
-    }
-    const [rows, cols] = tensor.shape;
-    const data = new Float32Array(rows * cols);
-    for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) data[c * rows + r] = tensor.data[r * cols + c];
-    out.set(name, { shape: [cols, rows], data });
-  }
-  return out;
 }
 
 /** Int32 [B, T] tensors of one batch (created inside the caller's scope). */

@@ -91,17 +91,18 @@ describe('ReaderParams.init', () => {
     expect(tf.memory().numTensors).toBe(before);
   });
 
-  it('keeps Linear weights [in, out] inside and writes them [out, in]', () => {
+  it('keeps Linear weights [out, in] as the checkpoint holds them, and toNamed copies them', () => {
     const params = ReaderParams.init(config, 4);
     try {
       const name = 'bert.encoder.layer.0.intermediate.dense.weight';
-      expect(params.get(name).shape).toEqual([config.hiddenSize, config.intermediateSize]);
+      expect(params.get(name).shape).toEqual([config.intermediateSize, config.hiddenSize]);
       const named = params.toNamed().get(name)!;
       expect(named.shape).toEqual([config.intermediateSize, config.hiddenSize]);
       const internal = params.get(name).dataSync();
-      // element (out o, in i) of the checkpoint is element (i, o) inside
-      const [o, i] = [5, 3];
-      expect(named.data[o * config.hiddenSize + i]).toBe(internal[i * config.intermediateSize + o]);
+      expect(sameValues(named.data, internal as Float32Array)).toBe(true);
+      // a copy: changing what toNamed gave leaves the variable as it was
+      named.data[0] += 1;
+      expect(params.get(name).dataSync()[0]).toBe(internal[0]);
     } finally {
       params.dispose();
     }

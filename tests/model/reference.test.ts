@@ -69,14 +69,14 @@ function expectMatch(name: string, ours: ArrayLike<number>, theirs: ArrayLike<nu
   expect(problem, problem ?? '').toBeNull();
 }
 
-/** Gradients keyed by engine name, in the checkpoint layout ([out, in] for Linear weights). */
+/** Gradients keyed by engine name, as NamedTensors (the engine keeps every weight in the checkpoint layout). */
 function gradsInCheckpointLayout(config: ReaderConfig, grads: Map<string, tf.Tensor>): NamedTensors {
   const specs = parameterShapes(config);
   const out: NamedTensors = new Map();
   for (const [name, g] of grads) {
     const spec = specs.get(name)!;
-    const data = tf.tidy(() => (spec.linear ? tf.transpose(g) : g).dataSync() as Float32Array);
-    out.set(name, { shape: spec.shape, data: Float32Array.from(data) });
+    expect(g.shape, name).toEqual(spec.shape);
+    out.set(name, { shape: spec.shape, data: Float32Array.from(g.dataSync() as Float32Array) });
   }
   return out;
 }
