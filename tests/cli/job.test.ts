@@ -54,6 +54,7 @@ import { fineTune, trainingWindows, type RunMeta } from '../../src/train/finetun
 import type { LoopEvent } from '../../src/train/loop.js';
 import { resolveWindows } from '../../src/session/windows.js';
 import { useBackend } from '../helpers/backend.js';
+import { torchrunArgs } from '../helpers/torchrun.js';
 import { buildFactbookQa } from '../external/factbook-qa.js';
 
 const run = promisify(execFile);
@@ -164,27 +165,9 @@ describe('spanwright job → torchrun (2 CPU processes, gloo) → the engine', (
     train = loadDataset(await readFile(join(jobA, 'questions/train.json')), 'train.json').records;
     validation = loadDataset(await readFile(join(jobA, 'questions/validation.json')), 'validation.json').records;
 
-    // torchrun, 2 processes (Debian's torch 1.13 on Python 3.11 needs --redirects/--tee set:
-    // its launcher reads the default "0" as no value and fails)
+    // torchrun, 2 processes on a rendezvous port of their own (tests/helpers/torchrun.ts)
     t0 = performance.now();
-    await run(
-      PYTHON,
-      [
-        '-m',
-        'torch.distributed.run',
-        '--standalone',
-        '--nproc_per_node',
-        '2',
-        '--redirects',
-        '1',
-        '--tee',
-        '1',
-        'train_reader.py',
-        '--out',
-        join(dir, 'two'),
-      ],
-      { cwd: jobA, env: pythonEnv },
-    );
+    await run(PYTHON, [...(await torchrunArgs(2)), 'train_reader.py', '--out', join(dir, 'two')], { cwd: jobA, env: pythonEnv });
     seconds.torchrun = (performance.now() - t0) / 1000;
     t0 = performance.now();
     await run(PYTHON, ['train_reader.py', '--out', join(dir, 'one')], { cwd: jobB, env: pythonEnv });

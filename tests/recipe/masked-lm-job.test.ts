@@ -38,6 +38,7 @@ import { packedExample, type PackedSequences } from '../../src/train/mlm-data.js
 import type { TrainPlan } from '../../src/train/schedule.js';
 import { Trainer } from '../../src/train/trainer.js';
 import { useBackend } from '../helpers/backend.js';
+import { torchrunArgs } from '../helpers/torchrun.js';
 
 const run = promisify(execFile);
 const PYTHON = '/usr/bin/python3';
@@ -76,9 +77,8 @@ async function dirFiles(dir: string): Promise<CheckpointDirFiles> {
 }
 
 async function torchrun(job: string, out: string): Promise<void> {
-  // --redirects/--tee: Debian's torch 1.13 launcher fails on Python 3.11 with their default (DEVELOPERS.md)
-  const args = ['-m', 'torch.distributed.run', '--standalone', '--nproc_per_node', '2', '--redirects', '1', '--tee', '1'];
-  await run(PYTHON, [...args, 'train_reader.py', '--out', out], { cwd: job, env: pythonEnv });
+  // 2 processes on a rendezvous port of their own (tests/helpers/torchrun.ts)
+  await run(PYTHON, [...(await torchrunArgs(2)), 'train_reader.py', '--out', out], { cwd: job, env: pythonEnv });
 }
 
 describe('the recipe’s masked-LM stage as a torchrun job', () => {

@@ -40,6 +40,7 @@ import { fineTune } from '../../src/train/finetune.js';
 import { jobProgram } from '../../workers/job-program.js';
 import { useBackend } from '../helpers/backend.js';
 import { buildFactbookQa } from '../external/factbook-qa.js';
+import { torchrunArgs } from '../helpers/torchrun.js';
 
 const run = promisify(execFile);
 const PYTHON = '/usr/bin/python3';
@@ -180,12 +181,11 @@ describe('the job folder of ReaderSession.torchJob (the workbench) and of `spanw
     } catch {
       throw new Error(`${PYTHON} cannot import torch with gloo: install Debian's python3-torch and libopenblas0-pthread (.ci/run does)`);
     }
-    // Debian's torch 1.13 on Python 3.11 needs --redirects/--tee set (README.txt says so)
-    await run(
-      PYTHON,
-      ['-m', 'torch.distributed.run', '--standalone', '--nproc_per_node', '2', '--redirects', '1', '--tee', '1', 'train_reader.py'],
-      { cwd: join(unpacked, stem), env: { ...process.env, OMP_NUM_THREADS: '1' } },
-    );
+    // 2 processes on a rendezvous port of their own (tests/helpers/torchrun.ts)
+    await run(PYTHON, [...(await torchrunArgs(2)), 'train_reader.py'], {
+      cwd: join(unpacked, stem),
+      env: { ...process.env, OMP_NUM_THREADS: '1' },
+    });
     const log = (await readFile(join(unpacked, stem, 'log.jsonl'), 'utf8'))
       .trim()
       .split('\n')
