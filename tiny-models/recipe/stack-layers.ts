@@ -11,9 +11,10 @@
 // the source's stage facts (pretraining.json and the stage files beside it), with
 // stacking.json saying what was done.
 //
-// Measured (DEVELOPERS.md, "Reading signal"): the shipped L2 base stacked to 4 layers and
-// given 884 reading-stage updates scored demo F1 37.0 after `npm run demo` against 33.3
-// for the shipped base, one seed; not shipped yet.
+// Measured (DEVELOPERS.md, "Facts found while building"): the shipped L2 base stacked to
+// 4 layers and given 884 reading-stage updates scored demo F1 37.0 and 32.2 (seeds 1, 2)
+// after `npm run demo`, against 33.3 and 35.0 for the shipped base: no gain beyond the
+// seeds' spread yet, so not shipped.
 import { copyFileSync, existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
