@@ -22,6 +22,7 @@
 // position and discards non-context ones afterwards; choosing among context tokens
 // only never wastes a candidate on a question token.
 import type { QARecord } from '../data/record.js';
+import { askedKinds, kindSpans } from '../text/answer-kinds.js';
 import type { Feature } from '../text/features.js';
 
 /** A letter or digit of a script that separates its words with spaces (step 3). */
@@ -48,9 +49,21 @@ export interface SpanChoiceOptions {
   maxAnswerLength?: number;
   /** predict "" when null score − best span score exceeds this; 0 is the neutral default */
   nullThreshold?: number;
+  /**
+   * Type-aware decoding: added to the score of a span that is exactly a span of the kind
+   * the question asks for (src/text/answer-kinds.ts: a time for "What time", a quantity for
+   * "How long"), scored from its first and last token's logits. 0 (the default) leaves
+   * decoding as above. Chosen with the no-answer cut on training questions
+   * (ReaderSession.scoreWithTrainedCut); the usual answer-type constraint of question
+   * answering pipelines, made soft.
+   */
+  kindBonus?: number;
 }
 
-const DEFAULTS: Required<SpanChoiceOptions> = { nBest: 20, maxAnswerLength: 30, nullThreshold: 0 };
+/** The bonuses tried when one is chosen on training questions (our choice: 0 and a few steps of logit scale). */
+export const KIND_BONUS_GRID: readonly number[] = Object.freeze([0, 0.5, 1, 2, 3, 5]);
+
+const DEFAULTS: Required<Omit<SpanChoiceOptions, 'kindBonus'>> = { nBest: 20, maxAnswerLength: 30, nullThreshold: 0 };
 
 /** One candidate answer span. */
 export interface SpanCandidate {
@@ -115,8 +128,11 @@ export function chooseAnswer(
   windows: readonly DecodableWindow[],
   logits: readonly WindowLogits[],
   options: SpanChoiceOptions = {},
+  /** character spans [start, end) that get options.kindBonus (kindSpans of the question) */
+  kindSpans: ReadonlyArray<readonly [number, number]> = [],
 ): QuestionDecoding {
   const { nBest, maxAnswerLength, nullThreshold } = { ...DEFAULTS, ...options };
+  const bonus = options.kindBonus ?? 0;
   if (windows.length === 0) throw new Error('chooseAnswer: a question needs at least one window');
   if (windows.length !== logits.length) {
     throw new Error(`chooseAnswer: ${windows.length} windows but ${logits.length} logit pairs`);
@@ -175,6 +191,35 @@ export function chooseAnswer(
         });
       }
     }
+
+    // type-aware decoding: each span of the asked kind, from the tokens that cover it exactly
+    if (bonus !== 0) {
+      for (const [cs, ce] of kindSpans) {
+        let s = -1;
+        let e = -1;
+        for (const t of contextTokens) {
+          if (s < 0 && offsets[2 * t + 1]! > cs) s = t;
+          if (offsets[2 * t]! < ce) e = t;
+        }
+        if (s < 0 || e < s || offsets[2 * s]! !== cs || offsets[2 * e + 1]! !== ce) continue;
+        if (e - s + 1 > maxAnswerLength) continue;
+        const score = startLogits[s]! + endLogits[e]! + bonus;
+        const key = `${cs}:${ce}`;
+        const seen = bySpan.get(key);
+        if (seen && seen.score >= score) continue;
+        bySpan.set(key, {
+          text: context.slice(cs, ce),
+          charStart: cs,
+          charEnd: ce,
+          score,
+          startLogit: startLogits[s]!,
+          endLogit: endLogits[e]!,
+          window: win.window,
+          startToken: s,
+          endToken: e,
+        });
+      }
+    }
   }
 
   const ranked = [...bySpan.values()]
@@ -206,7 +251,7 @@ export interface Decoded {
  * feature whose record is unknown is an error.
  */
 export function predictAll(
-  records: ReadonlyArray<Pick<QARecord, 'id' | 'context'>>,
+  records: ReadonlyArray<Pick<QARecord, 'id' | 'context'> & { question?: string }>,
   features: readonly DecodableWindow[],
   logits: readonly WindowLogits[],
   options: SpanChoiceOptions = {},
@@ -238,7 +283,8 @@ export function predictAll(
   for (const r of records) {
     const group = groups.get(r.id);
     if (!group) continue;
-    const d = chooseAnswer(r.context, group.windows, group.logits, options);
+    const spans = options.kindBonus && r.question !== undefined ? kindSpans(r.context, askedKinds(r.question)) : [];
+    const d = chooseAnswer(r.context, group.windows, group.logits, options, spans);
     out.predictions[r.id] = d.prediction;
     out.bestSpans[r.id] = d.best?.text ?? '';
     out.scoreDiffs[r.id] = d.scoreDiff;

@@ -13,10 +13,10 @@ export type Activation =
   | 'gelu_sigmoid';
 
 /** The word-match features a reader reads (ReaderConfig.questionMatch). */
-export type QuestionMatch = 'words' | 'words+sentence';
+export type QuestionMatch = 'words' | 'words+sentence' | 'words+sentence+kind';
 
 /** Token-type rows each level needs: question, context, and the match types. */
-export const MATCH_TYPES: Record<QuestionMatch, number> = { words: 3, 'words+sentence': 5 };
+export const MATCH_TYPES: Record<QuestionMatch, number> = { words: 3, 'words+sentence': 5, 'words+sentence+kind': 9 };
 
 export interface ReaderConfig {
   /** rows of the word-embedding table; take it from the tokenizer's vocabulary */
@@ -50,6 +50,8 @@ export interface ReaderConfig {
    *                     (Chen et al. 2017, "Reading Wikipedia to Answer Open-Domain Questions")
    *   'words+sentence'  also, the tokens of the sentence that matches the question best get
    *                     3 (not matched) or 4 (matched) (typeVocabSize ≥ 5)
+   *   'words+sentence+kind'  also, tokens in a span of the kind the question asks for
+   *                     (src/text/answer-kinds.ts) get 4 more: 5–8 (typeVocabSize ≥ 9)
    * config.json: "spanwright_question_match". Absent (as in every checkpoint from
    * elsewhere, and configs saved before it existed) means off: plain BERT inputs.
    */
@@ -131,7 +133,7 @@ export function validateConfig(config: ReaderConfig, source = 'config', names: P
     problems.push(`${name('activation')} must be "gelu" or "gelu_sigmoid", got ${JSON.stringify(config.activation)}`);
   }
   if (config.questionMatch !== undefined && !(config.questionMatch in MATCH_TYPES)) {
-    problems.push(`${name('questionMatch')} must be "words" or "words+sentence", got ${JSON.stringify(config.questionMatch)}`);
+    problems.push(`${name('questionMatch')} must be "words", "words+sentence" or "words+sentence+kind", got ${JSON.stringify(config.questionMatch)}`);
   } else if (config.questionMatch && config.typeVocabSize < MATCH_TYPES[config.questionMatch]) {
     problems.push(
       `${name('questionMatch')} "${config.questionMatch}" needs ${name('typeVocabSize')} of at least ${MATCH_TYPES[config.questionMatch]}, got ${config.typeVocabSize}`,
@@ -203,7 +205,7 @@ export function configFromHf(json: unknown, file = 'config.json'): ReaderConfig 
   }
   const match = o.spanwright_question_match;
   if (match !== undefined && match !== null && !(typeof match === 'string' && match in MATCH_TYPES)) {
-    throw new Error(`${file}: "spanwright_question_match" must be "words" or "words+sentence", got ${JSON.stringify(match)}`);
+    throw new Error(`${file}: "spanwright_question_match" must be "words", "words+sentence" or "words+sentence+kind", got ${JSON.stringify(match)}`);
   }
   const config: ReaderConfig = {
     vocabSize: required('vocab_size'),

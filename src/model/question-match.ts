@@ -22,9 +22,11 @@ export function withQuestionMatch(
   const total = Math.max(need, rows);
   const data = new Float32Array(total * H);
   data.set(table.data.subarray(0, rows * H));
-  // a new row starts as the context row it refines: 3 (best sentence) as 1, 4 (matched, best sentence) as 2 when there is one
+  // a new row starts as the context row it refines: 3 (best sentence) as 1, 4 (matched, best
+  // sentence) as 2 when there is one; 5–8 (of the asked kind) as 1–4 when they exist
+  const refines = (r: number): number => (r >= 5 ? (r - 4 < rows ? r - 4 : refines(r - 4)) : r === 4 && rows > 2 ? 2 : 1);
   for (let r = rows; r < total; r++) {
-    const from = r === 4 && rows > 2 ? 2 : 1;
+    const from = refines(r);
     data.set(table.data.subarray(from * H, (from + 1) * H), r * H);
   }
   const out: NamedTensors = new Map(named);

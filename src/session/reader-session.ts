@@ -18,7 +18,8 @@
 import { hashDataset } from '../data/hash.js';
 import { mulberry32, shuffleInPlace } from '../data/random.js';
 import type { QARecord } from '../data/record.js';
-import { evaluateRecords, predictRecords, readerWindows } from '../eval/evaluate.js';
+import { evaluateRecords, predictRecords, readerLogits, readerWindows } from '../eval/evaluate.js';
+import { predictAll } from '../eval/span-choice.js';
 import { buildReport, questionsFromRecords, type EvaluationReport } from '../eval/report.js';
 import { lexicalBaselineScores } from '../eval/lexical-baseline.js';
 import { applyNoAnswerThreshold, evaluate, findBestThresholds, goldFromRecords, type SquadScores } from '../eval/squad-metric.js';
@@ -115,6 +116,13 @@ export interface FineTuneArgs extends RunHooks {
   resumeFrom?: string;
   /** also measure at every evaluation (default true when there are validation questions) */
   evalBatchSize?: number;
+  /**
+   * Practice questions (src/practice) written from these passages join the training
+   * questions, so the reader keeps practising reading while it learns the labels, instead
+   * of a practice stage of its own before (`practice`). Never the validation passages.
+   * `datasetHash` should cover them (the CLI adds the passages and options).
+   */
+  practiceMix?: { passages: PracticePassage[]; questions?: Partial<PracticeOptions> };
 }
 
 export interface PracticeArgs extends RunHooks {
@@ -186,7 +194,8 @@ function matchNote(level: QuestionMatch): string {
   const words =
     'token_type_ids: 0 for [CLS] question [SEP]; for context tokens and the last [SEP] 1, or 2 for a word the question also holds';
   const sentence = "; 3 and 4 likewise inside the sentence that holds the largest rarity-weighted share of the question's words";
-  return `${words}${level === 'words+sentence' ? sentence : ''} (config.json "spanwright_question_match": "${level}"; src/text/features.ts computes them)`;
+  const kind = '; 4 more (5–8) for tokens in a span of the kind the question asks for (src/text/answer-kinds.ts)';
+  return `${words}${level !== 'words' ? sentence : ''}${level === 'words+sentence+kind' ? kind : ''} (config.json "spanwright_question_match": "${level}"; src/text/features.ts computes them)`;
 }
 
 export class ReaderSession {
@@ -551,8 +560,15 @@ export class ReaderSession {
     // leaving the Evaluation screen cancels its curve: a run started right after waits for the update in hand
     if (this.curve?.cancel) await this.curve.ended;
     const from = this.reader('start');
+    let train = args.train;
+    if (args.practiceMix) {
+      const made = makePracticeQuestions(args.practiceMix.passages, args.practiceMix.questions).records;
+      if (made.length === 0)
+        throw new Error('the passages gave no practice question: they need sentences with names, numbers, dates or phrases to ask about');
+      train = [...args.train, ...made];
+    }
     const run = this.beginRun(args.runId);
-    const ended = await this.train(run, from, args, 'fine-tune');
+    const ended = await this.train(run, from, { ...args, train }, 'fine-tune');
     // src/session/runs.ts: a run with nothing saved leaves the reader in use as it was
     if (!keepsTunedReader(ended.result)) {
       ended.params.dispose();
@@ -883,18 +899,29 @@ export class ReaderSession {
    * training questions) by the metric's best-threshold search: the honest counterpart of
    * the threshold tuned on the scored questions themselves.
    */
-  scoreWithTrainedCut(args: { model: ModelChoice; tuneOn: QARecord[]; records: QARecord[] } & WindowArgs): {
+  scoreWithTrainedCut(args: { model: ModelChoice; tuneOn: QARecord[]; records: QARecord[]; kindBonuses?: readonly number[] } & WindowArgs): {
     threshold: number;
+    /** the type-aware decoding bonus chosen with the cut (src/eval/span-choice.ts), 0 when none helped */
+    kindBonus: number;
     summary: SquadScores;
   } {
     const r = this.reader(args.model);
     const features = this.windows(args, r).features;
-    const tune = predictRecords(r, args.tuneOn, { features });
-    const threshold = findBestThresholds(goldFromRecords(args.tuneOn), tune.bestSpans, tune.scoreDiffs).bestF1Threshold;
-    const held = predictRecords(r, args.records, { features });
+    const gold = goldFromRecords(args.tuneOn);
+    // the logits once; each bonus only decodes again
+    const tuneWindows = readerWindows(r, args.tuneOn, features);
+    const tuneLogits = readerLogits(r.params, r.config, tuneWindows);
+    let best = { f1: -Infinity, threshold: 0, kindBonus: 0 };
+    for (const kindBonus of args.kindBonuses ?? [0]) {
+      const tune = predictAll(args.tuneOn, tuneWindows, tuneLogits, { kindBonus });
+      const search = findBestThresholds(gold, tune.bestSpans, tune.scoreDiffs);
+      if (search.bestF1 > best.f1) best = { f1: search.bestF1, threshold: search.bestF1Threshold, kindBonus };
+    }
+    const held = predictRecords(r, args.records, { features, decode: { kindBonus: best.kindBonus } });
     return {
-      threshold,
-      summary: evaluate(goldFromRecords(args.records), applyNoAnswerThreshold(held.bestSpans, held.scoreDiffs, threshold)),
+      threshold: best.threshold,
+      kindBonus: best.kindBonus,
+      summary: evaluate(goldFromRecords(args.records), applyNoAnswerThreshold(held.bestSpans, held.scoreDiffs, best.threshold)),
     };
   }
 

@@ -14,6 +14,8 @@
 // room = maxLength − q − 3 context tokens fit beside the question and the three special tokens.
 import type { QARecord } from '../data/record.js';
 import type { QuestionMatch } from '../model/config.js';
+import type { AnswerKind } from '../practice/candidates.js';
+import { askedKinds, kindSpans } from './answer-kinds.js';
 import type { FlatEncoding, WordPieceTokenizer } from './wordpiece.js';
 
 export interface FeatureOptions {
@@ -37,6 +39,9 @@ export interface FeatureOptions {
    *                     the sentence coverage of sliding-window word-overlap readers, as
    *                     src/eval/lexical-baseline.ts computes it, but over token-id words
    *                     and with no stopword list.
+   *   'words+sentence+kind'  also, context tokens inside a span of a kind the question
+   *                     asks for (a time for "what time", a quantity for "how long": see
+   *                     src/text/answer-kinds.ts) get 4 more, so types 5–8.
    */
   questionMatch?: QuestionMatch;
 }
@@ -154,7 +159,9 @@ export class FeatureBuilder {
     // which context tokens belong to a word the (kept) question holds
     const asked = this.options.questionMatch ? wordKeys(qEnc, record.question, qIds.length) : null;
     const matched = asked ? matchedTokens(ctx, record.context, asked) : null;
-    const inBest = asked && this.options.questionMatch === 'words+sentence' ? bestSentenceTokens(ctx, record.context, asked) : null;
+    const level = this.options.questionMatch;
+    const inBest = asked && level !== 'words' ? bestSentenceTokens(ctx, record.context, asked) : null;
+    const ofKind = asked && level === 'words+sentence+kind' ? kindTokens(ctx, record.context, askedKinds(record.question)) : null;
     const q = qIds.length;
     const room = maxLength - q - 3;
 
@@ -201,7 +208,9 @@ export class FeatureBuilder {
       const end = base + (to - from); // position of the final [SEP]
       inputIds[end] = tok.sepId;
       tokenTypeIds.fill(1, base, end + 1);
-      if (matched) for (let k = from; k < to; k++) tokenTypeIds[base + k - from] = 1 + matched[k]! + (inBest ? 2 * inBest[k]! : 0);
+      if (matched)
+        for (let k = from; k < to; k++)
+          tokenTypeIds[base + k - from] = 1 + matched[k]! + (inBest ? 2 * inBest[k]! : 0) + (ofKind ? 4 * ofKind[k]! : 0);
       attentionMask.fill(1, 0, end + 1);
       for (let k = from; k < to; k++) {
         offsets[2 * (base + k - from)] = ctx.starts[k]!;
@@ -249,6 +258,18 @@ function wordKeys(enc: FlatEncoding, text: string, count: number): Set<string> {
 }
 
 /** Per context token: 1 when its word's key is among `keys`. */
+/** Per context token: 1 when it overlaps a span of a kind the question asks for (src/text/answer-kinds.ts). */
+function kindTokens(ctx: FlatEncoding, text: string, kinds: Set<AnswerKind>): Uint8Array {
+  const out = new Uint8Array(ctx.ids.length);
+  const spans = kindSpans(text, kinds);
+  let s = 0;
+  for (let k = 0; k < ctx.ids.length && s < spans.length; k++) {
+    while (s < spans.length && spans[s]![1] <= ctx.starts[k]!) s++;
+    if (s < spans.length && spans[s]![0] < ctx.ends[k]!) out[k] = 1;
+  }
+  return out;
+}
+
 function matchedTokens(ctx: FlatEncoding, text: string, keys: Set<string>): Uint8Array {
   const out = new Uint8Array(ctx.ids.length);
   if (keys.size === 0) return out;

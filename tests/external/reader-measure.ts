@@ -167,7 +167,8 @@ export async function measureStages(
     });
     const passages = passagesOf([...data.train]);
     const updates = { domain: 0, practice: 0, fineTune: 0 };
-    if (choice.match) session.setQuestionMatch({ level: 'words+sentence' });
+    // a base that reads match types already keeps its level; one without them gets 'words+sentence'
+    if (choice.match) session.setQuestionMatch({ level: info.config.questionMatch ?? 'words+sentence' });
     if (choice.domainMinutes > 0) {
       updates.domain = (
         await session.domainPretrain({

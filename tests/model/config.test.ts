@@ -71,7 +71,7 @@ describe('HF-style config.json', () => {
       /needs typeVocabSize of at least 5/,
     );
     expect(() => configFromHf({ ...configToHf(presetConfig('tiny', 100)), spanwright_question_match: true }, 'c.json')).toThrow(
-      /c\.json: "spanwright_question_match" must be "words" or "words\+sentence"/,
+      /c\.json: "spanwright_question_match" must be "words", "words\+sentence" or "words\+sentence\+kind"/,
     );
   });
 

@@ -13,7 +13,7 @@ import { useBackend } from '../helpers/backend.js';
 describe('withQuestionMatch', () => {
   beforeAll(() => useBackend('cpu'));
 
-  it('grows the token-type table to 3 or 5 rows, each new row a copy of the one it refines', () => {
+  it('grows the token-type table to 3, 5 or 9 rows, each new row a copy of the one it refines', () => {
     const config = presetConfig('tiny', 50, { maxPositions: 32 });
     const plain = ReaderParams.init(config, 3);
     const named = plain.toNamed();
@@ -30,6 +30,13 @@ describe('withQuestionMatch', () => {
     expect(b.shape).toEqual([5, H]);
     expect(row(b.data, 3)).toEqual(row(table.data, 1));
     expect(row(b.data, 4)).toEqual(row(w.data, 2));
+    // the answer-kind rows 5–8 copy rows 1–4, from either a plain or a 'words+sentence' table
+    for (const from of [named, both.named]) {
+      const k = withQuestionMatch(config, from, 'words+sentence+kind').named.get('bert.embeddings.token_type_embeddings.weight')!;
+      expect(k.shape).toEqual([9, H]);
+      for (let r = 5; r < 9; r++) expect(row(k.data, r)).toEqual(row(k.data, r - 4));
+      expect(row(k.data, 3)).toEqual(row(table.data, 1));
+    }
     plain.dispose();
   });
 

@@ -4,7 +4,7 @@
 // passages (ReaderSession.practice), with checkpoints on disk so a stopped stage resumes.
 //
 //   npm run build:base:reading -- [--from DIR] [--out DIR] [--work DIR] [--per-passage N]
-//                                 [--epochs N] [--lr X] [--seed N] [--max-len N] [--match on|off]
+//                                 [--epochs N] [--lr X] [--seed N] [--max-len N] [--match on|off|kind]
 //
 //   1. passages   State of the Union addresses and Moby-Dick chapters (corpus.ts) cut into
 //                 runs of consecutive sentences of 80–180 words; the held-out documents of
@@ -48,7 +48,9 @@ const epochs = Number(args.get('epochs') ?? 1);
 const lr = Number(args.get('lr') ?? 1e-3);
 const seed = Number(args.get('seed') ?? 2026);
 const maxLength = Number(args.get('max-len') ?? 192);
-const match = (args.get('match') ?? 'on') === 'on';
+const matchArg = args.get('match') ?? 'on';
+if (!['on', 'off', 'kind'].includes(matchArg)) throw new Error(`--match: expected on, off or kind, got "${matchArg}"`);
+const match = matchArg !== 'off';
 for (const [name, v] of [
   ['per-passage', perPassage],
   ['epochs', epochs],
@@ -172,7 +174,7 @@ const ended = await session.practice({
   passages,
   questions,
   config,
-  questionMatch: match ? 'words+sentence' : undefined,
+  questionMatch: matchArg === 'kind' ? 'words+sentence+kind' : match ? 'words+sentence' : undefined,
   datasetHash,
   resumeFrom: last?.id,
   signal: abort.signal,

@@ -30,13 +30,14 @@ export function register(program: Command): void {
     .option('--epochs <n>', 'passes over the training windows (default 2)', '2')
     .option('--lr <x>', 'peak learning rate (default: the one suggested for the base width, as train)')
     .option('--seed <n>', 'seed for data order and dropout')
+    .option('--practice-stage', 'train on the practice questions in a stage of their own before fine-tuning, not mixed into it')
     .option('--practice-epochs <n>', `passes over the practice questions (default ${PRACTICE_DEFAULTS.epochs}); 0 skips the practice stage`)
     .option(
       '--domain-minutes <n>',
       'first train the encoder with masked-LM on the training passages for about this many minutes (default 0)',
     )
     .option('--json', 'print {before, afterPractice, after, afterTrainedCut, baseline, out} as one JSON object on the last line')
-    .action((o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json' | 'practiceEpochs' | 'domainMinutes'> & { out?: string }) =>
+    .action((o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json' | 'practiceEpochs' | 'domainMinutes'> & { out?: string; practiceStage?: boolean }) =>
       runCommand(async () => {
         const train = join(DEMO, 'train.jsonl');
         const validation = join(DEMO, 'validation.jsonl');
@@ -55,6 +56,7 @@ export function register(program: Command): void {
           ...options,
           practiceFrom: o.practiceEpochs === '0' ? undefined : 'train',
           practiceEpochs: o.practiceEpochs,
+          practiceMixed: o.practiceStage !== true,
           domainMinutes: o.domainMinutes,
         };
         const log = (line: string) => process.stderr.write(`${line}\n`);
@@ -85,7 +87,7 @@ export function register(program: Command): void {
             before: scoresObject(before),
             afterPractice: run.practice?.afterPractice ? scoresObject(run.practice.afterPractice) : null,
             after: scoresObject(after),
-            afterTrainedCut: { threshold: cut.threshold, ...scoresObject({ summary: cut.summary }) },
+            afterTrainedCut: { threshold: cut.threshold, kindBonus: cut.kindBonus, ...scoresObject({ summary: cut.summary }) },
             baseline: scoresObject({ summary: baseline.summary }),
             out,
           });
@@ -95,18 +97,22 @@ export function register(program: Command): void {
           { label: 'base', scores: before.summary },
           ...(run.practice?.afterPractice ? [{ label: 'after practice', scores: run.practice.afterPractice.summary }] : []),
           { label: 'fine-tuned', scores: after.summary },
-          { label: `fine-tuned, cut ${cut.threshold.toFixed(2)} from training`, scores: cut.summary },
+          { label: `fine-tuned, cut ${cut.threshold.toFixed(2)} and kind bonus ${cut.kindBonus} from training`, scores: cut.summary },
         ];
         process.stdout.write(`\nvalidation (${validation}); no-answer cuts are chosen on the training questions\n${scoresTable(rows)}\n`);
         const warnings = readerWarnings(cut.summary, before.summary, baseline.summary);
         if (warnings.length > 0)
           warnings.push(
-            `(The warnings compare the row "fine-tuned, cut … from training" with the base and the baseline. The base's card, ${join(o.base, 'MODEL_CARD.md')}, says how it was measured.)`,
+            `(The warnings compare the row "fine-tuned, cut … and kind bonus … from training" with the base and the baseline. The base's card, ${join(o.base, 'MODEL_CARD.md')}, says how it was measured.)`,
           );
         process.stdout.write(`${warnings.map((w) => `${w}\n`).join('')}\n`);
         if (run.domain)
           process.stdout.write(
             `masked-LM on the ${new Set(run.train.map((r) => r.passageId)).size} training passages: ${run.domain.passes} passes, ${run.domain.updates} updates, ${run.domain.seconds.toFixed(0)} s\n`,
+          );
+        if (run.mixedPractice)
+          process.stdout.write(
+            `${run.mixedPractice.questions} practice questions from the ${new Set(run.train.map((r) => r.passageId)).size} training passages, mixed into fine-tuning\n`,
           );
         if (run.practice)
           process.stdout.write(

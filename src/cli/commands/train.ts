@@ -14,6 +14,7 @@ import { UserError, printJson, runCommand } from '../common.js';
 import { loadRecords, readModelDir, startEngine, writeFilesAtomically } from '../../node/model-dir.js';
 import { countProgress, trainingProgress } from '../progress.js';
 import { readerWarnings } from '../../eval/reader-warnings.js';
+import { KIND_BONUS_GRID } from '../../eval/span-choice.js';
 import { scoresObject, scoresTable } from '../scores.js';
 import { hashDataset } from '../../data/hash.js';
 import type { QARecord } from '../../data/record.js';
@@ -47,6 +48,8 @@ export interface TrainOptions {
   practiceEpochs?: string;
   practicePerPassage?: string;
   practiceMaxLen?: string;
+  /** the practice questions join the fine-tuning questions instead of a stage of their own */
+  practiceMixed?: boolean;
   questionMatch?: string | boolean;
   /** masked-LM on the same passages first, for about this many minutes */
   domainMinutes?: string;
@@ -134,8 +137,8 @@ export function configFromOptions(o: TrainOptions): TrainConfig {
 function matchLevel(v: string | boolean | undefined): QuestionMatch | undefined {
   if (v === undefined || v === false) return undefined;
   if (v === true || v === 'words+sentence') return 'words+sentence';
-  if (v === 'words') return 'words';
-  throw new UserError(`--question-match must be "words" or "words+sentence", not "${v}"`);
+  if (v === 'words' || v === 'words+sentence+kind') return v;
+  throw new UserError(`--question-match must be "words", "words+sentence" or "words+sentence+kind", not "${v}"`);
 }
 
 /** Practice-stage defaults: measured on the demo handbook (DEVELOPERS.md, "Facts"). */
@@ -144,6 +147,12 @@ export const PRACTICE_DEFAULTS = {
   epochs: 1,
   /** questions per passage (src/practice/generate.ts) */
   perPassage: 40,
+  /**
+   * questions per passage when they join the fine-tuning questions (--practice-mixed): they
+   * are seen once per fine-tuning epoch, so half of a stage's 40 gives as many passes over
+   * practice questions as the stage would in the 2 epochs of the demo
+   */
+  mixedPerPassage: 20,
   /** windows of 256 tokens: passages of a few hundred words in two or three windows */
   maxLength: 256,
 } as const;
@@ -170,11 +179,13 @@ export async function practiceFromOptions(o: TrainOptions, train: QARecord[], co
   } catch (err) {
     throw new UserError((err as Error).message);
   }
-  const perPassage = int('practice-per-passage', o.practicePerPassage) ?? PRACTICE_DEFAULTS.perPassage;
+  const perPassage =
+    int('practice-per-passage', o.practicePerPassage) ?? (o.practiceMixed ? PRACTICE_DEFAULTS.mixedPerPassage : PRACTICE_DEFAULTS.perPassage);
   return {
     passages,
     source: fromTrain ? "the training questions' passages" : from,
     practice: o.practiceFrom !== undefined,
+    mixed: o.practiceFrom !== undefined && o.practiceMixed === true,
     config: stage,
     questions: { perPassage, seed: config.seed },
     questionMatch: matchLevel(o.questionMatch),
@@ -195,11 +206,13 @@ export interface TrainRun {
   before: EvaluationResult | null;
   after: EvaluationResult | null;
   /** the fine-tuned reader with its no-answer cut chosen on the training questions (measureCut) */
-  afterTrainedCut: { threshold: number; summary: SquadScores } | null;
+  afterTrainedCut: { threshold: number; kindBonus: number; summary: SquadScores } | null;
   /** the word-overlap baseline, its cut chosen on the training questions (measureBase) */
   baseline: { minCoverage: number; summary: SquadScores } | null;
   /** the practice stage, when it ran */
   practice: { questions: number; updates: number; seconds: number; afterPractice: EvaluationResult | null } | null;
+  /** practice questions mixed into fine-tuning (--practice-mixed), when there were */
+  mixedPractice: { questions: number } | null;
   /** the masked-LM stage on the passages, when it ran */
   domain: { passes: number; rows: number; updates: number; seconds: number } | null;
   out: string;
@@ -216,6 +229,8 @@ export interface PracticeStep {
   domain?: { minutes: number; config: TrainConfig };
   /** the practice stage itself runs (false: only the domain stage) */
   practice: boolean;
+  /** the practice questions join the fine-tuning questions (ReaderSession.fineTune's practiceMix) instead of a stage before it */
+  mixed?: boolean;
   config: TrainConfig;
   questions?: Partial<PracticeOptions>;
   questionMatch?: QuestionMatch;
@@ -321,7 +336,7 @@ export async function trainReader(
         throw new UserError(`stopped in the masked-LM stage at update ${ended.update}; continue with the same command and --resume`, 130);
       domain = { passes: ended.passes, rows: ended.rows, updates: ended.totalUpdates, seconds: (performance.now() - t0) / 1000 };
     }
-    if (step?.practice) {
+    if (step?.practice && !step.mixed) {
       const p = step;
       const t0 = performance.now();
       const preview = session.previewPractice({ passages: p.passages, questions: p.questions, sample: 0 });
@@ -353,10 +368,21 @@ export async function trainReader(
       practice = { questions: ended.questions, updates: ended.totalUpdates, seconds: (performance.now() - t0) / 1000, afterPractice };
     }
 
-    // 2b. fine-tuning, resumed from the newest checkpoint of this data when asked
+    // 2b. fine-tuning, resumed from the newest checkpoint of this data when asked; with
+    // --practice-mixed the practice questions are part of that data
+    const mix = step?.practice && step.mixed ? { passages: step.passages, questions: step.questions } : undefined;
+    let mixedPractice: TrainRun['mixedPractice'] = null;
+    if (mix) {
+      const preview = session.previewPractice({ ...mix, sample: 0 });
+      mixedPractice = { questions: preview.questions };
+      log(
+        `practice (mixed into fine-tuning): ${preview.questions} questions (${preview.unanswerable} without an answer) written from ${preview.passages} passages of ${step!.source}`,
+      );
+    }
+    const fineTuneHash = mix ? `${datasetHash}+practice:${mix.passages.length}:${JSON.stringify(mix.questions ?? {})}` : datasetHash;
     let resumeFrom: string | undefined;
     if (o.resume) {
-      const last = await session.latestCheckpoint({ datasetHash });
+      const last = await session.latestCheckpoint({ datasetHash: fineTuneHash });
       if (last === null) {
         if (!step) throw new UserError(`${join(o.out, 'checkpoints')}: no checkpoint of this training data to resume from`);
       } else {
@@ -372,7 +398,8 @@ export async function trainReader(
         train,
         validation: evalRecords ?? [],
         config,
-        datasetHash,
+        datasetHash: fineTuneHash,
+        practiceMix: mix,
         resumeFrom,
         onEvent: progress.onEvent,
         signal: abort.signal,
@@ -386,7 +413,7 @@ export async function trainReader(
     // 3. measure
     const after = evalRecords ? evaluate('evaluating the trained reader', 'tuned') : null;
     const afterTrainedCut =
-      evalRecords && o.measureCut ? session.scoreWithTrainedCut({ model: 'tuned', tuneOn: train, records: evalRecords, ...windows }) : null;
+      evalRecords && o.measureCut ? session.scoreWithTrainedCut({ model: 'tuned', tuneOn: train, records: evalRecords, kindBonuses: KIND_BONUS_GRID, ...windows }) : null;
     const baseline = evalRecords && o.measureBase ? session.wordOverlapBaseline({ tuneOn: train, records: evalRecords }) : null;
 
     // 4. write
@@ -432,6 +459,7 @@ export async function trainReader(
       afterTrainedCut,
       baseline,
       practice,
+      mixedPractice,
       domain,
       out: o.out,
       files: out.map((f) => ({ name: f.name, bytes: f.bytes.length })),
@@ -469,7 +497,11 @@ export function register(program: Command): void {
       'first train on practice questions written from these passages: a JSONL of {id, text}, a folder of .txt files, or "train" for the training questions\' passages',
     )
     .option('--practice-epochs <n>', `passes over the practice questions (default ${PRACTICE_DEFAULTS.epochs})`)
-    .option('--practice-per-passage <n>', `practice questions per passage (default ${PRACTICE_DEFAULTS.perPassage})`)
+    .option(
+      '--practice-per-passage <n>',
+      `practice questions per passage (default ${PRACTICE_DEFAULTS.perPassage}, or ${PRACTICE_DEFAULTS.mixedPerPassage} with --practice-mixed)`,
+    )
+    .option('--practice-mixed', 'put the practice questions among the training questions of fine-tuning instead of a stage before it')
     .option('--practice-max-len <n>', `tokens per practice window (default ${PRACTICE_DEFAULTS.maxLength})`)
     .option(
       '--domain-minutes <n>',
