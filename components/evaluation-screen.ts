@@ -142,6 +142,17 @@ export class EvaluationScreen extends LitElement {
           ${row('F1, answerable', (s) => s.answerable.f1)} ${row('EM, unanswerable', (s) => s.unanswerable.em)}
           ${row('F1, unanswerable', (s) => s.unanswerable.f1)}
           <tr>
+            <th>Decoded with: no-answer threshold, kind bonus</th>
+            ${cols.map(
+              (r) =>
+                html`<td class="num decoding-used">
+                  ${r ? `${r.decoding.nullThreshold.toFixed(3)}, ${r.decoding.kindBonus}` : '–'}${
+                    r?.decoding.saved ? html`<br /><small class="muted">chosen on its training questions</small>` : ''
+                  }
+                </td>`,
+            )}
+          </tr>
+          <tr>
             <th>No-answer threshold (F1-best)</th>
             ${cols.map((r) => html`<td class="num">${r?.bestCut ? r.bestCut.threshold.toFixed(3) : '–'}</td>`)}
           </tr>
@@ -157,7 +168,7 @@ export class EvaluationScreen extends LitElement {
       </table>
       ${
         tuned
-          ? // the same numbers as the table's "F1, all" row (no-answer threshold 0), and the warning says so
+          ? // the same numbers as the table's "F1, all" row (its decoding as shown), and the warning says so
             readerWarnings(tuned.summary, base ? base.summary : null, null, 'the “F1, all” row').map(
               (w) => html`<p class="note warn reader-warning">${w.replace(/^warning: (.)/, (_, c: string) => c.toUpperCase())}</p>`,
             )

@@ -19,10 +19,17 @@ function plain(s: SquadScores) {
  * `{em, f1, total, answerable, unanswerable}` at the decoder's threshold (0), plus
  * `bestCut` — the same at the F1-best no-answer threshold, which is `threshold`.
  */
-export function scoresObject(report: Pick<EvaluationReport, 'summary'> & { bestCut?: { threshold: number; summary: SquadScores } | null }) {
+export function scoresObject(
+  report: Pick<EvaluationReport, 'summary'> & {
+    bestCut?: { threshold: number; summary: SquadScores } | null;
+    /** the cut and bonus the summary was decoded with (EvaluationResult.decoding) */
+    decoding?: { nullThreshold: number; kindBonus: number; saved: boolean };
+  },
+) {
   return {
     ...plain(report.summary),
     ...(report.bestCut ? { threshold: round(report.bestCut.threshold), bestCut: plain(report.bestCut.summary) } : {}),
+    ...(report.decoding ? { decoding: { ...report.decoding, nullThreshold: round(report.decoding.nullThreshold) } } : {}),
   };
 }
 

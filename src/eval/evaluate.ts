@@ -101,6 +101,7 @@ export interface ReaderParts {
 
 export interface PredictOptions {
   features?: Partial<FeatureOptions>;
+  /** over the reader's own decoding settings (ReaderConfig.decoding), field by field; an undefined field keeps the reader's */
   decode?: SpanChoiceOptions;
   batchSize?: number;
   onProgress?: (done: number, total: number) => void;
@@ -116,7 +117,14 @@ export function predictRecords(
 ): Decoded & { windows: number } {
   const windows = options.windows ?? readerWindows(reader, records, options.features);
   const logits = readerLogits(reader.params, reader.config, windows, { batchSize: options.batchSize, onProgress: options.onProgress });
-  return { ...predictAll(records, windows, logits, options.decode), windows: windows.length };
+  return { ...predictAll(records, windows, logits, readerDecoding(reader.config, options.decode)), windows: windows.length };
+}
+
+/** The decoding options for this reader: its saved settings (ReaderConfig.decoding), then `over`'s defined fields. */
+export function readerDecoding(config: Pick<ReaderConfig, 'decoding'>, over: SpanChoiceOptions = {}): SpanChoiceOptions {
+  const out: SpanChoiceOptions = { ...config.decoding };
+  for (const [k, v] of Object.entries(over) as Array<[keyof SpanChoiceOptions, number | undefined]>) if (v !== undefined) out[k] = v;
+  return out;
 }
 
 /** Every window of every record. */

@@ -44,6 +44,8 @@ export interface ModelCardInfo {
     withoutThreshold?: SquadScores;
     /** the same with the F1-best threshold applied */
     withThreshold?: SquadScores & { threshold: number };
+    /** with the decoding saved in config.json (chosen on the training questions): what eval, predict and ask give */
+    withSavedDecoding?: SquadScores & { nullThreshold: number; kindBonus: number };
   };
   /** ISO 8601 date of the export */
   date: string;
@@ -112,15 +114,22 @@ export function renderModelCard(info: ModelCardInfo): string {
 
   out.push('## Validation scores', '');
   const m = info.metrics;
-  if (m && (m.withoutThreshold || m.withThreshold)) {
+  if (m && (m.withoutThreshold || m.withThreshold || m.withSavedDecoding)) {
     out.push('Exact match and F1 in percent, by the SQuAD 2.0 evaluation rules.', '');
     out.push('| decoding | questions | EM | F1 | count |', '|---|---|---|---|---|');
+    const saved = m.withSavedDecoding;
+    if (saved) out.push(...scoreRows(`saved: threshold ${saved.nullThreshold.toFixed(3)}, kind bonus ${saved.kindBonus}`, saved));
     if (m.withoutThreshold) out.push(...scoreRows('no-answer threshold 0', m.withoutThreshold));
     if (m.withThreshold) out.push(...scoreRows(`best threshold ${m.withThreshold.threshold.toFixed(3)}`, m.withThreshold));
     out.push('');
+    if (saved)
+      out.push(
+        'The saved decoding (`spanwright_decoding` in config.json: the no-answer threshold and the bonus for a span of the kind the question asks for) was chosen on the training questions; evaluation, prediction and questions use it.',
+        '',
+      );
     if (m.withThreshold)
       out.push('The best threshold was chosen on the same validation questions, so its scores are optimistic for new questions.', '');
-    const scored = m.withThreshold ?? m.withoutThreshold;
+    const scored = saved ?? m.withThreshold ?? m.withoutThreshold;
     if (scored) for (const w of readerWarnings(scored)) out.push(`**${w.replace(/^warning: /, 'Warning: ')}**`, '');
   } else {
     out.push('Not measured for this export.', '');

@@ -56,6 +56,22 @@ export interface ReaderConfig {
    * elsewhere, and configs saved before it existed) means off: plain BERT inputs.
    */
   questionMatch?: QuestionMatch;
+  /**
+   * How this reader's spans are best decoded, chosen on its own training questions when it
+   * was fine-tuned (ReaderSession.fineTune): the no-answer cut (src/eval/span-choice.ts
+   * nullThreshold) and the type-aware decoding bonus (kindBonus). Evaluation, prediction and
+   * questions use them unless told otherwise. config.json: "spanwright_decoding":
+   * {"null_threshold", "kind_bonus"}. Absent means the neutral decoding: cut 0, no bonus.
+   */
+  decoding?: DecodingChoice;
+}
+
+/** The decoding settings a fine-tuned reader carries (ReaderConfig.decoding). */
+export interface DecodingChoice {
+  /** predict "" when null score − best span score exceeds this */
+  nullThreshold: number;
+  /** added to the score of a span of the kind the question asks for; ≥ 0 */
+  kindBonus: number;
 }
 
 /** BERT-base's values (Devlin et al. 2019, and its published `config.json`). */
@@ -133,11 +149,23 @@ export function validateConfig(config: ReaderConfig, source = 'config', names: P
     problems.push(`${name('activation')} must be "gelu" or "gelu_sigmoid", got ${JSON.stringify(config.activation)}`);
   }
   if (config.questionMatch !== undefined && !(config.questionMatch in MATCH_TYPES)) {
-    problems.push(`${name('questionMatch')} must be "words", "words+sentence" or "words+sentence+kind", got ${JSON.stringify(config.questionMatch)}`);
+    problems.push(
+      `${name('questionMatch')} must be "words", "words+sentence" or "words+sentence+kind", got ${JSON.stringify(config.questionMatch)}`,
+    );
   } else if (config.questionMatch && config.typeVocabSize < MATCH_TYPES[config.questionMatch]) {
     problems.push(
       `${name('questionMatch')} "${config.questionMatch}" needs ${name('typeVocabSize')} of at least ${MATCH_TYPES[config.questionMatch]}, got ${config.typeVocabSize}`,
     );
+  }
+  if (config.decoding !== undefined) {
+    const d = config.decoding as Partial<DecodingChoice> | null;
+    if (typeof d !== 'object' || d === null) problems.push(`${name('decoding')} must be an object, got ${JSON.stringify(d)}`);
+    else {
+      if (typeof d.nullThreshold !== 'number' || !Number.isFinite(d.nullThreshold))
+        problems.push(`${name('decoding')}.null_threshold must be a finite number, got ${JSON.stringify(d.nullThreshold)}`);
+      if (typeof d.kindBonus !== 'number' || !Number.isFinite(d.kindBonus) || d.kindBonus < 0)
+        problems.push(`${name('decoding')}.kind_bonus must be a number ≥ 0, got ${JSON.stringify(d.kindBonus)}`);
+    }
   }
   if (
     Number.isInteger(config.hiddenSize) &&
@@ -205,7 +233,9 @@ export function configFromHf(json: unknown, file = 'config.json'): ReaderConfig 
   }
   const match = o.spanwright_question_match;
   if (match !== undefined && match !== null && !(typeof match === 'string' && match in MATCH_TYPES)) {
-    throw new Error(`${file}: "spanwright_question_match" must be "words", "words+sentence" or "words+sentence+kind", got ${JSON.stringify(match)}`);
+    throw new Error(
+      `${file}: "spanwright_question_match" must be "words", "words+sentence" or "words+sentence+kind", got ${JSON.stringify(match)}`,
+    );
   }
   const config: ReaderConfig = {
     vocabSize: required('vocab_size'),
@@ -221,6 +251,7 @@ export function configFromHf(json: unknown, file = 'config.json'): ReaderConfig 
     activation,
     initStd: optional('initializer_range', DEFAULT_CONFIG.initStd),
     ...(typeof match === 'string' ? { questionMatch: match as QuestionMatch } : {}),
+    ...decodingFromHf(o.spanwright_decoding, file),
   };
   validateConfig(config, file, HF_NAMES);
   return config;
@@ -241,7 +272,18 @@ const HF_NAMES: Record<keyof ReaderConfig, string> = {
   activation: 'hidden_act',
   initStd: 'initializer_range',
   questionMatch: 'spanwright_question_match',
+  decoding: 'spanwright_decoding',
 };
+
+/** `spanwright_decoding` of a config.json: absent or null is none; anything else must be the object configToHf writes. */
+function decodingFromHf(v: unknown, file: string): { decoding?: DecodingChoice } {
+  if (v === undefined || v === null) return {};
+  if (typeof v !== 'object' || Array.isArray(v))
+    throw new Error(`${file}: "spanwright_decoding" must be an object {"null_threshold", "kind_bonus"}, got ${JSON.stringify(v)}`);
+  const o = v as Record<string, unknown>;
+  // validateConfig names a bad value; a missing kind bonus is none
+  return { decoding: { nullThreshold: o.null_threshold as number, kindBonus: (o.kind_bonus ?? 0) as number } };
+}
 
 /** The HF-style `config.json` object for a checkpoint directory. */
 export function configToHf(config: ReaderConfig): Record<string, unknown> {
@@ -263,7 +305,17 @@ export function configToHf(config: ReaderConfig): Record<string, unknown> {
     position_embedding_type: 'absolute',
     // written only when on, so a plain BERT config stays plain
     ...(config.questionMatch ? { spanwright_question_match: config.questionMatch } : {}),
+    ...(config.decoding
+      ? { spanwright_decoding: { null_threshold: config.decoding.nullThreshold, kind_bonus: config.decoding.kindBonus } }
+      : {}),
   };
+}
+
+/** The config without its decoding settings: a reader trained further has not been measured with them. */
+export function withoutDecoding(config: ReaderConfig): ReaderConfig {
+  if (config.decoding === undefined) return config;
+  const { decoding: _dropped, ...rest } = config;
+  return rest;
 }
 
 /** Which part of the model a parameter belongs to; heads may be missing from a checkpoint. */

@@ -18,8 +18,8 @@
 import { hashDataset } from '../data/hash.js';
 import { mulberry32, shuffleInPlace } from '../data/random.js';
 import type { QARecord } from '../data/record.js';
-import { evaluateRecords, predictRecords, readerLogits, readerWindows } from '../eval/evaluate.js';
-import { predictAll } from '../eval/span-choice.js';
+import { evaluateRecords, predictRecords, readerDecoding, readerLogits, readerWindows } from '../eval/evaluate.js';
+import { KIND_BONUS_GRID, predictAll, type SpanChoiceOptions } from '../eval/span-choice.js';
 import { buildReport, questionsFromRecords, type EvaluationReport } from '../eval/report.js';
 import { lexicalBaselineScores } from '../eval/lexical-baseline.js';
 import { applyNoAnswerThreshold, evaluate, findBestThresholds, goldFromRecords, type SquadScores } from '../eval/squad-metric.js';
@@ -31,7 +31,7 @@ import { int8AccuracyCost, measureInt8Drift } from '../io/int8-check.js';
 import type { ModelCardInfo } from '../io/model-card.js';
 import { namedToSafetensors } from '../io/safetensors.js';
 import { baseWeightsAsIs, howToRun, JOB_PATHS, torchJobFiles } from '../io/torch-job.js';
-import { configToHf, paramCount, type QuestionMatch, type ReaderConfig } from '../model/config.js';
+import { configToHf, paramCount, withoutDecoding, type DecodingChoice, type QuestionMatch, type ReaderConfig } from '../model/config.js';
 import { ReaderParams } from '../model/params.js';
 import { withQuestionMatch } from '../model/question-match.js';
 import { makePracticeQuestions, type PracticeOptions, type PracticePassage } from '../practice/generate.js';
@@ -123,6 +123,12 @@ export interface FineTuneArgs extends RunHooks {
    * `datasetHash` should cover them (the CLI adds the passages and options).
    */
   practiceMix?: { passages: PracticePassage[]; questions?: Partial<PracticeOptions> };
+  /**
+   * Choose the no-answer cut and kind bonus on `train` (the labelled questions, not the
+   * practice ones) once the run ends, and keep them with the fine-tuned reader
+   * (ReaderConfig.decoding). Default true; false leaves the neutral decoding.
+   */
+  chooseDecoding?: boolean;
 }
 
 export interface PracticeArgs extends RunHooks {
@@ -580,8 +586,21 @@ export class ReaderSession {
       ended.result.update,
       ended.result.status === 'finished' ? 'finished' : 'stopped',
     );
-    this.tunedReader = { name, config: from.config, params: ended.params, tokenizer: from.tokenizer };
-    return { ...ended.result, tunedReader: name, replacedTuned: true };
+    const tuned: SessionReader = { name, config: withoutDecoding(from.config), params: ended.params, tokenizer: from.tokenizer };
+    // the no-answer cut and the kind bonus that suit this reader, chosen on its labelled
+    // training questions (never on the questions it is scored on), so evaluation, questions
+    // and the exported config.json use them
+    const decoding =
+      args.chooseDecoding === false
+        ? null
+        : this.chooseDecoding(tuned, args.train, {
+            maxLength: args.config.maxLength,
+            stride: args.config.stride,
+            maxQueryLength: args.config.maxQueryLength,
+          });
+    if (decoding) tuned.config = { ...tuned.config, decoding };
+    this.tunedReader = tuned;
+    return { ...ended.result, tunedReader: name, replacedTuned: true, decoding };
   }
 
   /** One training run from a copy of `from`; the caller takes the trained weights. */
@@ -598,7 +617,8 @@ export class ReaderSession {
     const store = this.store ?? undefined;
     try {
       const result = await fineTune({
-        base: from,
+        // a reader trained further has not been measured with the decoding settings it came with
+        base: { ...from, config: withoutDecoding(from.config) },
         tokenizer: from.tokenizer,
         train: args.train,
         validation: args.validation.length > 0 ? args.validation : undefined,
@@ -753,9 +773,13 @@ export class ReaderSession {
         try {
           if (result.outcome.status === 'stopped') break;
           send({ type: 'scoring', index, of });
-          const { report } = evaluateRecords({ params: result.params, config: from.config, tokenizer: from.tokenizer }, args.validation, {
-            windows,
-          });
+          const { report } = evaluateRecords(
+            { params: result.params, config: withoutDecoding(from.config), tokenizer: from.tokenizer },
+            args.validation,
+            {
+              windows,
+            },
+          );
           const point: CurvePoint = {
             share: subset.share,
             questions: subset.records.length,
@@ -791,10 +815,20 @@ export class ReaderSession {
 
   /** EM/F1 by the SQuAD 2.0 rules and a per-question view, for one of the readers. */
   evaluate(
-    args: { model: ModelChoice; records: QARecord[]; onProgress?: (done: number, total: number) => void } & WindowArgs,
+    args: {
+      model: ModelChoice;
+      records: QARecord[];
+      onProgress?: (done: number, total: number) => void;
+      /** over the reader's saved decoding settings (ReaderConfig.decoding), e.g. {nullThreshold: 0, kindBonus: 0} for the neutral one */
+      decode?: Pick<SpanChoiceOptions, 'nullThreshold' | 'kindBonus'>;
+    } & WindowArgs,
   ): EvaluationResult {
     const r = this.reader(args.model);
-    const { report, decoded } = evaluateRecords(r, args.records, { features: this.windows(args, r).features, onProgress: args.onProgress });
+    const { report, decoded } = evaluateRecords(r, args.records, {
+      features: this.windows(args, r).features,
+      decode: args.decode,
+      onProgress: args.onProgress,
+    });
     return this.evaluationView(args, r, report, decoded);
   }
 
@@ -861,7 +895,7 @@ export class ReaderSession {
 
   /** An evaluation's result as the page shows it: the scores and each question with its spans. */
   private evaluationView(
-    args: { model: ModelChoice; records: QARecord[] },
+    args: { model: ModelChoice; records: QARecord[]; decode?: Pick<SpanChoiceOptions, 'nullThreshold' | 'kindBonus'> },
     r: SessionReader,
     report: EvaluationReport,
     decoded: Pick<ReturnType<typeof predictRecords>, 'decodings'>,
@@ -890,6 +924,7 @@ export class ReaderSession {
       summary: report.summary,
       counts: report.counts,
       bestCut: report.bestCut ? { threshold: report.bestCut.threshold, summary: report.bestCut.summary } : null,
+      decoding: decodingUsed(r.config, args.decode),
       questions,
     };
   }
@@ -899,30 +934,46 @@ export class ReaderSession {
    * training questions) by the metric's best-threshold search: the honest counterpart of
    * the threshold tuned on the scored questions themselves.
    */
-  scoreWithTrainedCut(args: { model: ModelChoice; tuneOn: QARecord[]; records: QARecord[]; kindBonuses?: readonly number[] } & WindowArgs): {
+  scoreWithTrainedCut(
+    args: { model: ModelChoice; tuneOn: QARecord[]; records: QARecord[]; kindBonuses?: readonly number[] } & WindowArgs,
+  ): {
     threshold: number;
     /** the type-aware decoding bonus chosen with the cut (src/eval/span-choice.ts), 0 when none helped */
     kindBonus: number;
     summary: SquadScores;
   } {
     const r = this.reader(args.model);
-    const features = this.windows(args, r).features;
-    const gold = goldFromRecords(args.tuneOn);
-    // the logits once; each bonus only decodes again
-    const tuneWindows = readerWindows(r, args.tuneOn, features);
-    const tuneLogits = readerLogits(r.params, r.config, tuneWindows);
-    let best = { f1: -Infinity, threshold: 0, kindBonus: 0 };
-    for (const kindBonus of args.kindBonuses ?? [0]) {
-      const tune = predictAll(args.tuneOn, tuneWindows, tuneLogits, { kindBonus });
-      const search = findBestThresholds(gold, tune.bestSpans, tune.scoreDiffs);
-      if (search.bestF1 > best.f1) best = { f1: search.bestF1, threshold: search.bestF1Threshold, kindBonus };
-    }
-    const held = predictRecords(r, args.records, { features, decode: { kindBonus: best.kindBonus } });
+    const choice = this.chooseDecoding(r, args.tuneOn, args, args.kindBonuses ?? [0]) ?? { nullThreshold: 0, kindBonus: 0 };
+    const held = predictRecords(r, args.records, { features: this.windows(args, r).features, decode: { kindBonus: choice.kindBonus } });
     return {
-      threshold: best.threshold,
-      kindBonus: best.kindBonus,
-      summary: evaluate(goldFromRecords(args.records), applyNoAnswerThreshold(held.bestSpans, held.scoreDiffs, best.threshold)),
+      threshold: choice.nullThreshold,
+      kindBonus: choice.kindBonus,
+      summary: evaluate(goldFromRecords(args.records), applyNoAnswerThreshold(held.bestSpans, held.scoreDiffs, choice.nullThreshold)),
     };
+  }
+
+  /**
+   * The no-answer cut and kind bonus (over `kindBonuses`) with the best SQuAD 2.0 F1 on
+   * `tuneOn`, by the metric's best-threshold search; null when there are no questions to
+   * choose on. Each bonus only decodes the same logits again.
+   */
+  private chooseDecoding(
+    r: SessionReader,
+    tuneOn: readonly QARecord[],
+    windowArgs: WindowArgs,
+    kindBonuses: readonly number[] = KIND_BONUS_GRID,
+  ): DecodingChoice | null {
+    if (tuneOn.length === 0) return null;
+    const gold = goldFromRecords([...tuneOn]);
+    const windows = readerWindows(r, tuneOn, this.windows(windowArgs, r).features);
+    const logits = readerLogits(r.params, r.config, windows);
+    let best = { f1: -Infinity, choice: { nullThreshold: 0, kindBonus: 0 } };
+    for (const kindBonus of kindBonuses) {
+      const tune = predictAll(tuneOn, windows, logits, { kindBonus });
+      const search = findBestThresholds(gold, tune.bestSpans, tune.scoreDiffs);
+      if (search.bestF1 > best.f1) best = { f1: search.bestF1, choice: { nullThreshold: search.bestF1Threshold, kindBonus } };
+    }
+    return best.choice;
   }
 
   /** The word-overlap baseline (src/eval/lexical-baseline.ts) on `records`, its no-answer cut chosen on `tuneOn`. */
@@ -1120,7 +1171,9 @@ export class ReaderSession {
     if (args.card.dataset) card.dataset = args.card.dataset;
     if (args.card.settings) card.settings = args.card.settings;
     if (args.card.scores) card.metrics = args.card.scores;
-    else if (scores) card.metrics = { withoutThreshold: scores };
+    // the page's scores come from `evaluate`, which decodes with the reader's saved settings
+    else if (scores)
+      card.metrics = r.config.decoding ? { withSavedDecoding: { ...scores, ...r.config.decoding } } : { withoutThreshold: scores };
     const base = args.card.baseScores;
     if (base)
       card.notes!.push(`the base reader scored EM ${base.em?.toFixed(1)} / F1 ${base.f1?.toFixed(1)} on the same validation questions`);
@@ -1235,4 +1288,16 @@ export class ReaderSession {
   dispose(): void {
     this.disposeReaders();
   }
+}
+
+/** The no-answer cut and kind bonus a decoding of this reader used, and whether they are the ones saved with it. */
+function decodingUsed(
+  config: ReaderConfig,
+  over: Pick<SpanChoiceOptions, 'nullThreshold' | 'kindBonus'> = {},
+): EvaluationResult['decoding'] {
+  const d = readerDecoding(config, over);
+  const nullThreshold = d.nullThreshold ?? 0;
+  const kindBonus = d.kindBonus ?? 0;
+  const saved = config.decoding !== undefined && config.decoding.nullThreshold === nullThreshold && config.decoding.kindBonus === kindBonus;
+  return { nullThreshold, kindBonus, saved };
 }

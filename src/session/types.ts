@@ -4,7 +4,7 @@
 // postMessage and lands in IndexedDB unchanged; no tensor is ever in one of these.
 import type { EvaluationReport } from '../eval/report.js';
 import type { ModelCardInfo } from '../io/model-card.js';
-import type { ReaderConfig } from '../model/config.js';
+import type { DecodingChoice, ReaderConfig } from '../model/config.js';
 import type { AnswerKind } from '../practice/candidates.js';
 import type { PracticeKind } from '../practice/generate.js';
 import type { Metrics } from '../train/loop.js';
@@ -66,6 +66,8 @@ export interface FineTuneEnded extends TrainEnded {
   tunedReader: string | null;
   /** whether this run's weights became it (false: the reader in use before stays) */
   replacedTuned: boolean;
+  /** the decoding settings chosen for it on the training questions and saved with it; null when none were chosen */
+  decoding?: DecodingChoice | null;
 }
 
 /** One practice question as the page shows it before training on them. */
@@ -159,6 +161,8 @@ export interface EvaluationResult {
   counts: EvaluationReport['counts'];
   /** the scores at the no-answer cut that is best on these questions, and that cut */
   bestCut: { threshold: number; summary: EvaluationReport['summary'] } | null;
+  /** the no-answer cut and kind bonus `summary` was decoded with; saved: they are the reader's own (ReaderConfig.decoding) */
+  decoding: { nullThreshold: number; kindBonus: number; saved: boolean };
   questions: QuestionView[];
 }
 

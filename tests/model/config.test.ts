@@ -2,7 +2,15 @@
 
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { configFromHf, configToHf, DEFAULT_CONFIG, paramCount, presetConfig, validateConfig } from '../../src/model/config.js';
+import {
+  configFromHf,
+  configToHf,
+  DEFAULT_CONFIG,
+  paramCount,
+  presetConfig,
+  validateConfig,
+  withoutDecoding,
+} from '../../src/model/config.js';
 import { FIXTURES, loadFixture, type JsonTensor } from './fixtures.js';
 
 describe('presets', () => {
@@ -72,6 +80,23 @@ describe('HF-style config.json', () => {
     );
     expect(() => configFromHf({ ...configToHf(presetConfig('tiny', 100)), spanwright_question_match: true }, 'c.json')).toThrow(
       /c\.json: "spanwright_question_match" must be "words", "words\+sentence" or "words\+sentence\+kind"/,
+    );
+  });
+
+  it('carries the decoding chosen for a fine-tuned reader as "spanwright_decoding", only when set, and names a bad value', () => {
+    const tuned = presetConfig('tiny', 100, { decoding: { nullThreshold: -1.25, kindBonus: 3 } });
+    const hf = configToHf(tuned);
+    expect(hf.spanwright_decoding).toEqual({ null_threshold: -1.25, kind_bonus: 3 });
+    expect(configFromHf(JSON.parse(JSON.stringify(hf)))).toEqual(tuned);
+    expect('spanwright_decoding' in configToHf(presetConfig('tiny', 100))).toBe(false);
+    expect(withoutDecoding(tuned)).toEqual(presetConfig('tiny', 100));
+    const plain = configToHf(presetConfig('tiny', 100));
+    expect(() => configFromHf({ ...plain, spanwright_decoding: 2 }, 'c.json')).toThrow(/c\.json: "spanwright_decoding" must be an object/);
+    expect(() => configFromHf({ ...plain, spanwright_decoding: { null_threshold: 'high' } }, 'c.json')).toThrow(
+      /c\.json: invalid reader config: spanwright_decoding\.null_threshold must be a finite number, got "high"/,
+    );
+    expect(() => configFromHf({ ...plain, spanwright_decoding: { null_threshold: 0, kind_bonus: -1 } }, 'c.json')).toThrow(
+      /spanwright_decoding\.kind_bonus must be a number ≥ 0, got -1/,
     );
   });
 

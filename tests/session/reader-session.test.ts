@@ -197,6 +197,59 @@ describe('the session use-cases', () => {
   }, 120_000);
 });
 
+describe('the decoding a fine-tuned reader keeps', () => {
+  it('is chosen on its training questions, decodes its evaluation, goes into config.json and comes back with it', async () => {
+    await useBackend('wasm');
+    const session = new ReaderSession();
+    session.loadBase({ name: 'tiny', files: tinyReaderFiles() });
+    const windows = { maxLength: 96, stride: 16, maxQueryLength: 24 };
+    const config = trainConfig({ ...windows, batchSize: 4, gradAccumulation: 1, epochs: 1, learningRate: 1e-3 });
+    const train = records();
+    const ended = await session.fineTune({ runId: 'd1', train, validation: [], config, datasetHash: 'h' });
+    const chosen = ended.decoding!;
+    expect(chosen).not.toBeNull();
+    expect(session.reader('tuned').config.decoding).toEqual(chosen);
+    // the F1-best choice on those questions: no worse there than the neutral decoding
+    const saved = session.evaluate({ model: 'tuned', records: train, ...windows });
+    const neutral = session.evaluate({ model: 'tuned', records: train, ...windows, decode: { nullThreshold: 0, kindBonus: 0 } });
+    expect(saved.decoding).toEqual({ ...chosen, saved: true });
+    expect(neutral.decoding.nullThreshold).toBe(0);
+    expect(saved.summary.f1!).toBeGreaterThanOrEqual(neutral.summary.f1! - 1e-9);
+    // predictions answer nothing exactly where the score difference passes the reader's own cut
+    const own = session.predict({ model: 'tuned', records: train, ...windows });
+    for (const r of train) expect([r.id, own.predictions[r.id] === '']).toEqual([r.id, own.scoreDiffs[r.id]! > chosen.nullThreshold]);
+    // exported, and read back as a base: the same decoding, used by its evaluation
+    const { files } = session.exportReader({ model: 'tuned', fp16: false, int8: false, onnx: false, card: {} });
+    const text = (name: string) => new TextDecoder().decode(files.find((f) => f.name === name)!.bytes);
+    expect((JSON.parse(text('config.json')) as Record<string, unknown>).spanwright_decoding).toEqual({
+      null_threshold: chosen.nullThreshold,
+      kind_bonus: chosen.kindBonus,
+    });
+    const again = new ReaderSession();
+    again.loadBase({
+      name: 'exported',
+      files: {
+        configJson: text('config.json'),
+        safetensors: files.find((f) => f.name === 'model.safetensors')!.bytes,
+        vocab: { file: 'vocab.txt', text: vocab },
+      },
+    });
+    expect(again.reader('base').config.decoding).toEqual(chosen);
+    expect(again.evaluate({ model: 'base', records: train, ...windows }).summary).toEqual(saved.summary);
+    // fine-tuned further, it chooses afresh; told not to, it keeps the neutral decoding
+    const plainRun = await again.fineTune({ runId: 'd2', train, validation: [], config, datasetHash: 'h', chooseDecoding: false });
+    expect(plainRun.decoding).toBeNull();
+    expect(again.reader('tuned').config.decoding).toBeUndefined();
+    expect(again.evaluate({ model: 'tuned', records: train, ...windows }).decoding).toEqual({
+      nullThreshold: 0,
+      kindBonus: 0,
+      saved: false,
+    });
+    session.dispose();
+    again.dispose();
+  }, 120_000);
+});
+
 describe('exporting a saved checkpoint', () => {
   it('writes that checkpoint’s weights and run, and leaves the reader in use alone', async () => {
     await useBackend('wasm');

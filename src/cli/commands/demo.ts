@@ -37,95 +37,100 @@ export function register(program: Command): void {
       'first train the encoder with masked-LM on the training passages for about this many minutes (default 0)',
     )
     .option('--json', 'print {before, afterPractice, after, afterTrainedCut, baseline, out} as one JSON object on the last line')
-    .action((o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json' | 'practiceEpochs' | 'domainMinutes'> & { out?: string; practiceStage?: boolean }) =>
-      runCommand(async () => {
-        const train = join(DEMO, 'train.jsonl');
-        const validation = join(DEMO, 'validation.jsonl');
-        for (const f of [train, validation, join(o.base, 'config.json')]) {
-          try {
-            await access(f);
-          } catch {
-            throw new UserError(`${f} is missing (run from the repository's top folder)`);
+    .action(
+      (
+        o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json' | 'practiceEpochs' | 'domainMinutes'> & {
+          out?: string;
+          practiceStage?: boolean;
+        },
+      ) =>
+        runCommand(async () => {
+          const train = join(DEMO, 'train.jsonl');
+          const validation = join(DEMO, 'validation.jsonl');
+          for (const f of [train, validation, join(o.base, 'config.json')]) {
+            try {
+              await access(f);
+            } catch {
+              throw new UserError(`${f} is missing (run from the repository's top folder)`);
+            }
           }
-        }
-        const out = o.out ?? join('runs', `demo-${stamp()}`);
-        const options: TrainOptions = { train, base: o.base, out, epochs: o.epochs, lr: o.lr, seed: o.seed };
-        const config = configFromOptions(options);
-        // the practice stage reads the training split's passages only, never the validation passages
-        const practiceOptions: TrainOptions = {
-          ...options,
-          practiceFrom: o.practiceEpochs === '0' ? undefined : 'train',
-          practiceEpochs: o.practiceEpochs,
-          practiceMixed: o.practiceStage !== true,
-          domainMinutes: o.domainMinutes,
-        };
-        const log = (line: string) => process.stderr.write(`${line}\n`);
-        log(
-          `demo: ${practiceOptions.practiceFrom ? 'practice questions from the training passages, then ' : ''}fine-tuning ${o.base} on ${train}, measuring on ${validation}, writing ${out}`,
-        );
-        const run = await trainReader(
-          {
-            train,
-            eval: validation,
-            base: o.base,
-            out,
-            measureBase: true,
-            measureCut: true,
-            int8: true,
-            onnx: true,
-            practice: (records) => practiceFromOptions(practiceOptions, records, config),
-          },
-          config,
-          log,
-        );
-        const before = run.before!;
-        const after = run.after!;
-        const cut = run.afterTrainedCut!;
-        const baseline = run.baseline!;
-        if (o.json) {
-          return printJson({
-            before: scoresObject(before),
-            afterPractice: run.practice?.afterPractice ? scoresObject(run.practice.afterPractice) : null,
-            after: scoresObject(after),
-            afterTrainedCut: { threshold: cut.threshold, kindBonus: cut.kindBonus, ...scoresObject({ summary: cut.summary }) },
-            baseline: scoresObject({ summary: baseline.summary }),
-            out,
-          });
-        }
-        const rows = [
-          { label: 'word-overlap baseline', scores: baseline.summary },
-          { label: 'base', scores: before.summary },
-          ...(run.practice?.afterPractice ? [{ label: 'after practice', scores: run.practice.afterPractice.summary }] : []),
-          { label: 'fine-tuned', scores: after.summary },
-          { label: `fine-tuned, cut ${cut.threshold.toFixed(2)} and kind bonus ${cut.kindBonus} from training`, scores: cut.summary },
-        ];
-        process.stdout.write(`\nvalidation (${validation}); no-answer cuts are chosen on the training questions\n${scoresTable(rows)}\n`);
-        const warnings = readerWarnings(cut.summary, before.summary, baseline.summary);
-        if (warnings.length > 0)
-          warnings.push(
-            `(The warnings compare the row "fine-tuned, cut … and kind bonus … from training" with the base and the baseline. The base's card, ${join(o.base, 'MODEL_CARD.md')}, says how it was measured.)`,
+          const out = o.out ?? join('runs', `demo-${stamp()}`);
+          const options: TrainOptions = { train, base: o.base, out, epochs: o.epochs, lr: o.lr, seed: o.seed };
+          const config = configFromOptions(options);
+          // the practice stage reads the training split's passages only, never the validation passages
+          const practiceOptions: TrainOptions = {
+            ...options,
+            practiceFrom: o.practiceEpochs === '0' ? undefined : 'train',
+            practiceEpochs: o.practiceEpochs,
+            practiceMixed: o.practiceStage !== true,
+            domainMinutes: o.domainMinutes,
+          };
+          const log = (line: string) => process.stderr.write(`${line}\n`);
+          log(
+            `demo: ${practiceOptions.practiceFrom ? 'practice questions from the training passages, then ' : ''}fine-tuning ${o.base} on ${train}, measuring on ${validation}, writing ${out}`,
           );
-        process.stdout.write(`${warnings.map((w) => `${w}\n`).join('')}\n`);
-        if (run.domain)
+          const run = await trainReader(
+            {
+              train,
+              eval: validation,
+              base: o.base,
+              out,
+              measureBase: true,
+              int8: true,
+              onnx: true,
+              practice: (records) => practiceFromOptions(practiceOptions, records, config),
+            },
+            config,
+            log,
+          );
+          const before = run.before!;
+          const after = run.after!;
+          const cut = run.afterTrainedCut!;
+          const baseline = run.baseline!;
+          if (o.json) {
+            return printJson({
+              before: scoresObject(before),
+              afterPractice: run.practice?.afterPractice ? scoresObject(run.practice.afterPractice) : null,
+              after: scoresObject(after),
+              afterTrainedCut: { threshold: cut.threshold, kindBonus: cut.kindBonus, ...scoresObject({ summary: cut.summary }) },
+              baseline: scoresObject({ summary: baseline.summary }),
+              out,
+            });
+          }
+          const rows = [
+            { label: 'word-overlap baseline', scores: baseline.summary },
+            { label: 'base', scores: before.summary },
+            ...(run.practice?.afterPractice ? [{ label: 'after practice', scores: run.practice.afterPractice.summary }] : []),
+            { label: 'fine-tuned', scores: after.summary },
+            { label: `fine-tuned, cut ${cut.threshold.toFixed(2)} and kind bonus ${cut.kindBonus} from training`, scores: cut.summary },
+          ];
+          process.stdout.write(`\nvalidation (${validation}); no-answer cuts are chosen on the training questions\n${scoresTable(rows)}\n`);
+          const warnings = readerWarnings(cut.summary, before.summary, baseline.summary);
+          if (warnings.length > 0)
+            warnings.push(
+              `(The warnings compare the row "fine-tuned, cut … and kind bonus … from training" with the base and the baseline. The base's card, ${join(o.base, 'MODEL_CARD.md')}, says how it was measured.)`,
+            );
+          process.stdout.write(`${warnings.map((w) => `${w}\n`).join('')}\n`);
+          if (run.domain)
+            process.stdout.write(
+              `masked-LM on the ${new Set(run.train.map((r) => r.passageId)).size} training passages: ${run.domain.passes} passes, ${run.domain.updates} updates, ${run.domain.seconds.toFixed(0)} s\n`,
+            );
+          if (run.mixedPractice)
+            process.stdout.write(
+              `${run.mixedPractice.questions} practice questions from the ${new Set(run.train.map((r) => r.passageId)).size} training passages, mixed into fine-tuning\n`,
+            );
+          if (run.practice)
+            process.stdout.write(
+              `${run.practice.questions} practice questions from the ${new Set(run.train.map((r) => r.passageId)).size} training passages, ${run.practice.updates} updates, ${run.practice.seconds.toFixed(0)} s\n`,
+            );
+          process.stdout.write(`${run.train.length} training questions, ${run.config.epochs} epochs, ${run.seconds.toFixed(0)} s in all\n`);
+          process.stdout.write(`model directory: ${out}/\n`);
+          for (const f of run.files) process.stdout.write(`  ${f.name.padEnd(24)} ${f.bytes.toLocaleString('en-US').padStart(12)} bytes\n`);
+          process.stdout.write(`checkpoints:     ${out}/checkpoints/\n`);
           process.stdout.write(
-            `masked-LM on the ${new Set(run.train.map((r) => r.passageId)).size} training passages: ${run.domain.passes} passes, ${run.domain.updates} updates, ${run.domain.seconds.toFixed(0)} s\n`,
+            `try it:          npm run spanwright -- ask --model ${out} --passages ${DEMO}/passages.jsonl --question "…"\n`,
           );
-        if (run.mixedPractice)
-          process.stdout.write(
-            `${run.mixedPractice.questions} practice questions from the ${new Set(run.train.map((r) => r.passageId)).size} training passages, mixed into fine-tuning\n`,
-          );
-        if (run.practice)
-          process.stdout.write(
-            `${run.practice.questions} practice questions from the ${new Set(run.train.map((r) => r.passageId)).size} training passages, ${run.practice.updates} updates, ${run.practice.seconds.toFixed(0)} s\n`,
-          );
-        process.stdout.write(`${run.train.length} training questions, ${run.config.epochs} epochs, ${run.seconds.toFixed(0)} s in all\n`);
-        process.stdout.write(`model directory: ${out}/\n`);
-        for (const f of run.files) process.stdout.write(`  ${f.name.padEnd(24)} ${f.bytes.toLocaleString('en-US').padStart(12)} bytes\n`);
-        process.stdout.write(`checkpoints:     ${out}/checkpoints/\n`);
-        process.stdout.write(
-          `try it:          npm run spanwright -- ask --model ${out} --passages ${DEMO}/passages.jsonl --question "…"\n`,
-        );
-        process.stdout.write(`\n${CAUTION}\n`);
-      }),
+          process.stdout.write(`\n${CAUTION}\n`);
+        }),
     );
 }

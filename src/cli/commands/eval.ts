@@ -63,7 +63,7 @@ function common(cmd: Command): Command {
 
 export function register(program: Command): void {
   common(program.command('eval').description('score a model directory on labelled questions (SQuAD 2.0 EM/F1)'))
-    .option('--json', 'print one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, bestCut}')
+    .option('--json', 'print one JSON object on the last line: {em, f1, total, answerable, unanswerable, threshold, bestCut, decoding}')
     .action((o: ReadOptions) =>
       runCommand(async () => {
         const { session, records, windows } = await open(o);
@@ -76,7 +76,13 @@ export function register(program: Command): void {
           session.dispose();
         }
         if (o.json) return printJson(scoresObject(report));
-        const rows = [{ label: 'threshold 0', scores: report.summary }];
+        const d = report.decoding;
+        const rows = [
+          {
+            label: d.saved ? `saved cut ${d.nullThreshold.toFixed(2)}, kind bonus ${d.kindBonus}` : `threshold ${d.nullThreshold}`,
+            scores: report.summary,
+          },
+        ];
         if (report.bestCut) rows.push({ label: `tuned ${report.bestCut.threshold.toFixed(2)}`, scores: report.bestCut.summary });
         process.stdout.write(`${scoresTable(rows)}\n`);
         const c = report.counts;
@@ -90,7 +96,10 @@ export function register(program: Command): void {
   common(program.command('predict').description('answer questions and write the id → answer map that `score` reads'))
     .requiredOption('--out <file>', 'predictions JSON: {question id: answer text, "" for no answer}')
     .option('--na-prob <file>', 'also write id → (null score − best span score), for `score --na-prob`')
-    .option('--threshold <x>', 'answer nothing when the null score beats the best span by more than this', '0')
+    .option(
+      '--threshold <x>',
+      'answer nothing when the null score beats the best span by more than this (default: the cut saved with the model, else 0)',
+    )
     .action((o: ReadOptions) =>
       runCommand(async () => {
         const { session, records, windows } = await open(o);

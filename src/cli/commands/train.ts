@@ -14,7 +14,6 @@ import { UserError, printJson, runCommand } from '../common.js';
 import { loadRecords, readModelDir, startEngine, writeFilesAtomically } from '../../node/model-dir.js';
 import { countProgress, trainingProgress } from '../progress.js';
 import { readerWarnings } from '../../eval/reader-warnings.js';
-import { KIND_BONUS_GRID } from '../../eval/span-choice.js';
 import { scoresObject, scoresTable } from '../scores.js';
 import { hashDataset } from '../../data/hash.js';
 import type { QARecord } from '../../data/record.js';
@@ -180,7 +179,8 @@ export async function practiceFromOptions(o: TrainOptions, train: QARecord[], co
     throw new UserError((err as Error).message);
   }
   const perPassage =
-    int('practice-per-passage', o.practicePerPassage) ?? (o.practiceMixed ? PRACTICE_DEFAULTS.mixedPerPassage : PRACTICE_DEFAULTS.perPassage);
+    int('practice-per-passage', o.practicePerPassage) ??
+    (o.practiceMixed ? PRACTICE_DEFAULTS.mixedPerPassage : PRACTICE_DEFAULTS.perPassage);
   return {
     passages,
     source: fromTrain ? "the training questions' passages" : from,
@@ -205,7 +205,7 @@ export interface TrainRun {
   evalRecords: QARecord[] | null;
   before: EvaluationResult | null;
   after: EvaluationResult | null;
-  /** the fine-tuned reader with its no-answer cut chosen on the training questions (measureCut) */
+  /** the fine-tuned reader with the decoding chosen on the training questions and saved with it */
   afterTrainedCut: { threshold: number; kindBonus: number; summary: SquadScores } | null;
   /** the word-overlap baseline, its cut chosen on the training questions (measureBase) */
   baseline: { minCoverage: number; summary: SquadScores } | null;
@@ -247,8 +247,6 @@ export async function trainReader(
     out: string;
     resume?: boolean;
     measureBase?: boolean;
-    /** also score with the no-answer cut chosen on the training questions (one more pass over them) */
-    measureCut?: boolean;
     int8?: boolean;
     onnx?: boolean;
     /** the practice stage for these training questions, if any */
@@ -282,10 +280,10 @@ export async function trainReader(
   const evalRecords = o.eval ? await loadRecords(o.eval, log) : null;
   const datasetHash = await hashDataset(train);
   const windows = { maxLength: config.maxLength, stride: config.stride, maxQueryLength: config.maxQueryLength };
-  const evaluate = (label: string, model: 'base' | 'start' | 'tuned') => {
+  const evaluate = (label: string, model: 'base' | 'start' | 'tuned', decode?: { nullThreshold: number; kindBonus: number }) => {
     const bar = countProgress(label);
     try {
-      return session.evaluate({ model, records: evalRecords!, ...windows, onProgress: bar.update });
+      return session.evaluate({ model, records: evalRecords!, ...windows, decode, onProgress: bar.update });
     } finally {
       bar.stop();
     }
@@ -411,9 +409,12 @@ export async function trainReader(
       throw new UserError(`stopped at update ${ended.update}; continue with the same command and --resume`, 130);
 
     // 3. measure
-    const after = evalRecords ? evaluate('evaluating the trained reader', 'tuned') : null;
+    // the neutral decoding, then the one chosen on the training questions and saved with the reader
+    const after = evalRecords ? evaluate('evaluating the trained reader', 'tuned', NEUTRAL_DECODING) : null;
+    const saved = ended.decoding ?? null;
+    const withSaved = evalRecords && saved ? evaluate('evaluating with its saved decoding', 'tuned') : null;
     const afterTrainedCut =
-      evalRecords && o.measureCut ? session.scoreWithTrainedCut({ model: 'tuned', tuneOn: train, records: evalRecords, kindBonuses: KIND_BONUS_GRID, ...windows }) : null;
+      withSaved && saved ? { threshold: saved.nullThreshold, kindBonus: saved.kindBonus, summary: withSaved.summary } : null;
     const baseline = evalRecords && o.measureBase ? session.wordOverlapBaseline({ tuneOn: train, records: evalRecords }) : null;
 
     // 4. write
@@ -431,6 +432,7 @@ export async function trainReader(
           ? {
               withoutThreshold: after.summary,
               withThreshold: after.bestCut ? { ...after.bestCut.summary, threshold: after.bestCut.threshold } : undefined,
+              withSavedDecoding: withSaved && saved ? { ...withSaved.summary, ...saved } : undefined,
             }
           : undefined,
         baseScores: before?.summary,
@@ -471,6 +473,9 @@ export async function trainReader(
     await lock.release();
   }
 }
+
+/** No no-answer cut and no kind bonus: the reader's logits as they are. */
+const NEUTRAL_DECODING = { nullThreshold: 0, kindBonus: 0 };
 
 export function register(program: Command): void {
   const d = DEFAULT_TRAIN_CONFIG;
@@ -548,14 +553,28 @@ Example:
         }
         const rows = [
           ...(run.practice?.afterPractice ? [{ label: 'after practice', scores: run.practice.afterPractice.summary }] : []),
-          ...(run.after ? [{ label: 'trained', scores: run.after.summary }] : []),
+          ...(run.after ? [{ label: 'trained, threshold 0', scores: run.after.summary }] : []),
+          ...(run.afterTrainedCut
+            ? [
+                {
+                  label: `trained, saved cut ${run.afterTrainedCut.threshold.toFixed(2)} and kind bonus ${run.afterTrainedCut.kindBonus}`,
+                  scores: run.afterTrainedCut.summary,
+                },
+              ]
+            : []),
         ];
         if (rows.length > 0) process.stdout.write(`${scoresTable(rows)}\n`);
         if (run.after?.bestCut)
           process.stdout.write(
             `with the tuned no-answer threshold ${run.after.bestCut.threshold.toFixed(2)}: EM ${run.after.bestCut.summary.em?.toFixed(1)} F1 ${run.after.bestCut.summary.f1?.toFixed(1)}\n`,
           );
-        if (run.after) for (const w of readerWarnings(run.after.bestCut?.summary ?? run.after.summary)) process.stdout.write(`${w}\n`);
+        if (run.afterTrainedCut)
+          process.stdout.write(
+            'the saved cut and bonus were chosen on the training questions and are kept in config.json ("spanwright_decoding"): eval, predict and ask use them\n',
+          );
+        if (run.after)
+          for (const w of readerWarnings(run.afterTrainedCut?.summary ?? run.after.bestCut?.summary ?? run.after.summary))
+            process.stdout.write(`${w}\n`);
         process.stdout.write(`model directory: ${run.out} (${run.files.map((f) => f.name).join(', ')}) in ${run.seconds.toFixed(0)} s\n`);
       }),
     );
