@@ -16,8 +16,9 @@ function plain(s: SquadScores) {
 }
 
 /**
- * `{em, f1, total, answerable, unanswerable}` at the decoder's threshold (0), plus
- * `bestCut` — the same at the F1-best no-answer threshold, which is `threshold`.
+ * `{em, f1, total, answerable, unanswerable}` as decoded (the reader's saved cut and bonus,
+ * or cut 0: `decoding` says which), plus `bestCut` — the same at the F1-best no-answer
+ * threshold on these questions, which is `threshold`.
  */
 export function scoresObject(
   report: Pick<EvaluationReport, 'summary'> & {

@@ -30,7 +30,7 @@ const lastJson = (stdout: string) => JSON.parse(stdout.trim().split('\n').pop()!
 describe('train, eval, predict, score, ask', () => {
   let dir: string;
   let model: string;
-  let trained: { em: number; f1: number; total: number };
+  let trained: { em: number; f1: number; total: number; decoding: { nullThreshold: number; kindBonus: number; saved: boolean } };
 
   beforeAll(async () => {
     dir = await mkdtemp(join(tmpdir(), 'spanwright-cli-'));
@@ -74,6 +74,11 @@ describe('train, eval, predict, score, ask', () => {
     const e = lastJson(r.stdout);
     expect(e.em).toBeCloseTo(trained.em, 6);
     expect(e.f1).toBeCloseTo(trained.f1, 6);
+    // both decoded with the cut and bonus train chose on its questions and wrote into config.json
+    expect(e.decoding).toEqual(trained.decoding);
+    expect(e.decoding.saved).toBe(true);
+    const config = JSON.parse(await readFile(join(model, 'config.json'), 'utf8')) as { spanwright_decoding: unknown };
+    expect(config.spanwright_decoding).toEqual({ null_threshold: expect.any(Number), kind_bonus: e.decoding.kindBonus });
   });
 
   it('predict + score agree with eval', async () => {

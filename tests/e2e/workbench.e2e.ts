@@ -432,6 +432,9 @@ describe('the browser workbench', () => {
     // the fine-tuned column is named by its run; progress is gone once both readers are scored
     await expect(page.locator('#eval-summary .reader-name').last().textContent()).resolves.toMatch(/^run 1, update \d+/);
     await expect(page.locator('#evaluate-progress').count()).resolves.toBe(0);
+    // the base decodes neutrally; the fine-tuned reader with the cut and bonus its run chose on the training questions
+    await expect(page.locator('#eval-summary .decoding-used').first().textContent()).resolves.toMatch(/^\s*0\.000, 0\s*$/);
+    await expect(page.locator('#eval-summary .decoding-used').last().textContent()).resolves.toContain('chosen on its training questions');
     // a warning comparing base and fine-tuned says which row it compares
     for (const w of await page.locator('.reader-warning', { hasText: 'did not raise' }).allTextContents())
       expect(w).toContain('“F1, all” row');

@@ -31,6 +31,10 @@ export function register(program: Command): void {
     .option('--lr <x>', 'peak learning rate (default: the one suggested for the base width, as train)')
     .option('--seed <n>', 'seed for data order and dropout')
     .option('--practice-stage', 'train on the practice questions in a stage of their own before fine-tuning, not mixed into it')
+    .option(
+      '--practice-per-passage <n>',
+      `practice questions written per training passage (default ${PRACTICE_DEFAULTS.mixedPerPassage} mixed into fine-tuning, ${PRACTICE_DEFAULTS.perPassage} in a stage of their own)`,
+    )
     .option('--practice-epochs <n>', `passes over the practice questions (default ${PRACTICE_DEFAULTS.epochs}); 0 skips the practice stage`)
     .option(
       '--domain-minutes <n>',
@@ -39,7 +43,7 @@ export function register(program: Command): void {
     .option('--json', 'print {before, afterPractice, after, afterTrainedCut, baseline, out} as one JSON object on the last line')
     .action(
       (
-        o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json' | 'practiceEpochs' | 'domainMinutes'> & {
+        o: Pick<TrainOptions, 'base' | 'epochs' | 'lr' | 'seed' | 'json' | 'practiceEpochs' | 'practicePerPassage' | 'domainMinutes'> & {
           out?: string;
           practiceStage?: boolean;
         },
@@ -62,6 +66,7 @@ export function register(program: Command): void {
             ...options,
             practiceFrom: o.practiceEpochs === '0' ? undefined : 'train',
             practiceEpochs: o.practiceEpochs,
+            practicePerPassage: o.practicePerPassage,
             practiceMixed: o.practiceStage !== true,
             domainMinutes: o.domainMinutes,
           };

@@ -205,6 +205,8 @@ export interface TrainRun {
   evalRecords: QARecord[] | null;
   before: EvaluationResult | null;
   after: EvaluationResult | null;
+  /** the same evaluation decoded as the written model decodes: with the cut and bonus saved with it */
+  afterSaved: EvaluationResult | null;
   /** the fine-tuned reader with the decoding chosen on the training questions and saved with it */
   afterTrainedCut: { threshold: number; kindBonus: number; summary: SquadScores } | null;
   /** the word-overlap baseline, its cut chosen on the training questions (measureBase) */
@@ -458,6 +460,7 @@ export async function trainReader(
       evalRecords,
       before,
       after,
+      afterSaved: withSaved,
       afterTrainedCut,
       baseline,
       practice,
@@ -548,7 +551,9 @@ Example:
           log,
         );
         if (o.json) {
-          printJson(run.after ? scoresObject(run.after) : { em: null, f1: null, total: 0 });
+          // as the written model decodes, so `eval` of it prints the same
+          const scored = run.afterSaved ?? run.after;
+          printJson(scored ? scoresObject(scored) : { em: null, f1: null, total: 0 });
           return;
         }
         const rows = [
