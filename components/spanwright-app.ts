@@ -20,7 +20,7 @@ import { migrateStoredSettings, SETTINGS_VERSION } from '../src/session/stored-s
 import { domainTrainSettings, practiceTrainSettings } from '../src/session/windows.js';
 import { suggestedLearningRate, type TrainConfig } from '../src/train/config.js';
 import type { LoopEvent } from '../src/train/loop.js';
-import type { BaseInfo, EngineReady, EvaluationResult } from '../workers/protocol.js';
+import type { BaseInfo, DecodingChoice, EngineReady, EvaluationResult } from '../workers/protocol.js';
 import { EngineClient } from './engine-client.js';
 import { screenStyles } from './shared-styles.js';
 import {
@@ -285,7 +285,7 @@ export class SpanwrightApp extends LitElement {
   private async restoreTuned(tuned: TunedState | null): Promise<void> {
     if (!tuned || !this.baseInfo || tuned.baseName !== this.baseInfo.name) return;
     try {
-      await this.engine.call({ kind: 'restore-checkpoint', id: tuned.checkpointId });
+      await this.engine.call({ kind: 'restore-checkpoint', id: tuned.checkpointId, decoding: tuned.decoding });
       this.tunedName = tuned.name;
     } catch {
       // its checkpoint was deleted or pruned: no fine-tuned reader until one is trained or restored
@@ -294,10 +294,15 @@ export class SpanwrightApp extends LitElement {
   }
 
   /** The fine-tuned reader in use is now `name`, held in checkpoint `checkpointId` (null: not kept over a reload). */
-  private async setTuned(name: string | null, checkpointId: string | null): Promise<void> {
+  private async setTuned(name: string | null, checkpointId: string | null, decoding?: DecodingChoice): Promise<void> {
     this.tunedName = name;
     this.evaluations = { base: this.evaluations.base };
-    await saveState('tuned', name && checkpointId && this.baseInfo ? { name, checkpointId, baseName: this.baseInfo.name } : null);
+    await saveState(
+      'tuned',
+      name && checkpointId && this.baseInfo
+        ? { name, checkpointId, baseName: this.baseInfo.name, ...(decoding ? { decoding } : {}) }
+        : null,
+    );
   }
 
   /** The run's entry in the history, as it stands now. */
@@ -802,7 +807,7 @@ export class SpanwrightApp extends LitElement {
         lastCheckpoint: ended.checkpointId ? { id: ended.checkpointId, step: ended.update } : this.run!.lastCheckpoint,
       };
       // the session decides (src/session/runs.ts): a run with nothing saved leaves the reader in use alone
-      if (ended.replacedTuned) await this.setTuned(ended.tunedReader, ended.checkpointId);
+      if (ended.replacedTuned) await this.setTuned(ended.tunedReader, ended.checkpointId, ended.decoding ?? undefined);
     } catch (err) {
       this.run = { ...this.run!, status: 'failed', error: (err as Error).message };
     }

@@ -13,7 +13,7 @@ import type { QARecord } from '../src/data/record.js';
 import { DEFAULT_SPLIT, type SplitChoice } from '../src/data/split.js';
 import type { RunSummary } from '../src/session/runs.js';
 import type { TrainConfig } from '../src/train/config.js';
-import type { ModelFiles } from '../workers/protocol.js';
+import type { DecodingChoice, ModelFiles } from '../workers/protocol.js';
 import type { PracticeSettings } from './practice-panel.js';
 
 export interface Passage {
@@ -105,6 +105,8 @@ export interface TunedState {
   name: string;
   /** the base reader it was trained from; another base loaded makes it void */
   baseName: string;
+  /** the no-answer cut and kind bonus its run chose on the training questions (not in the checkpoint) */
+  decoding?: DecodingChoice;
 }
 
 export interface WorkbenchState {

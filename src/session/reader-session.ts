@@ -31,7 +31,15 @@ import { int8AccuracyCost, measureInt8Drift } from '../io/int8-check.js';
 import type { ModelCardInfo } from '../io/model-card.js';
 import { namedToSafetensors } from '../io/safetensors.js';
 import { baseWeightsAsIs, howToRun, JOB_PATHS, torchJobFiles } from '../io/torch-job.js';
-import { configToHf, paramCount, withoutDecoding, type DecodingChoice, type QuestionMatch, type ReaderConfig } from '../model/config.js';
+import {
+  configToHf,
+  paramCount,
+  validateConfig,
+  withoutDecoding,
+  type DecodingChoice,
+  type QuestionMatch,
+  type ReaderConfig,
+} from '../model/config.js';
 import { ReaderParams } from '../model/params.js';
 import { withQuestionMatch } from '../model/question-match.js';
 import { makePracticeQuestions, type PracticeOptions, type PracticePassage } from '../practice/generate.js';
@@ -694,8 +702,24 @@ export class ReaderSession {
    */
   async restoreCheckpoint(args: {
     id: string;
+    /**
+     * the decoding its run chose when it ended (FineTuneEnded.decoding, kept by the page):
+     * checkpoints are written before the choice, so a fine-tuned reader restored after a
+     * reload gets it back here; ignored for practice and masked-LM checkpoints
+     */
+    decoding?: DecodingChoice;
   }): Promise<{ id: string; step: number; stage: RunStage; label: string; run: string | null; name: string }> {
     const { reader, meta } = await this.checkpointReader(args.id);
+    if (args.decoding && meta.stage !== 'practice' && meta.stage !== 'domain') {
+      const config = { ...reader.config, decoding: args.decoding };
+      try {
+        validateConfig(config, `checkpoint ${args.id}`, { decoding: 'decoding' });
+      } catch (err) {
+        reader.params.dispose();
+        throw err;
+      }
+      reader.config = config;
+    }
     if (meta.stage === 'practice' || meta.stage === 'domain') {
       this.startReader?.params.dispose();
       this.startReader = reader;

@@ -5,6 +5,8 @@
 import type { EvaluationReport } from '../eval/report.js';
 import type { ModelCardInfo } from '../io/model-card.js';
 import type { DecodingChoice, ReaderConfig } from '../model/config.js';
+
+export type { DecodingChoice };
 import type { AnswerKind } from '../practice/candidates.js';
 import type { PracticeKind } from '../practice/generate.js';
 import type { Metrics } from '../train/loop.js';

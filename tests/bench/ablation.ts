@@ -16,8 +16,12 @@
 //   +match+practice      and practice questions from the training passages first
 //   reading-base         the shipped base (tiny-models/base: span base + word-match types
 //                        + the general reading stage on open text), fine-tuned only
-//   +practice            and practice questions from the training passages first (the demo)
+//   +practice            and practice questions from the training passages first (the
+//                        demo until 2026-12-03)
 //   +practice+domain     and masked-LM on the training passages before that (2 minutes)
+//   +mixed+bonus         the shipped base with the practice questions (20 per passage)
+//                        mixed into fine-tuning instead of a stage before it, and the cut
+//                        chosen together with the kind bonus (the demo now)
 // Scores: SQuAD 2.0 F1 on the held-out questions with the no-answer cut chosen on the
 // training questions (ReaderSession.scoreWithTrainedCut); each row trains with seeds
 // 1 … N (data order, dropout, practice questions), mean and range printed; wall time is
@@ -44,6 +48,10 @@ export interface AblationRow {
   match: boolean;
   practice: boolean;
   domainMinutes: number;
+  /** practice questions mixed into fine-tuning, not a stage before it */
+  mixed?: boolean;
+  /** no-answer cut chosen with the kind bonus */
+  kindBonus?: boolean;
 }
 
 export const ROWS: readonly AblationRow[] = [
@@ -53,6 +61,7 @@ export const ROWS: readonly AblationRow[] = [
   { name: 'reading-base', base: 'tiny-models/base', match: true, practice: false, domainMinutes: 0 },
   { name: '+practice', base: 'tiny-models/base', match: true, practice: true, domainMinutes: 0 },
   { name: '+practice+domain', base: 'tiny-models/base', match: true, practice: true, domainMinutes: 2 },
+  { name: '+mixed+bonus', base: 'tiny-models/base', match: true, practice: true, domainMinutes: 0, mixed: true, kindBonus: true },
 ];
 
 interface SetSpec {
@@ -104,7 +113,14 @@ export interface RunScore {
 /** One row, one set, one seed, through the session (tests/external/reader-measure.ts, measureStages). */
 export async function runOnce(row: AblationRow, set: SetSpec, seed: number, log: (line: string) => void): Promise<RunScore> {
   const r = await measureStages(
-    { baseDir: join(root, row.base), match: row.match, practice: row.practice, domainMinutes: row.domainMinutes },
+    {
+      baseDir: join(root, row.base),
+      match: row.match,
+      practice: row.practice,
+      domainMinutes: row.domainMinutes,
+      mixed: row.mixed,
+      kindBonus: row.kindBonus,
+    },
     { train: set.train, heldOut: set.heldOut },
     { windows: set.windows, fineTune: set.fineTune, practiceMaxLength: set.practiceMaxLength, seed },
   );

@@ -11,6 +11,7 @@ import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { QARecord } from '../../src/data/record.js';
 import { evaluateRecords, predictRecords } from '../../src/eval/evaluate.js';
+import { KIND_BONUS_GRID } from '../../src/eval/span-choice.js';
 import { applyNoAnswerThreshold, evaluate, findBestThresholds, goldFromRecords, type SquadScores } from '../../src/eval/squad-metric.js';
 import { loadCheckpointDir } from '../../src/io/checkpoint-dir.js';
 import type { ReaderConfig } from '../../src/model/config.js';
@@ -123,6 +124,13 @@ export interface StageChoice {
   practice: boolean;
   /** masked-LM on those passages first, for about this many minutes; 0: none */
   domainMinutes: number;
+  /**
+   * the practice questions join the fine-tuning questions (20 per passage, ReaderSession.fineTune's
+   * practiceMix, as `npm run demo` does) instead of a stage of their own before it (40 per passage)
+   */
+  mixed?: boolean;
+  /** the cut chosen together with the kind bonus (KIND_BONUS_GRID, src/eval/span-choice.ts), as a fine-tuned reader saves them */
+  kindBonus?: boolean;
 }
 
 export interface StageScores {
@@ -179,19 +187,29 @@ export async function measureStages(
         })
       ).totalUpdates;
     }
-    if (choice.practice) {
+    if (choice.practice && !choice.mixed) {
       const practice = trainConfig(practiceTrainSettings(config, { epochs: 1, maxLength: settings.practiceMaxLength }));
       updates.practice = (
         await session.practice({ runId: 'practice', passages, questions: { perPassage: 40, seed: settings.seed }, config: practice })
       ).totalUpdates;
     }
     updates.fineTune = (
-      await session.fineTune({ runId: 'fine-tune', train: [...data.train], validation: [], config, datasetHash: 'not-stored' })
+      await session.fineTune({
+        runId: 'fine-tune',
+        train: [...data.train],
+        validation: [],
+        config,
+        datasetHash: 'not-stored',
+        practiceMix: choice.practice && choice.mixed ? { passages, questions: { perPassage: 20, seed: settings.seed } } : undefined,
+        // chosen below, on the same 400 questions for every row
+        chooseDecoding: false,
+      })
     ).totalUpdates;
     const { summary, threshold } = session.scoreWithTrainedCut({
       model: 'tuned',
       tuneOn: data.train.slice(0, 400),
       records: [...data.heldOut],
+      kindBonuses: choice.kindBonus ? KIND_BONUS_GRID : [0],
       ...settings.windows,
     });
     return { scores: summary, threshold, updates, minutes: (performance.now() - started) / 60000 };

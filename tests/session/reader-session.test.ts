@@ -250,6 +250,32 @@ describe('the decoding a fine-tuned reader keeps', () => {
   }, 120_000);
 });
 
+describe('restoring the fine-tuned reader after a reload', () => {
+  it('gets back the decoding its run chose, which its checkpoint does not hold', async () => {
+    await useBackend('wasm');
+    const store = new IdbCheckpointStore<RunMeta>({ dbName: 'session-restore-decoding' });
+    const session = new ReaderSession(store);
+    session.loadBase({ name: 'tiny', files: tinyReaderFiles() });
+    const windows = { maxLength: 96, stride: 16, maxQueryLength: 24 };
+    const config = trainConfig({ ...windows, batchSize: 4, gradAccumulation: 1, epochs: 1, learningRate: 1e-3 });
+    const ended = await session.fineTune({ runId: 'r1', train: records(), validation: [], config, datasetHash: 'h' });
+    const id = ended.checkpointId!;
+    const chosen = ended.decoding!;
+    const before = session.evaluate({ model: 'tuned', records: records(), ...windows });
+    await session.restoreCheckpoint({ id });
+    expect(session.reader('tuned').config.decoding).toBeUndefined();
+    await session.restoreCheckpoint({ id, decoding: chosen });
+    expect(session.reader('tuned').config.decoding).toEqual(chosen);
+    // the last checkpoint holds the run's final weights: the same scores as before the reload
+    expect(session.evaluate({ model: 'tuned', records: records(), ...windows }).summary).toEqual(before.summary);
+    await expect(session.restoreCheckpoint({ id, decoding: { nullThreshold: Number.NaN, kindBonus: 0 } })).rejects.toThrow(
+      new RegExp(`checkpoint ${id}: invalid reader config: decoding\\.null_threshold must be a finite number`),
+    );
+    expect(session.reader('tuned').config.decoding).toEqual(chosen);
+    session.dispose();
+  }, 120_000);
+});
+
 describe('exporting a saved checkpoint', () => {
   it('writes that checkpoint’s weights and run, and leaves the reader in use alone', async () => {
     await useBackend('wasm');
