@@ -141,6 +141,24 @@ export function chooseAnswer(
   let nullScore = Infinity;
   let nullWindow = windows[0]!.window;
   const bySpan = new Map<string, SpanCandidate>();
+  /** the span from token s to e of window `win`, kept when it beats what that character span had */
+  const offer = (win: DecodableWindow, logit: WindowLogits, s: number, e: number, charStart: number, charEnd: number, extra = 0) => {
+    const score = logit.startLogits[s]! + logit.endLogits[e]! + extra;
+    const key = `${charStart}:${charEnd}`;
+    const seen = bySpan.get(key);
+    if (seen && seen.score >= score) return;
+    bySpan.set(key, {
+      text: context.slice(charStart, charEnd),
+      charStart,
+      charEnd,
+      score,
+      startLogit: logit.startLogits[s]!,
+      endLogit: logit.endLogits[e]!,
+      window: win.window,
+      startToken: s,
+      endToken: e,
+    });
+  };
 
   for (let w = 0; w < windows.length; w++) {
     const win = windows[w]!;
@@ -174,21 +192,7 @@ export function chooseAnswer(
         }
         while (charStart > 0 && inWord(context, charStart - 1) && inWord(context, charStart)) charStart--;
         while (charEnd < context.length && inWord(context, charEnd) && inWord(context, charEnd - 1)) charEnd++;
-        const score = startLogits[s]! + endLogits[e]!;
-        const key = `${charStart}:${charEnd}`;
-        const seen = bySpan.get(key);
-        if (seen && seen.score >= score) continue;
-        bySpan.set(key, {
-          text: context.slice(charStart, charEnd),
-          charStart,
-          charEnd,
-          score,
-          startLogit: startLogits[s]!,
-          endLogit: endLogits[e]!,
-          window: win.window,
-          startToken: s,
-          endToken: e,
-        });
+        offer(win, logits[w]!, s, e, charStart, charEnd);
       }
     }
 
@@ -203,21 +207,7 @@ export function chooseAnswer(
         }
         if (s < 0 || e < s || offsets[2 * s]! !== cs || offsets[2 * e + 1]! !== ce) continue;
         if (e - s + 1 > maxAnswerLength) continue;
-        const score = startLogits[s]! + endLogits[e]! + bonus;
-        const key = `${cs}:${ce}`;
-        const seen = bySpan.get(key);
-        if (seen && seen.score >= score) continue;
-        bySpan.set(key, {
-          text: context.slice(cs, ce),
-          charStart: cs,
-          charEnd: ce,
-          score,
-          startLogit: startLogits[s]!,
-          endLogit: endLogits[e]!,
-          window: win.window,
-          startToken: s,
-          endToken: e,
-        });
+        offer(win, logits[w]!, s, e, cs, ce, bonus);
       }
     }
   }
