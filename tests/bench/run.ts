@@ -1,7 +1,7 @@
 // defines: `npm run bench` — every benchmark in one run.
 //   1. the tokenizer bench (tests/bench/tokenize.ts, another stage's), when present,
 //      in its own process so the two do not share a heap
-//   2. with --quality only (it trains for hours: 6 rows × 2 sets × 3 seeds): the
+//   2. with --quality only (it trains for hours: 7 rows × 2 sets × 3 seeds): the
 //      ablation table of the reader's stages (ablation.ts; --seeds, --rows, --sets narrow
 //      it), with --json one `{"ablation": …}` line; with --curves, the learning curves of
 //      the shipped base (quality.ts, 10–15 minutes), with --json one `{"quality": …}` line
