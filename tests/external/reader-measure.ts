@@ -125,8 +125,9 @@ export interface StageChoice {
   /** masked-LM on those passages first, for about this many minutes; 0: none */
   domainMinutes: number;
   /**
-   * the practice questions join the fine-tuning questions (20 per passage, ReaderSession.fineTune's
-   * practiceMix, as `npm run demo` does) instead of a stage of their own before it (40 per passage)
+   * the practice questions join the fine-tuning questions (20 per passage and epoch, new ones each
+   * epoch: ReaderSession.fineTune's practiceMix, as `npm run demo` does) instead of a stage of their
+   * own before it (40 per passage)
    */
   mixed?: boolean;
   /** the cut chosen together with the kind bonus (KIND_BONUS_GRID, src/eval/span-choice.ts), as a fine-tuned reader saves them */

@@ -15,7 +15,8 @@ import { CAUTION } from '../../src/io/model-card.js';
 import { namedToSafetensors, readSafetensors } from '../../src/io/safetensors.js';
 import { configToHf, presetConfig } from '../../src/model/config.js';
 import { ReaderParams } from '../../src/model/params.js';
-import { nestedShares, passagesOf, ReaderSession } from '../../src/session/reader-session.js';
+import { makePracticeQuestions } from '../../src/practice/generate.js';
+import { mixedTrainingSet, nestedShares, passagesOf, ReaderSession } from '../../src/session/reader-session.js';
 import { practiceTrainSettings, resolveWindows } from '../../src/session/windows.js';
 import { trainConfig } from '../../src/train/config.js';
 import type { RunMeta } from '../../src/train/finetune.js';
@@ -98,6 +99,26 @@ describe('nested shares of the training questions', () => {
     const shuffled = nestedShares([...recs].reverse(), [0.25, 0.5, 1], 3);
     expect(shuffled.map((s) => s.passages)).toEqual(shares.map((s) => s.passages));
     expect(() => nestedShares(recs, [0], 3)).toThrow(/share must be in \(0, 1\]/);
+  });
+});
+
+describe('practice questions mixed into fine-tuning', () => {
+  it('are new for every epoch, beside one copy of the labelled questions per epoch, in one pass', () => {
+    const labelled = records();
+    const config = trainConfig({ epochs: 3, seed: 5 });
+    const mix = { passages, questions: { perPassage: 6, seed: 5 } };
+    const { train, config: pass } = mixedTrainingSet(labelled, mix, config);
+    expect(pass.epochs).toBe(1);
+    expect(pass.learningRate).toBe(config.learningRate);
+    const copies = train.filter((r) => labelled.some((l) => r.id === l.id || r.id.startsWith(`${l.id}#`)));
+    expect(copies.map((r) => r.id)).toEqual([1, 2, 3].flatMap((e) => labelled.map((l) => (e === 1 ? l.id : `${l.id}#${e}`))));
+    expect(copies.map((r) => r.question)).toEqual([1, 2, 3].flatMap(() => labelled.map((l) => l.question)));
+    const practice = train.slice(copies.length);
+    // the practice questions of 3 epochs at 6 a passage: as the generator writes 18 a passage
+    expect(practice).toEqual(makePracticeQuestions(passages, { perPassage: 18, seed: 5 }).records);
+    expect(practice.length).toBeGreaterThan(makePracticeQuestions(passages, mix.questions).records.length * 2);
+    expect(new Set(train.map((r) => r.id)).size).toBe(train.length);
+    expect(() => mixedTrainingSet(labelled, { passages: [{ id: 'x', text: 'ok' }] }, config)).toThrow(/no practice question/);
   });
 });
 

@@ -147,9 +147,9 @@ export const PRACTICE_DEFAULTS = {
   /** questions per passage (src/practice/generate.ts) */
   perPassage: 40,
   /**
-   * questions per passage when they join the fine-tuning questions (--practice-mixed): they
-   * are seen once per fine-tuning epoch, so half of a stage's 40 gives as many passes over
-   * practice questions as the stage would in the 2 epochs of the demo
+   * questions per passage and epoch when they join the fine-tuning questions
+   * (--practice-mixed): every epoch gets new ones (ReaderSession's mixedTrainingSet), half a
+   * stage's 40 each time
    */
   mixedPerPassage: 20,
   /** windows of 256 tokens: passages of a few hundred words in two or three windows */
@@ -373,13 +373,17 @@ export async function trainReader(
     const mix = step?.practice && step.mixed ? { passages: step.passages, questions: step.questions } : undefined;
     let mixedPractice: TrainRun['mixedPractice'] = null;
     if (mix) {
-      const preview = session.previewPractice({ ...mix, sample: 0 });
+      const { mixedPracticeOptions } = await import('../../session/reader-session.js');
+      const preview = session.previewPractice({ ...mix, questions: mixedPracticeOptions(mix.questions, config.epochs), sample: 0 });
       mixedPractice = { questions: preview.questions };
       log(
-        `practice (mixed into fine-tuning): ${preview.questions} questions (${preview.unanswerable} without an answer) written from ${preview.passages} passages of ${step!.source}`,
+        `practice (mixed into fine-tuning, new ones for each of the ${config.epochs} epochs): ${preview.questions} questions (${preview.unanswerable} without an answer) written from ${preview.passages} passages of ${step!.source}; the labelled questions are repeated once per epoch and the whole set trained in one pass`,
       );
     }
-    const fineTuneHash = mix ? `${datasetHash}+practice:${mix.passages.length}:${JSON.stringify(mix.questions ?? {})}` : datasetHash;
+    // the mixed set depends on the epochs too: every epoch has practice questions of its own
+    const fineTuneHash = mix
+      ? `${datasetHash}+practice:${mix.passages.length}:${JSON.stringify(mix.questions ?? {})}:epochs ${config.epochs}`
+      : datasetHash;
     let resumeFrom: string | undefined;
     if (o.resume) {
       const last = await session.latestCheckpoint({ datasetHash: fineTuneHash });
@@ -507,9 +511,12 @@ export function register(program: Command): void {
     .option('--practice-epochs <n>', `passes over the practice questions (default ${PRACTICE_DEFAULTS.epochs})`)
     .option(
       '--practice-per-passage <n>',
-      `practice questions per passage (default ${PRACTICE_DEFAULTS.perPassage}, or ${PRACTICE_DEFAULTS.mixedPerPassage} with --practice-mixed)`,
+      `practice questions per passage (default ${PRACTICE_DEFAULTS.perPassage}, or ${PRACTICE_DEFAULTS.mixedPerPassage} per epoch with --practice-mixed)`,
     )
-    .option('--practice-mixed', 'put the practice questions among the training questions of fine-tuning instead of a stage before it')
+    .option(
+      '--practice-mixed',
+      'put the practice questions among the training questions of fine-tuning instead of a stage before it, new ones for every epoch',
+    )
     .option('--practice-max-len <n>', `tokens per practice window (default ${PRACTICE_DEFAULTS.maxLength})`)
     .option(
       '--domain-minutes <n>',
