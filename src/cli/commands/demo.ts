@@ -63,7 +63,7 @@ export function register(program: Command): void {
           }
           const out = o.out ?? join('runs', `demo-${stamp()}`);
           // mixed in, the practice questions are new for each epoch, so more epochs keep teaching:
-          // 4 gave F1 41.8 on 3 seeds, 2 gave 39.5 (DEVELOPERS.md, "Practice questions")
+          // 4 gave F1 41.8 on 3 seeds, 2 gave 39.5 (DEVELOPERS.md, "Facts found while building")
           const mixed = o.practiceStage !== true && o.practiceEpochs !== '0';
           const epochs = o.epochs ?? (mixed ? '4' : '2');
           const options: TrainOptions = { train, base: o.base, out, epochs, lr: o.lr, seed: o.seed };
